@@ -1,0 +1,44 @@
+# qhdesign developer commands. Everything runs inside .venv (Python >= 3.12).
+SHELL := /bin/bash
+VENV := .venv
+PY := $(VENV)/bin/python
+QH := $(VENV)/bin/qhdesign
+OUT := results/demo
+STACK := stacks/ql2417_screened.toml
+
+# First interpreter that really runs and is >= 3.12 (pyenv shims can exist but fail).
+PYTHON_CANDIDATES := python3.13 python3.12 python3 $(wildcard $(HOME)/.pyenv/versions/3.1[2-9]*/bin/python3)
+BASE_PY := $(shell for p in $(PYTHON_CANDIDATES); do \
+    if $$p -c 'import sys; sys.exit(0 if sys.version_info >= (3, 12) else 1)' >/dev/null 2>&1; then \
+      command -v $$p 2>/dev/null || echo $$p; break; fi; done)
+
+.PHONY: demo test bench lint venv clean
+
+$(VENV)/.installed: pyproject.toml
+	@if [ -z "$(BASE_PY)" ]; then \
+	  echo "error: no Python >= 3.12 found (tried: $(PYTHON_CANDIDATES))" >&2; exit 2; fi
+	@echo "using $(BASE_PY)"
+	@test -x $(PY) || $(BASE_PY) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[test]'
+	@touch $@
+
+venv: $(VENV)/.installed
+
+demo: $(VENV)/.installed
+	@mkdir -p $(OUT)
+	$(QH) check $(STACK) --plot $(OUT)/layers.png
+	@echo "demo results in $(OUT)/"
+
+test: $(VENV)/.installed
+	$(PY) -m pytest -q
+
+bench: $(VENV)/.installed
+	@for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
+
+lint: $(VENV)/.installed
+	$(VENV)/bin/ruff check qhdesign tests benchmarks notebooks
+	$(VENV)/bin/ruff format --check qhdesign tests benchmarks notebooks
+
+clean:
+	rm -rf $(VENV) results .pytest_cache

@@ -1,0 +1,94 @@
+"""One error hierarchy for qhdesign.
+
+Every error a user can cause (a bad stack file, a bad option) is a :class:`QHDesignError`.
+The CLI turns these into a single line and exit code 2; anything else is a bug and keeps
+its traceback.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+__all__ = [
+    "ConvergenceError",
+    "InputError",
+    "QHDesignError",
+    "StackError",
+]
+
+
+class QHDesignError(Exception):
+    """Base class of every error qhdesign raises on purpose."""
+
+
+class InputError(QHDesignError, ValueError):
+    """Bad user input: names where it came from (file and key, or option) and what is allowed.
+
+    Parameters
+    ----------
+    message
+        What is wrong and what is allowed.
+    source
+        The file path or ``"option --name"`` the value came from, if known.
+    key
+        Dotted key path inside the source (``layers.spacer.thickness``), if any.
+    """
+
+    def __init__(self, message: str, *, source: str | None = None, key: str | None = None):
+        self.message = message
+        self.source = source
+        self.key = key
+        super().__init__(self.one_line())
+
+    def one_line(self) -> str:
+        where = []
+        if self.source:
+            where.append(str(self.source))
+        if self.key:
+            where.append(f"key '{self.key}'")
+        prefix = ": ".join(where)
+        text = f"{prefix}: {self.message}" if prefix else self.message
+        return " ".join(text.split())  # always one line
+
+
+class StackError(InputError):
+    """A layer-stack file (or a parameter set on a stack) is invalid."""
+
+
+class ConvergenceError(QHDesignError, RuntimeError):
+    """An iterative solver did not converge.
+
+    Parameters
+    ----------
+    solver
+        Which solver (``"1D Schrödinger–Poisson"``, ``"2D Thomas–Fermi Newton"``).
+    iterations
+        Iterations done before giving up.
+    residuals
+        Residual history, one value per iteration, in the units ``residual_unit`` names.
+    """
+
+    def __init__(
+        self,
+        solver: str,
+        iterations: int,
+        residuals: Sequence[float],
+        residual_unit: str = "",
+        reason: str = "",
+    ):
+        self.solver = solver
+        self.iterations = int(iterations)
+        self.residuals = [float(r) for r in residuals]
+        self.residual_unit = residual_unit
+        self.reason = reason
+        super().__init__(self.one_line())
+
+    def one_line(self) -> str:
+        hist = ", ".join(f"{r:.3g}" for r in self.residuals[-8:])
+        more = "... " if len(self.residuals) > 8 else ""
+        unit = f" {self.residual_unit}" if self.residual_unit else ""
+        why = f" ({self.reason})" if self.reason else ""
+        return (
+            f"{self.solver} did not converge after {self.iterations} iterations{why}; "
+            f"residual history{unit}: {more}{hist}"
+        )
