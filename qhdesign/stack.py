@@ -27,7 +27,7 @@ from scipy import constants as sc
 
 from . import materials
 from .errors import InputError, StackError
-from .units import parse_quantity
+from .units import DIMENSIONS, parse_quantity
 
 __all__ = ["Doping", "Layer", "LayerProfile", "Stack", "Substrate", "Surface", "load_stack"]
 
@@ -331,15 +331,7 @@ class Stack:
         last = doc_path[-1]
         if isinstance(node, dict) and last in node:
             value = node[last]
-            if (
-                isinstance(kind, str)
-                and kind in _WRITE_UNITS
-                or kind
-                in (
-                    "area",
-                    "field",
-                )
-            ):
+            if isinstance(kind, str) and kind in DIMENSIONS:
                 return parse_quantity(value, kind, source=self.source, key=path)
             if kind == "number":
                 return float(value)
@@ -525,7 +517,8 @@ def _build(raw: dict, src: str) -> Stack:
     for k in raw:
         if k not in _TOP_KEYS:
             raise StackError(
-                f"unknown table '{k}'{_did_you_mean(k, _TOP_KEYS)}; allowed: {', '.join(_TOP_KEYS)}",
+                f"unknown table '{k}'{_did_you_mean(k, _TOP_KEYS)}; "
+                f"allowed: {', '.join(_TOP_KEYS)}",
                 source=src,
                 key=k,
             )
@@ -669,7 +662,8 @@ def _build_layers(arr: Any, src: str) -> tuple[tuple[Layer, ...], list[str]]:
         name = _read(tab, "name", "text", where, src)
         if not _NAME_RE.match(name):
             raise StackError(
-                f"layer name '{name}' must start with a letter or _ and use letters, digits, _ or -",
+                f"layer name '{name}' must start with a letter or _ and use only letters, "
+                "digits, _ or -",
                 source=src,
                 key=f"layers[{i}].name",
             )
@@ -951,7 +945,7 @@ def dump_document(raw: dict) -> str:
     """Write a stack document (the schema of ``docs/stack-format.md``) as TOML text."""
     lines: list[str] = []
     for table in ("wafer", "models", "surface"):
-        if table in raw and raw[table]:
+        if raw.get(table):
             lines.append(f"[{table}]")
             lines += [f"{k} = {_toml_value(v)}" for k, v in raw[table].items()]
             lines.append("")

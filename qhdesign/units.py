@@ -90,7 +90,8 @@ def parse_quantity(
         q = ureg.Quantity(text.replace("^", "**"))
     except Exception:  # pint raises several unrelated types on garbage
         raise InputError(
-            f"cannot read '{value}' as a {dimension.replace('_', ' ')}; expected e.g. \"{example}\"",
+            f"cannot read '{value}' as a {dimension.replace('_', ' ')}; "
+            f'expected e.g. "{example}"',
             source=source,
             key=key,
         ) from None
