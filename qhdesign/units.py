@@ -22,7 +22,7 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "energy": ("[energy]", "J", "0.75 eV"),
     "voltage": ("[electric_potential]", "V", "-0.35 V"),
     "temperature": ("[temperature]", "K", "300 mK"),
-    "field": ("[magnetic_flux_density]", "T", "5 T"),
+    "field": ("[mass]/[current]/[time]**2", "T", "5 T"),
     "area": ("[length]**2", "m**2", "1 um^2"),
     "velocity": ("[length]/[time]", "m/s", "5e4 m/s"),
     "electric_field": ("[electric_potential]/[length]", "V/m", "1e6 V/m"),
@@ -38,6 +38,11 @@ def registry():
 
     ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
     return ureg
+
+
+@functools.cache
+def _dimensionality(si_unit: str):
+    return registry().Quantity(1.0, si_unit).dimensionality
 
 
 def parse_quantity(
@@ -69,7 +74,7 @@ def parse_quantity(
     InputError
         If the string has no unit, an unknown unit, or a unit of another dimension.
     """
-    dim, si_unit, example = DIMENSIONS[dimension]
+    _, si_unit, example = DIMENSIONS[dimension]
     if isinstance(value, bool) or not isinstance(value, str):
         raise InputError(
             f"expected a {dimension.replace('_', ' ')} as a string with a unit "
@@ -95,7 +100,7 @@ def parse_quantity(
             source=source,
             key=key,
         ) from None
-    if not hasattr(q, "dimensionality") or q.dimensionality != ureg.get_dimensionality(dim):
+    if not hasattr(q, "dimensionality") or q.dimensionality != _dimensionality(si_unit):
         raise InputError(
             f"'{value}' is not a {dimension.replace('_', ' ')} (expected units like \"{example}\")",
             source=source,
