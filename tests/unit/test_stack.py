@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import itertools
+
 import pytest
 from conftest import SCREENED, STACKS
 from scipy import constants as sc
@@ -30,7 +32,7 @@ def test_profile_is_contiguous_and_sourced(path):
     stack = load_stack(path)
     prof = stack.profile()
     assert prof[0].z_top == 0.0
-    for a, b in zip(prof, prof[1:], strict=False):
+    for a, b in itertools.pairwise(prof):
         assert a.z_bottom == pytest.approx(b.z_top, abs=1e-18)
     assert prof[-1].z_bottom == pytest.approx(stack.total_thickness)
 
