@@ -1,0 +1,59 @@
+# %% [markdown]
+# # Comparing the bundled stacks
+# A grower's first look at three Quillfeather Epitaxy Lab wafers (invented examples): load each
+# stack, list its wells and their depths, and draw the layer diagrams side by side.
+# This notebook is a jupytext "percent" script: run it as `python notebooks/01_compare_stacks.py`
+# or open it in Jupyter with jupytext. The test suite runs it.
+
+# %%
+from pathlib import Path
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt
+
+import qhdesign
+from qhdesign.plotting.layers import plot_layers
+
+root = Path(__file__).resolve().parents[1] if "__file__" in globals() else Path.cwd().parent
+stacks = sorted((root / "stacks").glob("*.toml"))
+
+# %% [markdown]
+# ## Wells and their depths
+# Depths are measured from the semiconductor surface to the well centre.
+
+# %%
+for path in stacks:
+    stack = qhdesign.load_stack(path)
+    prof = {p.name: p for p in stack.profile()}
+    wells = [
+        f"{w.name} ({w.well}) at {0.5 * (prof[w.name].z_top + prof[w.name].z_bottom) * 1e9:.0f} nm"
+        for w in stack.wells()
+    ]
+    print(f"{stack.name}: {', '.join(wells)}")
+
+# %% [markdown]
+# ## A parameter path changes one value and re-validates
+# Moving the upper screening well 4 nm closer to the primary well:
+
+# %%
+screened = qhdesign.load_stack(root / "stacks" / "ql2417_screened.toml")
+closer = screened.with_value("layers.setback_upper.thickness", "24 nm")
+print(
+    "setback_upper:",
+    screened.get("layers.setback_upper.thickness") * 1e9,
+    "->",
+    closer.get("layers.setback_upper.thickness") * 1e9,
+    "nm",
+)
+
+# %%
+fig, axes = plt.subplots(len(stacks), 1, figsize=(8, 3.2 * len(stacks)))
+for ax, path in zip(axes, stacks, strict=True):
+    plot_layers(qhdesign.load_stack(path), ax=ax)
+fig.tight_layout()
+out = root / "results" / "notebooks"
+out.mkdir(parents=True, exist_ok=True)
+fig.savefig(out / "01_compare_stacks.png", dpi=100)
+print("wrote", out / "01_compare_stacks.png")
