@@ -1,0 +1,229 @@
+"""Figures of a sweep CSV: design-window maps, one-parameter lines, Monte Carlo histograms.
+
+Every function takes an optional ``ax`` (or draws a new figure) and returns the figure. The Agg
+backend is selected when no figure canvas is given, so this runs on headless machines.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+
+from qhdesign.errors import InputError
+
+__all__ = ["design_window", "histograms", "line_plot", "plot_sweep_table"]
+
+
+def _plt():
+    import matplotlib
+
+    if matplotlib.get_backend().lower() not in ("agg", "pdf", "svg", "ps", "cairo"):
+        matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+def _tri(x, y):
+    from matplotlib.tri import Triangulation
+
+    return Triangulation(np.asarray(x, dtype=float), np.asarray(y, dtype=float))
+
+
+def feasible_mask(table, criteria: Mapping[str, tuple[float, float]] | None) -> np.ndarray:
+    """True where the design solved and meets every ``min <= value <= max``."""
+    good = table.ok.copy()
+    for name, (lo, hi) in (criteria or {}).items():
+        v = table.column(name).astype(float)
+        with np.errstate(invalid="ignore"):
+            good &= np.isfinite(v) & (v >= lo) & (v <= hi)
+    return good
+
+
+def _criteria(table, criteria):
+    if criteria is None:
+        criteria = table.meta.get("criteria", {}) or {}
+    return {table.resolve(k, "output"): (float(v[0]), float(v[1])) for k, v in criteria.items()}
+
+
+def design_window(
+    table,
+    x: str,
+    y: str,
+    color: str,
+    contours: Sequence[tuple[str, float]] = (),
+    criteria: Mapping[str, tuple[float, float]] | None = None,
+    ax=None,
+):
+    """Colour map of ``color`` over two swept parameters, contour lines, infeasible part hatched.
+
+    Works for grids and scattered (Latin hypercube) designs alike: values are triangulated.
+    """
+    plt = _plt()
+    if ax is None:
+        fig, ax = plt.subplots(figsize=(6.4, 4.8), layout="constrained")
+    else:
+        fig = ax.figure
+    xc, yc, cc = table.resolve(x, "parameter"), table.resolve(y, "parameter"), table.resolve(color)
+    xs, ys, cs = table.data[xc], table.data[yc], table.data[cc].astype(float)
+    ok = table.ok & np.isfinite(cs)
+    if ok.sum() >= 3 and len(set(xs[ok])) > 1 and len(set(ys[ok])) > 1:
+        m = ax.tricontourf(_tri(xs[ok], ys[ok]), cs[ok], levels=20, cmap="viridis")
+        fig.colorbar(m, ax=ax, label=cc)
+    else:
+        m = ax.scatter(xs[ok], ys[ok], c=cs[ok], cmap="viridis")
+        fig.colorbar(m, ax=ax, label=cc)
+    for name, value in contours:
+        col = table.resolve(name, "output")
+        v = table.data[col].astype(float)
+        sel = table.ok & np.isfinite(v)
+        if sel.sum() >= 3 and np.nanmin(v[sel]) <= value <= np.nanmax(v[sel]):
+            cs_ = ax.tricontour(
+                _tri(xs[sel], ys[sel]), v[sel], levels=[value], colors="w", linewidths=1.5
+            )
+            ax.clabel(cs_, fmt={value: f"{col} = {value:g}"}, fontsize=7)
+    crit = _criteria(table, criteria)
+    spread = len(set(xs)) > 1 and len(set(ys)) > 1
+    # Hatch where a criterion fails, from the output itself so the boundary is smooth.
+    for name, (lo, hi) in crit.items():
+        v = table.data[name].astype(float)
+        sel = table.ok & np.isfinite(v)
+        if sel.sum() < 3 or not spread:
+            continue
+        vmin, vmax = float(np.min(v[sel])), float(np.max(v[sel]))
+        pad = 1.0 + abs(vmax - vmin)
+        bands = []
+        if vmin < lo:  # some designs fall below the minimum
+            bands.append(((vmin - pad, lo), lo))
+        if hi < vmax:  # some designs exceed the maximum
+            bands.append(((hi, vmax + pad), hi))
+        for levels, edge in bands:
+            ax.tricontourf(
+                _tri(xs[sel], ys[sel]), v[sel], levels=list(levels), colors="none", hatches=["////"]
+            )
+            ax.tricontour(
+                _tri(xs[sel], ys[sel]), v[sel], levels=[edge], colors="0.2", linewidths=0.8
+            )
+    failed = ~table.ok
+    if failed.any() and spread:
+        ax.tricontourf(
+            _tri(xs, ys), failed.astype(float), levels=[0.5, 1.5], colors="none", hatches=["xx"]
+        )
+    failed = ~table.ok
+    if failed.any():
+        ax.plot(xs[failed], ys[failed], "x", color="r", ms=5, label="failed design")
+        ax.legend(loc="best", fontsize=8)
+    ax.set_xlabel(xc)
+    ax.set_ylabel(yc)
+    title = "hatched: infeasible"
+    if crit:
+        title += "\nfeasible: " + ", ".join(_crit_text(k, v) for k, v in crit.items())
+    ax.set_title(title, fontsize=8)
+    return fig
+
+
+def _crit_text(name: str, bounds: tuple[float, float]) -> str:
+    lo, hi = bounds
+    if math.isinf(lo):
+        return f"{name} <= {hi:g}"
+    if math.isinf(hi):
+        return f"{name} >= {lo:g}"
+    return f"{lo:g} <= {name} <= {hi:g}"
+
+
+def line_plot(table, x: str, outputs: Sequence[str], criteria=None, ax=None):
+    """Outputs against one swept parameter; infeasible designs marked, failed ones crossed."""
+    plt = _plt()
+    if ax is None:
+        fig, ax = plt.subplots(figsize=(6.4, 4.2), layout="constrained")
+    else:
+        fig = ax.figure
+    xc = table.resolve(x, "parameter")
+    xs = table.data[xc]
+    order = np.argsort(xs, kind="stable")
+    crit = _criteria(table, criteria)
+    bad = ~feasible_mask(table, crit)
+    for name in outputs:
+        col = table.resolve(name, "output")
+        v = table.data[col].astype(float)
+        sel = order[table.ok[order]]
+        ax.plot(xs[sel], v[sel], "o-", ms=3, label=col)
+        nb = sel[bad[sel]]
+        if nb.size:
+            ax.plot(xs[nb], v[nb], "o", mfc="none", mec="k", ms=7)
+    if bad.any():
+        lo, hi = ax.get_ylim()
+        for xv in xs[bad]:
+            ax.axvline(xv, color="0.6", lw=0.5, ls=":")
+        ax.set_ylim(lo, hi)
+    failed = ~table.ok
+    for xv in xs[failed]:
+        ax.axvline(xv, color="r", lw=0.8, ls="--")
+    ax.set_xlabel(xc)
+    ax.legend(fontsize=8)
+    ax.set_title("circled/dotted: infeasible; red dashed: failed design", fontsize=8)
+    return fig
+
+
+def histograms(table, outputs: Sequence[str], criteria=None):
+    """Histogram of each output over the Monte Carlo samples with P5, P50 and P95 marked."""
+    plt = _plt()
+    n = len(outputs)
+    ncol = min(n, 3)
+    nrow = math.ceil(n / ncol)
+    fig, axes = plt.subplots(
+        nrow, ncol, figsize=(4.2 * ncol, 3.2 * nrow), layout="constrained", squeeze=False
+    )
+    crit = _criteria(table, criteria)
+    good = feasible_mask(table, crit)
+    for ax, name in zip(axes.flat, outputs, strict=False):
+        col = table.resolve(name, "output")
+        v = table.data[col].astype(float)
+        sel = table.ok & np.isfinite(v)
+        if not sel.any():
+            ax.set_title(f"{col}: no solved samples", fontsize=8)
+            continue
+        bins = np.histogram_bin_edges(v[sel], bins="auto")
+        ax.hist(v[sel], bins=bins, color="C0", alpha=0.8, label="all solved")
+        if crit:
+            ax.hist(
+                v[sel & ~good],
+                bins=bins,
+                color="none",
+                edgecolor="k",
+                hatch="///",
+                label="fails criteria",
+            )
+        for q, ls in zip(np.percentile(v[sel], [5, 50, 95]), (":", "-", ":"), strict=True):
+            ax.axvline(q, color="k", ls=ls, lw=1)
+        ax.set_xlabel(col, fontsize=8)
+        ax.set_title("P5 / P50 / P95 marked", fontsize=8)
+        if crit:
+            ax.legend(fontsize=7)
+    for ax in list(axes.flat)[n:]:
+        ax.set_visible(False)
+    return fig
+
+
+def plot_sweep_table(table, x=None, y=None, color=(), contours=(), criteria=None):
+    """Pick the figure from the arguments: map (x and y), line (x) or histograms (neither)."""
+    color = list(color)
+    outputs = [o for o in table.outputs if table.data[o].dtype != object]
+    if y is not None and x is None:
+        raise InputError("--y needs --x", source="option --y")
+    if x is not None and y is not None:
+        if len(color) > 1:
+            raise InputError("a map shows one --color output", source="option --color")
+        if not outputs and not color:
+            raise InputError("the CSV has no numeric outputs", source=table.source)
+        return design_window(table, x, y, color[0] if color else outputs[0], contours, criteria)
+    if contours:
+        raise InputError("--contour needs a map (--x and --y)", source="option --contour")
+    shown = color or outputs[:6]
+    if not shown:
+        raise InputError("the CSV has no numeric outputs", source=table.source)
+    if x is not None:
+        return line_plot(table, x, shown, criteria)
+    return histograms(table, shown, criteria)

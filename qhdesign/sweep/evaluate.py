@@ -1,0 +1,114 @@
+"""The worker side of a sweep: apply a design to the base stack, run the stage, time it.
+
+This module is what executor processes import; it stays small and imports the stage module only
+on first use. Failures are data, not crashes: a design whose values the stack refuses is
+``invalid``, a solver that does not converge is ``not_converged``; both record their one-line
+error and the sweep goes on. Any other exception is a bug in a stage: it is recorded with status
+``error`` and its exception type, so a 10^4-design sweep is not lost to one bad design, and the
+summary reports the count.
+"""
+
+from __future__ import annotations
+
+import copy
+import hashlib
+import time
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+from qhdesign.errors import ConvergenceError, InputError, QHDesignError
+
+__all__ = ["STATUSES", "Job", "apply_values", "design_key", "evaluate_chunk", "evaluate_design"]
+
+#: Row status values, in the order the summary lists them.
+STATUSES = ("ok", "not_converged", "invalid", "error")
+
+
+@dataclass(frozen=True)
+class Job:
+    """What every worker needs: the stage, its options and the base stack."""
+
+    stage: str
+    stack: Any
+    options: Mapping[str, Any] = field(default_factory=dict)
+
+
+def design_key(params: Mapping[str, float]) -> str:
+    """Row key: 16 hex digits of SHA-256 over the sorted ``name=repr(value)`` pairs."""
+    text = ";".join(f"{k}={float(v)!r}" for k, v in sorted(params.items()))
+    return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+def apply_values(stack, values: Mapping[str, float]):
+    """The stack with every ``path -> SI value`` of ``values`` set, validated once at the end.
+
+    Uses ``Stack.with_values`` when the stack offers it; otherwise edits a copy of the stack
+    document and rebuilds it once (one validation instead of one per path), falling back to
+    chained ``with_value`` calls if the stack module's internals differ.
+    """
+    if not values:
+        return stack
+    bulk = getattr(stack, "with_values", None)
+    if bulk is not None:
+        return bulk(dict(values))
+    try:
+        from qhdesign import stack as stack_mod
+
+        resolve = stack_mod._resolve_path
+        fmt = stack_mod._format_si
+        units = stack_mod._WRITE_UNITS
+        build = stack_mod._build
+        denorm = stack_mod._denormalize
+    except AttributeError:  # pragma: no cover - internals changed: slow but correct
+        for path, v in values.items():
+            stack = stack.with_value(path, v)
+        return stack
+    doc = copy.deepcopy(stack.document)
+    for path, v in values.items():
+        doc_path, kind = resolve(stack, path)
+        node = doc
+        for part in doc_path[:-1]:
+            node = node.setdefault(part, {})
+        if isinstance(kind, str) and kind in units and not isinstance(v, str):
+            v = fmt(float(v), kind)
+        node[doc_path[-1]] = v
+    return build(denorm(doc), stack.source)
+
+
+def evaluate_design(job: Job, values: Mapping[str, float]) -> tuple[dict | None, str, str, float]:
+    """Evaluate one design: ``(outputs or None, status, error text, stage seconds)``."""
+    from .stages import get_stage
+
+    try:
+        stack = apply_values(job.stack, values)
+    except QHDesignError as exc:
+        return None, "invalid", _one_line(exc), 0.0
+    fn = get_stage(job.stage)
+    t0 = time.perf_counter()
+    try:
+        out = fn(stack, **dict(job.options))
+    except ConvergenceError as exc:
+        return None, "not_converged", _one_line(exc), time.perf_counter() - t0
+    except QHDesignError as exc:
+        return None, "invalid", _one_line(exc), time.perf_counter() - t0
+    except Exception as exc:  # a bug in a stage: keep the sweep going, record it
+        return None, "error", f"{type(exc).__name__}: {_one_line(exc)}", time.perf_counter() - t0
+    return dict(out), "ok", "", time.perf_counter() - t0
+
+
+def evaluate_chunk(
+    job: Job, chunk: Sequence[tuple[int, Mapping[str, float]]]
+) -> list[tuple[int, dict | None, str, str, float]]:
+    """Evaluate designs ``[(index, path values), ...]`` in order; one result tuple each."""
+    return [(i, *evaluate_design(job, values)) for i, values in chunk]
+
+
+def noop_chunk(job: Job, chunk: Sequence[tuple[int, Mapping[str, float]]]) -> list[tuple]:
+    """Return at once (benchmarks measure executor overhead per task with it)."""
+    return [(i, None, "ok", "", 0.0) for i, _ in chunk]
+
+
+def _one_line(exc: BaseException) -> str:
+    text = exc.one_line() if isinstance(exc, InputError | ConvergenceError) else str(exc)
+    return " ".join(text.split())

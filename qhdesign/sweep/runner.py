@@ -1,0 +1,364 @@
+"""Run a sweep: chunk the designs, hand them to an executor, stream rows to the CSV in order.
+
+Executors
+---------
+``serial``
+    In this process (``--workers 1``).
+``local``
+    A pool of local processes (``concurrent.futures.ProcessPoolExecutor``, forkserver start).
+``mpi``
+    ``mpi4py.futures.MPICommExecutor`` on ``MPI.COMM_WORLD``: started as
+    ``mpiexec -n N qhdesign sweep SPEC``, rank 0 runs the sweep and writes the CSV, ranks 1..N-1
+    evaluate designs. ``mpi4py`` is imported only here, only for this executor.
+
+Rows are written in design order whatever the executor: chunks are submitted in order, at most a
+small window of them in flight, and collected in order. So serial, local and MPI runs write the
+same rows in the same order, and a killed run leaves a prefix of the design list that a restart
+completes. Chunks are sized from the time of one nominal evaluation so that the per-task
+overhead of the executor stays below a few per cent of the work in a task.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import time
+from collections import Counter, deque
+from collections.abc import Callable, Iterator
+from concurrent.futures import Future
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from qhdesign.errors import InputError
+
+from .evaluate import STATUSES, Job, design_key, evaluate_chunk, evaluate_design
+from .sink import CsvSink
+
+__all__ = [
+    "EXECUTORS",
+    "SweepSummary",
+    "columns_for",
+    "mpi_world_size",
+    "param_column",
+    "run_sweep",
+]
+
+EXECUTORS = ("auto", "serial", "local", "mpi")
+#: Work per chunk the auto chunk size aims at (s); executor overhead per task is ~0.1-1 ms.
+CHUNK_TARGET_S = 0.1
+#: Time columns, the only columns that differ between runs of the same sweep.
+TIMING_COLUMNS = ("solve_time_s",)
+
+# display unit of a parameter path, by its last component(s): (suffix, SI value per display unit)
+_PATH_UNITS = {
+    "thickness": ("nm", 1e-9),
+    "dielectric_thickness": ("nm", 1e-9),
+    "doping.sheet": ("cm^-2", 1e4),
+    "doping.volume": ("cm^-3", 1e6),
+    "barrier": ("eV", 1.602176634e-19),
+    "level": ("eV", 1.602176634e-19),
+    "band_offset": ("eV", 1.602176634e-19),
+    "bias": ("V", 1.0),
+    "temperature": ("K", 1.0),
+    "freeze_temperature": ("K", 1.0),
+}
+
+
+def param_column(path: str) -> tuple[str, float]:
+    """CSV column name of a parameter and the SI value of its display unit.
+
+    ``layers.spacer.thickness`` -> (``layers.spacer.thickness_nm``, 1e-9); tolerance variables
+    and dimensionless paths keep their name (scale 1).
+    """
+    if path.startswith("tol."):
+        return path, 1.0
+    parts = path.split(".")
+    for n in (2, 1):
+        tail = ".".join(parts[-n:])
+        if tail in _PATH_UNITS:
+            unit, scale = _PATH_UNITS[tail]
+            return f"{path}_{unit}", scale
+    return path, 1.0
+
+
+def columns_for(parameters, outputs) -> list[str]:
+    """Header of a sweep CSV."""
+    return (
+        ["design", "key"]
+        + [param_column(p)[0] for p in parameters]
+        + list(outputs)
+        + ["status", "error", *TIMING_COLUMNS]
+    )
+
+
+@dataclass
+class SweepSummary:
+    """What a sweep did: counts per status (new rows), rows already present, wall time."""
+
+    total: int
+    skipped: int
+    counts: Counter = field(default_factory=Counter)
+    wall_s: float = 0.0
+    workers: int = 1
+    executor: str = "serial"
+    chunk: int = 1
+    torn_bytes: int = 0
+
+    @property
+    def new(self) -> int:
+        return sum(self.counts.values())
+
+    @property
+    def rate(self) -> float:
+        return self.new / self.wall_s if self.wall_s > 0 else math.nan
+
+    def lines(self) -> list[str]:
+        counts = ", ".join(f"{s} {self.counts.get(s, 0)}" for s in STATUSES if s != "error")
+        if self.counts.get("error"):
+            counts += f", error {self.counts['error']} (stage bugs: see the error column)"
+        out = [
+            f"{self.new} designs evaluated ({counts}); {self.skipped} already in the CSV; "
+            f"{self.total} in the space",
+            f"wall time {self.wall_s:.2f} s, {self.rate:.1f} designs/s "
+            f"({self.executor}, {self.workers} worker{'s' if self.workers != 1 else ''}, "
+            f"chunk {self.chunk})",
+        ]
+        if self.torn_bytes:
+            out.append(f"discarded a torn last line ({self.torn_bytes} bytes) before resuming")
+        return out
+
+
+# ------------------------------------------------------------------------ executors
+_MPI_SIZE_VARS = ("PMI_SIZE", "OMPI_COMM_WORLD_SIZE", "MPI_LOCALNRANKS", "PMIX_SIZE")
+
+
+def mpi_world_size() -> int:
+    """Size of the MPI world this process was started in, from the launcher's environment.
+
+    Read from the environment so that ``import qhdesign`` and non-MPI runs never load mpi4py.
+    """
+    for var in _MPI_SIZE_VARS:
+        v = os.environ.get(var)
+        if v and v.isdigit():
+            return int(v)
+    return 1
+
+
+class _SerialExecutor:
+    def submit(self, fn, *args) -> Future:
+        fut: Future = Future()
+        fut.set_result(fn(*args))
+        return fut
+
+
+@contextmanager
+def open_executor(kind: str, workers: int | None) -> Iterator[tuple[object | None, str, int]]:
+    """Yield ``(executor, kind, workers)``; under MPI, non-root ranks get ``executor=None``."""
+    if kind == "auto":
+        kind = "mpi" if mpi_world_size() > 1 else ("serial" if workers == 1 else "local")
+    if kind not in EXECUTORS:
+        raise InputError(
+            f"unknown executor '{kind}'; allowed: {', '.join(EXECUTORS)}",
+            source="option --executor",
+        )
+    if kind == "serial":
+        yield _SerialExecutor(), "serial", 1
+    elif kind == "local":
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        n = workers or os.cpu_count() or 1
+        ctx = multiprocessing.get_context("forkserver")
+        ctx.set_forkserver_preload(["qhdesign.sweep.evaluate", "qhdesign.stack", "numpy"])
+        with ProcessPoolExecutor(max_workers=n, mp_context=ctx) as ex:
+            yield ex, "local", n
+    else:
+        try:
+            from mpi4py import MPI
+            from mpi4py.futures import MPICommExecutor
+        except ImportError:
+            raise InputError(
+                "executor 'mpi' needs mpi4py, which is not installed", source="option --executor"
+            ) from None
+        comm = MPI.COMM_WORLD
+        if comm.Get_size() < 2:
+            raise InputError(
+                "executor 'mpi' needs at least 2 MPI ranks: mpiexec -n 2 (or more)",
+                source="option --executor",
+            )
+        with MPICommExecutor(comm, root=0) as ex:
+            yield ex, "mpi", comm.Get_size() - 1
+
+
+# ------------------------------------------------------------------------ the sweep
+def _row(index, key, params, param_cols, outputs, columns_out, status, error, seconds):
+    row = [index, key]
+    for p in params:
+        scale = param_cols[p][1]
+        # display units, 12 significant digits: hides the last-bit noise of unit conversion
+        row.append(float(f"{params[p] / scale:.12g}"))
+    for c in columns_out:
+        row.append(None if outputs is None else outputs.get(c, math.nan))
+    row += [status, error, round(seconds, 6)]
+    return row
+
+
+def probe(plan) -> tuple[dict | None, str, str, float]:
+    """Evaluate the nominal (unmodified) stack twice and keep the second timing (warm imports)."""
+    job = Job(plan.stage, plan.stack, plan.options)
+    out, status, error, t = evaluate_design(job, {})
+    if status == "ok" and t < 1.0:
+        out, status, error, t = evaluate_design(job, {})
+    return out, status, error, t
+
+
+def run_sweep(
+    plan,
+    out: str | os.PathLike,
+    *,
+    executor: str = "auto",
+    workers: int | None = None,
+    chunk: int | None = None,
+    progress: Callable[[int, int], None] | None = None,
+    started: Callable[[int, int], None] | None = None,
+) -> SweepSummary | None:
+    """Evaluate every design of ``plan`` not yet in ``out`` and append its row.
+
+    Parameters
+    ----------
+    plan
+        A validated :class:`~qhdesign.sweep.spec.SweepPlan`.
+    out
+        The CSV file (created, or resumed if it holds rows of the same sweep).
+    executor, workers
+        ``"auto"`` (MPI when started under mpiexec with >1 rank, else local processes, or serial
+        for ``workers=1``), ``"serial"``, ``"local"``, ``"mpi"``; ``workers`` defaults to all cores.
+    chunk
+        Designs per task; ``None`` sizes chunks from one nominal evaluation.
+    progress
+        Called as ``progress(done_now, todo)`` after every chunk written.
+    started
+        Called once as ``started(todo, already_done)`` before the first chunk.
+
+    Returns
+    -------
+    SweepSummary, or None on MPI ranks other than 0 (they only evaluate).
+    """
+    if workers is not None and workers < 1:
+        raise InputError(f"must be >= 1, got {workers}", source="option --workers")
+    if chunk is not None and chunk < 1:
+        raise InputError(f"must be >= 1, got {chunk}", source="option --chunk")
+    with open_executor(executor, workers) as (ex, kind, nworkers):
+        if ex is None:
+            return None
+        return _run(plan, Path(out), ex, kind, nworkers, chunk, progress, started)
+
+
+def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> SweepSummary:
+    t_start = time.perf_counter()
+    nominal, status, error, t_nominal = probe(plan)
+    if plan.outputs is not None:
+        outputs = list(plan.outputs)
+        if nominal is not None:
+            missing = [o for o in outputs if o not in nominal]
+            if missing:
+                raise InputError(
+                    f"stage '{plan.stage}' gives no column '{missing[0]}'; it gives: "
+                    f"{', '.join(nominal)}",
+                    source=plan.source,
+                    key="sweep.outputs",
+                )
+    elif nominal is not None:
+        outputs = list(nominal)
+    else:
+        raise InputError(
+            f"the nominal design failed ({status}: {error}), so the output columns are unknown; "
+            "list them in sweep.outputs to sweep anyway",
+            source=plan.source,
+            key="sweep.outputs",
+        )
+    for crit in plan.criteria:
+        if crit not in outputs:
+            raise InputError(
+                f"not an output column; outputs: {', '.join(outputs)}",
+                source=plan.source,
+                key=f"criteria.{crit}",
+            )
+    params = plan.parameters
+    param_cols = {p: param_column(p) for p in params}
+    header = columns_for(params, outputs)
+    meta = {
+        "name": plan.name,
+        "stage": plan.stage,
+        "space": plan.kind,
+        "designs": len(plan),
+        "parameters": list(params),
+        "outputs": outputs,
+        "criteria": {k: list(v) for k, v in plan.criteria.items()},
+    }
+    sink = CsvSink(out, header, plan.fingerprint(header), meta)
+    with sink:
+        done = set(sink.done_keys)
+        todo_est = len(plan) - len(done)
+        if chunk is None:
+            t = max(t_nominal, 1e-6) if status == "ok" else 1.0
+            chunk = max(1, math.ceil(CHUNK_TARGET_S / t))
+            chunk = min(chunk, max(1, todo_est // (4 * nworkers)))
+        summary = SweepSummary(
+            total=len(plan),
+            skipped=0,
+            workers=nworkers,
+            executor=kind,
+            chunk=chunk,
+            torn_bytes=sink.torn_bytes,
+        )
+        if started is not None:
+            started(max(todo_est, 0), len(done))
+        job = Job(plan.stage, plan.stack, plan.options)
+        window = 2 * nworkers + 2
+        pending: deque = deque()
+
+        def collect(fut_and_meta) -> None:
+            fut, metas = fut_and_meta
+            results = fut.result()
+            for (index, key, design), (_, outs, st, err, secs) in zip(metas, results, strict=True):
+                sink.write(_row(index, key, design, param_cols, outs, outputs, st, err, secs))
+                summary.counts[st] += 1
+            if progress is not None:
+                progress(len(results), todo_est)
+
+        batch_meta: list = []
+        batch: list = []
+        seen: set[str] = set()
+        try:
+            for index, design in enumerate(plan.space):
+                key = design_key(design)
+                if key in seen:
+                    raise InputError(
+                        f"design {index} repeats an earlier design (same key {key})",
+                        source=plan.source,
+                        key="space",
+                    )
+                if key in done:
+                    summary.skipped += 1
+                    seen.add(key)
+                    continue
+                seen.add(key)
+                batch_meta.append((index, key, design))
+                batch.append((index, plan.values_of(design)))
+                if len(batch) >= chunk:
+                    pending.append((ex.submit(evaluate_chunk, job, batch), batch_meta))
+                    batch, batch_meta = [], []
+                    while len(pending) >= window:
+                        collect(pending.popleft())
+            if batch:
+                pending.append((ex.submit(evaluate_chunk, job, batch), batch_meta))
+            while pending:
+                collect(pending.popleft())
+        except BaseException:
+            for fut, _ in pending:
+                fut.cancel()
+            raise
+    summary.wall_s = time.perf_counter() - t_start
+    return summary

@@ -1,0 +1,186 @@
+"""The streamed, resumable CSV sink: one row per design, written as the design finishes.
+
+Crash safety
+------------
+Every row is one ``write`` of a complete line followed by ``flush`` (so a SIGKILL of the sweep
+loses at most the line being written), and the file is ``fsync``-ed at least once a second and at
+the end (so an OS crash loses at most the last second). Error text is folded onto one line, so a
+row is always exactly one text line.
+
+On restart the sink reads the file back: a last line without its newline is a row torn by the
+kill and is cut off; every complete row must have the header's number of fields and a key. The
+keys found are the designs already done, and the runner skips them, so every design ends up in
+the file exactly once. A sidecar ``<csv>.sweep.json`` (written atomically before the first row)
+holds the fingerprint of the sweep; resuming into a CSV of a different sweep is refused.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import time
+from collections.abc import Sequence
+from pathlib import Path
+
+from qhdesign.errors import InputError
+from qhdesign.io import atomic_write_json
+
+__all__ = ["CsvSink", "format_value", "sidecar_path"]
+
+FSYNC_INTERVAL_S = 1.0
+
+
+def sidecar_path(csv_path: str | os.PathLike) -> Path:
+    p = Path(csv_path)
+    return p.with_name(p.name + ".sweep.json")
+
+
+def format_value(v: object) -> str:
+    """CSV text of one cell: floats as their shortest round-trip repr, None as empty."""
+    if v is None:
+        return ""
+    if isinstance(v, bool):
+        return "1" if v else "0"
+    if isinstance(v, int):
+        return str(v)
+    if isinstance(v, float):
+        f = float(v)
+        if math.isnan(f):
+            return "nan"
+        return repr(f)
+    return " ".join(str(v).split())
+
+
+def _line(values: Sequence[object]) -> str:
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerow([format_value(v) for v in values])
+    return buf.getvalue()
+
+
+class CsvSink:
+    """Append-only CSV writer with resume by row key.
+
+    Parameters
+    ----------
+    path
+        The CSV file.
+    header
+        Column names; must contain ``"key"``.
+    fingerprint
+        Identifies the sweep (spec, stack, stage, options); stored in the sidecar.
+    meta
+        Extra JSON-ready information for the sidecar.
+    """
+
+    def __init__(self, path, header: Sequence[str], fingerprint: str, meta: dict | None = None):
+        self.path = Path(path)
+        self.header = list(header)
+        self.fingerprint = fingerprint
+        self.meta = dict(meta or {})
+        self._key_col = self.header.index("key")
+        self._fh = None
+        self._last_sync = 0.0
+        self.done_keys: set[str] = set()
+        self.torn_bytes = 0
+
+    # ------------------------------------------------------------------ open
+    def open(self) -> CsvSink:
+        side = sidecar_path(self.path)
+        if self.path.exists() and self.path.stat().st_size > 0:
+            if side.exists():
+                try:
+                    stored = json.loads(side.read_text()).get("fingerprint")
+                except (OSError, ValueError):
+                    stored = None
+                if stored != self.fingerprint:
+                    raise InputError(
+                        "holds rows of a different sweep (spec, stack, stage or options changed); "
+                        "choose another --out or delete the file and its .sweep.json",
+                        source=str(self.path),
+                    )
+            self._read_existing()
+            if not side.exists():
+                self._write_sidecar()
+            self._fh = open(self.path, "a", encoding="utf-8", newline="")
+        else:
+            self._write_sidecar()
+            self._fh = open(self.path, "w", encoding="utf-8", newline="")
+            self._fh.write(_line(self.header))
+            self._sync()
+        return self
+
+    def _write_sidecar(self) -> None:
+        atomic_write_json(
+            sidecar_path(self.path),
+            {"fingerprint": self.fingerprint, "columns": self.header, **self.meta},
+        )
+
+    def _read_existing(self) -> None:
+        data = self.path.read_bytes()
+        if not data.endswith(b"\n"):
+            # torn last line (killed mid-write): cut it off
+            cut = data.rfind(b"\n") + 1
+            self.torn_bytes = len(data) - cut
+            with open(self.path, "r+b") as fh:
+                fh.truncate(cut)
+                fh.flush()
+                os.fsync(fh.fileno())
+            data = data[:cut]
+        text = data.decode("utf-8")
+        reader = csv.reader(io.StringIO(text))
+        try:
+            header = next(reader)
+        except StopIteration:
+            header = []
+        if not header:
+            # killed before the header line was complete: start the file again
+            with open(self.path, "w", encoding="utf-8", newline="") as fh:
+                fh.write(_line(self.header))
+            return
+        if header != self.header:
+            raise InputError(
+                f"its columns differ from this sweep's ({len(header)} vs {len(self.header)} "
+                "columns); choose another --out",
+                source=str(self.path),
+            )
+        n = len(self.header)
+        for lineno, row in enumerate(reader, start=2):
+            if len(row) != n or not row[self._key_col]:
+                raise InputError(
+                    f"line {lineno} is malformed ({len(row)} fields, expected {n}); "
+                    "the file was edited or corrupted outside qhdesign",
+                    source=str(self.path),
+                )
+            self.done_keys.add(row[self._key_col])
+
+    # ------------------------------------------------------------------ write
+    def write(self, values: Sequence[object]) -> None:
+        """Append one complete row (one line) and flush it to the OS."""
+        assert self._fh is not None
+        self._fh.write(_line(values))
+        self._fh.flush()
+        self.done_keys.add(str(values[self._key_col]))
+        now = time.monotonic()
+        if now - self._last_sync >= FSYNC_INTERVAL_S:
+            self._sync()
+
+    def _sync(self) -> None:
+        assert self._fh is not None
+        self._fh.flush()
+        os.fsync(self._fh.fileno())
+        self._last_sync = time.monotonic()
+
+    def close(self) -> None:
+        if self._fh is not None:
+            self._sync()
+            self._fh.close()
+            self._fh = None
+
+    def __enter__(self) -> CsvSink:
+        return self.open()
+
+    def __exit__(self, *exc) -> None:
+        self.close()

@@ -1,0 +1,446 @@
+"""Sweep specification: our own TOML format (docs/sweeps.md), parsed and validated up front.
+
+Every swept path and every value or range end is checked against the base stack before the first
+design is evaluated: the path must exist and be numeric, every listed value and both ends of every
+range must be accepted by ``Stack.with_value``, and the corners of the space (first/last values of
+all parameters together) must give a valid stack. Errors are one line naming the spec file and
+the key.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from scipy.constants import electron_volt
+
+from qhdesign.errors import InputError, QHDesignError
+
+from .evaluate import apply_values
+from .spaces import GridSpace, LatinHypercubeSpace, Range, ZipSpace, check_equal_lengths
+from .tolerance import GrowthMonteCarlo, TolerancePlan
+
+__all__ = ["SPACE_KINDS", "SweepPlan", "build_plan", "load_spec", "parse_criteria"]
+
+SPACE_KINDS = ("grid", "zip", "lhs", "montecarlo")
+MAX_STEPS = 100_000
+MAX_DESIGNS = 10_000_000
+_SWEEP_KEYS = ("name", "stack", "stage", "outputs")
+_TOP_KEYS = ("sweep", "options", "space", "criteria")
+_TOL_KEYS = (
+    "thickness",
+    "layer_jitter",
+    "al_fraction",
+    "al_reference_x",
+    "doping",
+    "surface_barrier",
+)
+
+
+@dataclass(frozen=True)
+class SweepPlan:
+    """A validated sweep: base stack, stage, space, outputs and criteria.
+
+    ``space`` yields designs as ``{parameter: value}``; :meth:`values_of` turns one into the
+    parameter-path values (SI) applied to the stack.
+    """
+
+    name: str
+    stage: str
+    stack: Any
+    space: Any
+    kind: str
+    options: Mapping[str, Any] = field(default_factory=dict)
+    outputs: tuple[str, ...] | None = None
+    criteria: Mapping[str, tuple[float, float]] = field(default_factory=dict)
+    source: str = "<spec>"
+    signature: Mapping[str, Any] = field(default_factory=dict)
+
+    @property
+    def parameters(self) -> tuple[str, ...]:
+        if self.kind == "montecarlo":
+            return self.space.variables
+        return tuple(self.space.paths)
+
+    def values_of(self, design: Mapping[str, float]) -> dict[str, float]:
+        if self.kind == "montecarlo":
+            return self.space.overrides(design)
+        return dict(design)
+
+    def __len__(self) -> int:
+        return len(self.space)
+
+    def fingerprint(self, columns) -> str:
+        doc = {
+            "stage": self.stage,
+            "options": self.options,
+            "stack": self.stack.to_toml(),
+            "space": self.signature,
+            "columns": list(columns),
+        }
+        text = json.dumps(doc, sort_keys=True, default=str)
+        return hashlib.sha256(text.encode()).hexdigest()
+
+
+# ------------------------------------------------------------------------ loading
+def load_spec(path: str | Path, stack_override=None) -> SweepPlan:
+    """Read a sweep TOML file and return the validated :class:`SweepPlan`."""
+    src = str(path)
+    p = Path(path)
+    if not p.is_file():
+        raise InputError("sweep spec not found", source=src)
+    try:
+        raw = tomllib.loads(p.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"TOML syntax error: {' '.join(str(exc).split())}", source=src) from None
+    return build_plan(raw, source=src, base_dir=p.parent, stack=stack_override)
+
+
+def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None, stack=None):
+    """Validate a parsed spec (the TOML document as a dict) into a :class:`SweepPlan`."""
+
+    def err(msg: str, key: str | None = None) -> InputError:
+        return InputError(msg, source=source, key=key)
+
+    for k in raw:
+        if k not in _TOP_KEYS:
+            raise err(f"unknown table; allowed: {', '.join(_TOP_KEYS)}", key=k)
+    sweep = _table(raw, "sweep", source, required=True)
+    for k in sweep:
+        if k not in _SWEEP_KEYS:
+            raise err(f"unknown key; allowed: {', '.join(_SWEEP_KEYS)}", key=f"sweep.{k}")
+    stage = sweep.get("stage")
+    if not isinstance(stage, str) or not stage:
+        raise err('missing or not a string; e.g. stage = "capacitor"', key="sweep.stage")
+    from .stages import get_stage
+
+    try:
+        get_stage(stage)
+    except InputError as exc:
+        raise err(exc.message, key="sweep.stage") from None
+    if stack is None:
+        stack_path = sweep.get("stack")
+        if not isinstance(stack_path, str):
+            raise err("missing: path of the base stack file", key="sweep.stack")
+        sp = Path(stack_path)
+        if not sp.is_absolute() and base_dir is not None:
+            sp = base_dir / sp
+        from qhdesign.stack import load_stack
+
+        stack = load_stack(sp)
+    outputs = sweep.get("outputs")
+    if outputs is not None:
+        if not (isinstance(outputs, list) and outputs and all(isinstance(o, str) for o in outputs)):
+            raise err("must be a non-empty list of column names", key="sweep.outputs")
+        outputs = tuple(outputs)
+    options = _table(raw, "options", source)
+    space_tab = _table(raw, "space", source, required=True)
+    kind = space_tab.get("kind")
+    if kind not in SPACE_KINDS:
+        raise err(f"got {kind!r}; allowed: {', '.join(SPACE_KINDS)}", key="space.kind")
+    space, signature = _build_space(kind, space_tab, stack, source)
+    if len(space) == 0:
+        raise err("the space has no designs", key="space")
+    if len(space) > MAX_DESIGNS:
+        raise err(f"{len(space)} designs; at most {MAX_DESIGNS} per sweep", key="space")
+    criteria = parse_criteria(_table(raw, "criteria", source), source)
+    plan = SweepPlan(
+        name=str(sweep.get("name", Path(source).stem)),
+        stage=stage,
+        stack=stack,
+        space=space,
+        kind=kind,
+        options=dict(options),
+        outputs=outputs,
+        criteria=criteria,
+        source=source,
+        signature=signature,
+    )
+    _check_corners(plan, source)
+    return plan
+
+
+def _table(raw: Mapping, key: str, source: str, required: bool = False) -> dict:
+    tab = raw.get(key)
+    if tab is None:
+        if required:
+            raise InputError("missing table", source=source, key=key)
+        return {}
+    if not isinstance(tab, dict):
+        raise InputError("must be a table", source=source, key=key)
+    return tab
+
+
+def parse_criteria(tab: Mapping[str, Any], source: str) -> dict[str, tuple[float, float]]:
+    """``{column: {min = a, max = b}}`` -> ``{column: (a, b)}`` (missing ends are infinite)."""
+    out = {}
+    for col, c in tab.items():
+        key = f"criteria.{col}"
+        if not isinstance(c, dict) or not c or any(k not in ("min", "max") for k in c):
+            raise InputError(
+                "must be a table with min and/or max, e.g. { min = 1.5e11 }", source=source, key=key
+            )
+        lo, hi = c.get("min", -math.inf), c.get("max", math.inf)
+        for v in (lo, hi):
+            if isinstance(v, bool) or not isinstance(v, int | float) or math.isnan(v):
+                raise InputError(
+                    f"bound {v!r} is not a number (in the column's unit)", source=source, key=key
+                )
+        if lo > hi:
+            raise InputError(f"min {lo} exceeds max {hi}", source=source, key=key)
+        out[col] = (float(lo), float(hi))
+    return out
+
+
+# ------------------------------------------------------------------------ spaces
+def _pkey(path: str) -> str:
+    return f'space.parameters."{path}"'
+
+
+def _si(stack, path: str, value: Any, source: str) -> float:
+    """SI value of ``value`` at ``path``, validated by the stack."""
+    if isinstance(value, bool) or not isinstance(value, str | int | float):
+        raise InputError(
+            f"value {value!r} must be a number or a string with a unit",
+            source=source,
+            key=_pkey(path),
+        )
+    try:
+        got = stack.with_value(path, value).get(path)
+    except QHDesignError as exc:
+        raise InputError(
+            f"value {value!r} rejected: {_msg(exc)}", source=source, key=_pkey(path)
+        ) from None
+    if isinstance(got, bool) or not isinstance(got, int | float):
+        raise InputError(
+            f"not a numeric parameter (its value is {got!r}); only numbers can be swept",
+            source=source,
+            key=_pkey(path),
+        )
+    return float(got)
+
+
+def _msg(exc: QHDesignError) -> str:
+    return getattr(exc, "message", None) or str(exc)
+
+
+def _check_path(stack, path: str, source: str) -> None:
+    if not isinstance(path, str):
+        raise InputError("parameter paths must be strings", source=source, key="space.parameters")
+    try:
+        cur = stack.get(path)
+    except QHDesignError as exc:
+        raise InputError(_msg(exc), source=source, key=_pkey(path)) from None
+    if isinstance(cur, bool) or not isinstance(cur, int | float):
+        raise InputError(
+            f"not a numeric parameter (its value is {cur!r}); only numbers can be swept",
+            source=source,
+            key=_pkey(path),
+        )
+
+
+def _int(tab: Mapping, key: str, where: str, source: str, lo: int, hi: int) -> int:
+    v = tab.get(key)
+    if isinstance(v, bool) or not isinstance(v, int) or not lo <= v <= hi:
+        raise InputError(
+            f"must be an integer from {lo} to {hi}, got {v!r}", source=source, key=f"{where}.{key}"
+        )
+    return v
+
+
+def _range(stack, path: str, spec: Mapping, source: str, *, steps_allowed: bool) -> tuple:
+    allowed = ("from", "to", "steps", "scale") if steps_allowed else ("from", "to", "scale")
+    for k in spec:
+        if k not in allowed:
+            raise InputError(
+                f"unknown key '{k}'; allowed: {', '.join(allowed)}", source=source, key=_pkey(path)
+            )
+    if "from" not in spec or "to" not in spec:
+        raise InputError("a range needs 'from' and 'to'", source=source, key=_pkey(path))
+    lo = _si(stack, path, spec["from"], source)
+    hi = _si(stack, path, spec["to"], source)
+    scale = spec.get("scale", "linear")
+    if scale not in ("linear", "log"):
+        raise InputError(f"scale {scale!r}; allowed: linear, log", source=source, key=_pkey(path))
+    if scale == "log" and (lo <= 0 or hi <= 0):
+        raise InputError("a log range needs both ends > 0", source=source, key=_pkey(path))
+    r = Range(path, lo, hi, scale)
+    if not steps_allowed:
+        return r, None
+    if "steps" not in spec:
+        raise InputError(
+            "a range needs 'steps' (number of values, ends included)",
+            source=source,
+            key=_pkey(path),
+        )
+    steps = spec["steps"]
+    if isinstance(steps, bool) or not isinstance(steps, int) or not 1 <= steps <= MAX_STEPS:
+        raise InputError(
+            f"steps must be an integer from 1 to {MAX_STEPS}, got {steps!r}",
+            source=source,
+            key=_pkey(path),
+        )
+    return r, steps
+
+
+def _values(stack, path: str, spec: Any, source: str) -> tuple[float, ...]:
+    if isinstance(spec, list):
+        if not spec:
+            raise InputError("empty list of values", source=source, key=_pkey(path))
+        return tuple(_si(stack, path, v, source) for v in spec)
+    if isinstance(spec, dict):
+        r, steps = _range(stack, path, spec, source, steps_allowed=True)
+        vals = r.points(steps)
+        for v in vals[1:-1]:  # interior points of a valid range are valid for scalar ranges,
+            _si(stack, path, v, source)  # but check them anyway: it costs little
+        return vals
+    raise InputError(
+        "expected a list of values or a table {from, to, steps}", source=source, key=_pkey(path)
+    )
+
+
+def _build_space(kind: str, tab: Mapping, stack, source: str):
+    allowed = {
+        "grid": ("kind", "parameters"),
+        "zip": ("kind", "parameters"),
+        "lhs": ("kind", "parameters", "samples", "seed"),
+        "montecarlo": ("kind", "samples", "seed", "tolerance"),
+    }[kind]
+    for k in tab:
+        if k not in allowed:
+            raise InputError(
+                f'not used by kind = "{kind}"; allowed: {", ".join(allowed)}',
+                source=source,
+                key=f"space.{k}",
+            )
+    if kind == "montecarlo":
+        samples = _int(tab, "samples", "space", source, 1, MAX_DESIGNS)
+        seed = _int(tab, "seed", "space", source, 0, 2**63 - 1)
+        plan = parse_tolerance(tab.get("tolerance", {}), source)
+        space = GrowthMonteCarlo.from_stack(stack, plan, samples, seed)
+        sig = {"kind": kind, "samples": samples, "seed": seed, "tolerance": plan.__dict__}
+        return space, sig
+    params = tab.get("parameters")
+    if not isinstance(params, dict) or not params:
+        raise InputError(
+            'needs at least one parameter: "path" = values or range',
+            source=source,
+            key="space.parameters",
+        )
+    for path in params:
+        _check_path(stack, path, source)
+    paths = tuple(params)
+    if kind == "lhs":
+        samples = _int(tab, "samples", "space", source, 1, MAX_DESIGNS)
+        seed = _int(tab, "seed", "space", source, 0, 2**63 - 1)
+        ranges = []
+        for path, spec in params.items():
+            if not isinstance(spec, dict):
+                raise InputError(
+                    "Latin hypercube needs a range table {from, to}", source=source, key=_pkey(path)
+                )
+            ranges.append(_range(stack, path, spec, source, steps_allowed=False)[0])
+        sig = {
+            "kind": kind,
+            "samples": samples,
+            "seed": seed,
+            "ranges": [(r.path, r.low, r.high, r.scale) for r in ranges],
+        }
+        return LatinHypercubeSpace(tuple(ranges), samples, seed), sig
+    values = tuple(_values(stack, p, params[p], source) for p in paths)
+    if kind == "zip":
+        msg = check_equal_lengths(paths, values)
+        if msg:
+            bad = next(p for p, v in zip(paths, values, strict=True) if len(v) != len(values[0]))
+            raise InputError(msg, source=source, key=_pkey(bad))
+        space = ZipSpace(paths, values)
+    else:
+        space = GridSpace(paths, values)
+    for p, v in zip(paths, values, strict=True):
+        if len(set(v)) != len(v) and kind == "grid":
+            raise InputError(
+                "repeated values (each design must be distinct)", source=source, key=_pkey(p)
+            )
+    if kind == "zip" and len(set(zip(*values, strict=True))) != len(space):
+        raise InputError(
+            "two zipped designs are identical (each design must be distinct)",
+            source=source,
+            key="space.parameters",
+        )
+    sig = {"kind": kind, "paths": list(paths), "values": [list(v) for v in values]}
+    return space, sig
+
+
+def _fraction(v: Any, key: str, source: str) -> float:
+    """A relative tolerance: a number (0.015) or a percentage string ("1.5 %")."""
+    if isinstance(v, str) and v.strip().endswith("%"):
+        try:
+            return float(v.strip()[:-1]) / 100.0
+        except ValueError:
+            pass
+    elif isinstance(v, int | float) and not isinstance(v, bool):
+        return float(v)
+    raise InputError(
+        f'expected a number or a percentage like "1.5 %", got {v!r}', source=source, key=key
+    )
+
+
+def parse_tolerance(tab: Any, source: str) -> TolerancePlan:
+    """``[space.tolerance]`` -> :class:`TolerancePlan` (missing keys keep the defaults)."""
+    if not isinstance(tab, dict):
+        raise InputError("must be a table", source=source, key="space.tolerance")
+    kw: dict[str, float] = {}
+    for k, v in tab.items():
+        key = f"space.tolerance.{k}"
+        if k not in _TOL_KEYS:
+            raise InputError(
+                f"unknown tolerance; allowed: {', '.join(_TOL_KEYS)}", source=source, key=key
+            )
+        if k == "surface_barrier":
+            from qhdesign.units import parse_quantity
+
+            kw[k] = parse_quantity(v, "energy", source=source, key=key)
+        elif k in ("al_fraction", "al_reference_x"):
+            if isinstance(v, bool) or not isinstance(v, int | float):
+                raise InputError(
+                    f"expected a number (absolute Al fraction), got {v!r}", source=source, key=key
+                )
+            kw[k] = float(v)
+        else:
+            kw[k] = _fraction(v, key, source)
+    try:
+        return TolerancePlan(**kw)
+    except InputError as exc:
+        raise InputError(
+            exc.message,
+            source=source,
+            key=(exc.key or "").replace("tolerance.", "space.tolerance."),
+        ) from None
+
+
+def _check_corners(plan: SweepPlan, source: str) -> None:
+    """Every corner of the space must give a valid stack (joint check of the range ends)."""
+    for corner in plan.space.corners():
+        values = plan.values_of(corner)
+        try:
+            apply_values(plan.stack, values)
+        except QHDesignError as exc:
+            key = getattr(exc, "key", None)
+            shown = ", ".join(
+                f"{k}={v:.4g}" for k, v in corner.items() if plan.kind != "montecarlo" or k == key
+            )
+            raise InputError(
+                f"the corner of the space ({shown}) gives an invalid stack: {_msg(exc)}",
+                source=source,
+                key=_pkey(key) if key else "space",
+            ) from None
+
+
+def surface_barrier_eV(v: float) -> float:
+    return v / electron_volt

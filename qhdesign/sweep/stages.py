@@ -1,0 +1,142 @@
+"""Stage registry: the evaluation step of a sweep, ``stage(stack, **options) -> dict``.
+
+A stage takes a validated :class:`~qhdesign.stack.Stack` and its options and returns a flat
+``dict[str, float | str]`` whose keys are CSV column names with units (``primary_density_cm^-2``).
+Stage modules are imported only when a stage is first used, in the process that evaluates it.
+
+Built-in names: ``capacitor`` (closed-form lever arms, always available), ``bands`` and ``gate``
+(1D Schrödinger–Poisson, :mod:`qhdesign.sp1d`), ``edge`` and ``island`` (2D Thomas–Fermi,
+:mod:`qhdesign.tf2d`). Any other stage plugs in as ``"package.module:function"``.
+"""
+
+from __future__ import annotations
+
+import importlib
+from collections.abc import Callable
+from typing import Any
+
+from qhdesign.errors import InputError
+
+__all__ = ["STAGES", "get_stage", "stage_names"]
+
+StageFunc = Callable[..., dict[str, Any]]
+
+
+def _capacitor(stack, **options):
+    from .capacitor import capacitor_stage
+
+    return capacitor_stage(stack, **options)
+
+
+def _import(module: str, attr: str, stage: str) -> Callable[..., Any]:
+    try:
+        mod = importlib.import_module(module)
+        return getattr(mod, attr)
+    except (ImportError, AttributeError):
+        raise InputError(
+            f"stage '{stage}' needs {module}.{attr}, which this installation does not have yet; "
+            f"available: {', '.join(available_stages())}",
+            key="stage",
+        ) from None
+
+
+def _summary(result) -> dict[str, Any]:
+    return dict(result.summary())
+
+
+def _bands(stack, **options):
+    return _summary(_import("qhdesign.sp1d", "solve_bands", "bands")(stack, **options))
+
+
+def _gate(stack, v_from=None, v_to=None, step=None, **options):
+    from qhdesign.units import parse_quantity
+
+    def volts(v, name):
+        if v is None:
+            raise InputError("gate stage needs v_from, v_to and step", key=f"stage.options.{name}")
+        if isinstance(v, str):
+            return parse_quantity(v, "voltage", key=f"stage.options.{name}")
+        return float(v)
+
+    fn = _import("qhdesign.sp1d", "gate_response", "gate")
+    res = fn(stack, volts(v_from, "v_from"), volts(v_to, "v_to"), volts(step, "step"), **options)
+    return _summary(res)
+
+
+def _edge(stack, **options):
+    return _summary(_import("qhdesign.tf2d", "solve_edge", "edge")(stack, **options))
+
+
+def _island(stack, **options):
+    return _summary(_import("qhdesign.tf2d", "solve_island", "island")(stack, **options))
+
+
+#: Built-in stages: name -> (callable, one-line description).
+STAGES: dict[str, tuple[StageFunc, str]] = {
+    "capacitor": (_capacitor, "closed-form capacitor-ladder lever arms and depletion voltages"),
+    "bands": (_bands, "1D Schrödinger–Poisson at zero bias (per-well densities, subbands)"),
+    "gate": (_gate, "1D gate-voltage sweep (dn/dV per well, depletion thresholds)"),
+    "edge": (_edge, "2D Thomas–Fermi edge cross-section"),
+    "island": (_island, "2D axisymmetric island capacitances (K_I, K_L, K_IL)"),
+}
+
+_PROBES = {
+    "bands": ("qhdesign.sp1d", "solve_bands"),
+    "gate": ("qhdesign.sp1d", "gate_response"),
+    "edge": ("qhdesign.tf2d", "solve_edge"),
+    "island": ("qhdesign.tf2d", "solve_island"),
+}
+
+
+def stage_names() -> tuple[str, ...]:
+    return tuple(STAGES)
+
+
+def available_stages() -> list[str]:
+    """Built-in stages whose implementation is importable now."""
+    out = []
+    for name in STAGES:
+        if name in _PROBES:
+            mod, attr = _PROBES[name]
+            try:
+                if not hasattr(importlib.import_module(mod), attr):
+                    continue
+            except ImportError:
+                continue
+        out.append(name)
+    return out
+
+
+_CACHE: dict[str, StageFunc] = {}
+
+
+def get_stage(name: str) -> StageFunc:
+    """The callable of stage ``name`` (a built-in name or ``"module:function"``).
+
+    Raises
+    ------
+    InputError
+        Unknown name, or a plug-in reference that does not import.
+    """
+    if name in _CACHE:
+        return _CACHE[name]
+    if name in STAGES:
+        fn = STAGES[name][0]
+    elif ":" in name:
+        mod, _, attr = name.partition(":")
+        try:
+            fn = getattr(importlib.import_module(mod), attr)
+        except (ImportError, AttributeError, ValueError):
+            raise InputError(
+                f"cannot import plug-in stage '{name}' (expected 'package.module:function')",
+                key="stage",
+            ) from None
+        if not callable(fn):
+            raise InputError(f"'{name}' is not callable", key="stage")
+    else:
+        raise InputError(
+            f"unknown stage '{name}'; allowed: {', '.join(STAGES)} or 'package.module:function'",
+            key="stage",
+        )
+    _CACHE[name] = fn
+    return fn
