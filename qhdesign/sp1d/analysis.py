@@ -1,0 +1,236 @@
+"""Turn a converged device state into per-well, per-subband and per-layer results and flags."""
+
+from __future__ import annotations
+
+import itertools
+import math
+
+import numpy as np
+from scipy import constants as sc
+
+from .charge import subband_dos, subband_sheet_density
+from .model import DeviceLayout
+from .results import DopingResult, Flags, SubbandResult, WellResult
+from .schrodinger import solve_subbands
+from .selfconsistent import State
+
+__all__ = ["cell_electrons", "per_layer", "subband_wells", "tunnel_splitting"]
+
+
+def cell_electrons(layout: DeviceLayout, state: State) -> np.ndarray:
+    """Electrons in each cell (m^-2), shape (N,): each node's density over its two half cells."""
+    n = state.n_quantum_m3 + state.n_classical_m3
+    h = layout.device.h
+    return 0.5 * (n[:-1] + n[1:]) * h
+
+
+def per_layer(layout: DeviceLayout, cell_values: np.ndarray) -> np.ndarray:
+    """Sum a per-cell quantity over each stack layer (dielectric cells dropped), shape (L,)."""
+    owner = layout.device.layer_of_cell
+    ok = owner >= 0
+    return np.bincount(owner[ok], weights=cell_values[ok], minlength=len(layout.layer_names))
+
+
+def subband_wells(layout: DeviceLayout, psi: np.ndarray) -> np.ndarray:
+    """|psi|^2 weight of every subband in every layer, shape (S, L)."""
+    h = layout.device.h
+    p2 = psi**2
+    cw = 0.5 * (p2[:, :-1] + p2[:, 1:]) * h
+    owner = layout.device.layer_of_cell
+    out = np.zeros((psi.shape[0], len(layout.layer_names)))
+    ok = owner >= 0
+    for s in range(psi.shape[0]):
+        out[s] = np.bincount(owner[ok], weights=cw[s, ok], minlength=len(layout.layer_names))
+    return out
+
+
+def tunnel_splitting(
+    layout: DeviceLayout, state: State, upper: int, lower: int, *, tol_J: float = 1e-12 * sc.e
+) -> float:
+    """Tunnel splitting 2t between the lowest subbands of two neighbouring wells (J).
+
+    The converged potential is cut to the two wells (hard walls in the middle of the barriers
+    beyond them); a step detuning delta is added below the middle of the barrier between them,
+    and the minimum over delta of the gap between the two lowest states, the anticrossing gap,
+    is found from the two-level form gap(delta)^2 = (delta - delta0)^2 + (2t)^2 by repeated
+    three-point fits that zoom in on delta0.
+    """
+    dev = layout.device
+    zb = layout.layer_z
+    z = dev.z
+    names = layout.layer_names
+    q0, q1 = dev.quantum
+    wells = layout.well_layers
+    iu = wells.index(upper)
+    top = zb[upper] - 0.5 * (zb[upper] - zb[wells[iu - 1] + 1]) if iu > 0 else z[q0]
+    bot = (
+        zb[lower + 1] + 0.5 * (zb[wells[iu + 2]] - zb[lower + 1]) if iu + 2 < len(wells) else z[q1]
+    )
+    mid = 0.5 * (zb[upper + 1] + zb[lower])
+    i0 = max(int(np.searchsorted(z, top)), q0)
+    i1 = min(int(np.searchsorted(z, bot)), q1)
+    zz = z[i0 : i1 + 1]
+    u = state.U_J[i0 : i1 + 1]
+    mass = dev.mass[i0:i1]
+    step = (zz > mid).astype(float)
+    del names
+
+    def gap2(delta: float) -> float:
+        en, _ = solve_subbands(zz, u + delta * step, mass, 2)
+        return float((en[1] - en[0]) ** 2)
+
+    # isolated ground states give the starting detuning
+    im = int(np.searchsorted(zz, mid))
+    ea, _ = solve_subbands(zz[: im + 1], u[: im + 1], mass[:im], 1)
+    eb, _ = solve_subbands(zz[im:], u[im:], mass[im:], 1)
+    d0 = float(ea[0] - eb[0])
+    s = 2e-3 * sc.e
+    split = math.nan
+    for _ in range(12):
+        g = [gap2(d0 - s), gap2(d0), gap2(d0 + s)]
+        # fit g = a d^2 + b d + c in the local variable d in units of s
+        a = 0.5 * (g[0] + g[2]) - g[1]
+        b = 0.5 * (g[2] - g[0])
+        if a <= 0:
+            split = math.sqrt(min(g))
+            break
+        dmin = -b / (2 * a)
+        split2 = g[1] - b * b / (4 * a)
+        d0 = d0 + dmin * s
+        split = math.sqrt(max(split2, 0.0))
+        if abs(dmin) * s < max(tol_J, 1e-3 * split) and s < 50 * max(split, tol_J):
+            break
+        s = max(min(s, 20 * max(split, tol_J), abs(dmin) * s * 4 + 10 * tol_J), tol_J)
+    final = math.sqrt(gap2(d0))
+    return min(final, split) if not math.isnan(split) else final
+
+
+def build_results(
+    stack,
+    layout: DeviceLayout,
+    state: State,
+    *,
+    donor_fraction_cell: np.ndarray,
+    surface_charge_C_m2: float,
+    options,
+    gate_voltage: float,
+    with_tunnel: bool = True,
+):
+    """Per-well / per-subband / per-doping-layer numbers and the flags."""
+    dev = layout.device
+    kT = sc.k * state.temperature_K
+    prof = stack.profile()
+    e_cell = cell_electrons(layout, state)
+    e_layer = per_layer(layout, e_cell)
+    weights = subband_wells(layout, state.psi)
+    en = state.energies_J
+    dos_sub = subband_dos(state.subband_mass)
+    n_sub = subband_sheet_density(en, dos_sub, kT)
+
+    well_idx = layout.well_layers
+    sub_results = []
+    owner_well = []
+    for s in range(len(en)):
+        w_in = weights[s, list(well_idx)]
+        k = int(np.argmax(w_in))
+        owner_well.append(well_idx[k])
+        sub_results.append(
+            SubbandResult(
+                energy_J=float(en[s]),
+                well=layout.layer_names[well_idx[k]],
+                fraction_in_well=float(w_in[k]),
+                mass_rel=float(state.subband_mass[s]),
+                sheet_density_m2=float(n_sub[s]),
+            )
+        )
+    centres = dev.centres
+    wells = []
+    for li in well_idx:
+        p = prof[li]
+        mask = dev.layer_of_cell == li
+        dens = float(e_layer[li])
+        mine = [s for s in range(len(en)) if owner_well[s] == li]
+        if dens > 1e6:
+            cen = float(np.sum(centres[mask] * e_cell[mask]) / np.sum(e_cell[mask]))
+        elif mine:
+            p2 = 0.5 * (state.psi[mine[0], :-1] ** 2 + state.psi[mine[0], 1:] ** 2) * dev.h
+            cen = float(np.sum(centres[mask] * p2[mask]) / np.sum(p2[mask]))
+        else:
+            cen = 0.5 * (p.z_top + p.z_bottom)
+        nu = math.nan
+        if options.field_T:
+            nu = dens * sc.h / (sc.e * options.field_T)
+        wells.append(
+            WellResult(
+                name=p.name,
+                role=p.well,
+                z_top_m=p.z_top,
+                z_bottom_m=p.z_bottom,
+                sheet_density_m2=dens,
+                centroid_m=cen,
+                dos_J_m2=float(subband_dos(p.mass)),
+                lowest_subband_J=float(en[mine[0]]) if mine else math.nan,
+                subbands=tuple(mine),
+                filling_factor=nu,
+            )
+        )
+    # doped layers
+    h = dev.h
+    ion_cell = dev.donors_m3 * donor_fraction_cell * h
+    ion_layer = per_layer(layout, ion_cell)
+    don_layer = per_layer(layout, dev.donors_m3 * h)
+    doping = tuple(
+        DopingResult(
+            name=layout.layer_names[i],
+            donors_m2=float(don_layer[i]),
+            ionized_m2=float(ion_layer[i]),
+            electrons_m2=float(e_layer[i]),
+        )
+        for i in layout.doped_layers
+    )
+    # flags
+    prim = next(w for w in wells if w.role == "primary")
+    psub = [en[s] for s in prim.subbands]
+    e1 = psub[0] if psub else math.nan
+    e2 = psub[1] if len(psub) > 1 else math.nan
+    if len(psub) < 2:
+        # the primary's second subband lies above every computed subband
+        e2 = float(en[-1]) if len(en) else math.nan
+    second = bool(e2 < options.second_subband_margin_J)
+    parallel = tuple(d.name for d in doping if d.electrons_m2 > options.parallel_threshold_m2)
+    poor = ()
+    if options.field_T:
+        poor = tuple(
+            w.name
+            for w in wells
+            if w.role == "screening"
+            and w.filling_factor >= 0.5
+            and abs(w.filling_factor - round(w.filling_factor)) < options.filling_margin
+        )
+    splits = {}
+    if with_tunnel:
+        for a, b in itertools.pairwise(well_idx):
+            key = f"{layout.layer_names[a]}-{layout.layer_names[b]}"
+            if b - a >= 2 and np.all(dev.offset_J[dev.layer_of_cell == a + 1] > 0):
+                splits[key] = tunnel_splitting(layout, state, a, b)
+    n_total_e = float(e_cell.sum())
+    donors_total = float(np.sum(dev.donors_m3 * h))
+    neg_boundary = -min(surface_charge_C_m2 + state.bottom_charge_C_m2, 0.0) / sc.e
+    margin = donors_total - n_total_e - neg_boundary
+    flags = Flags(
+        second_subband_occupied=second,
+        e2_minus_ef_J=float(e2),
+        e2_minus_e1_J=float(e2 - e1),
+        parallel_conduction=bool(parallel),
+        parallel_layers=parallel,
+        poor_screening=bool(poor),
+        poor_screening_wells=poor,
+        tunnel_coupled=any(v > options.tunnel_threshold_J for v in splits.values()),
+        tunnel_splittings_J=splits,
+        donor_supply_margin_m2=float(margin),
+        donor_supply_low=bool(
+            donors_total > 0 and margin < options.supply_margin_fraction * donors_total
+        ),
+        forward_leakage=bool(gate_voltage > options.forward_limit_V),
+    )
+    return tuple(sub_results), tuple(wells), doping, flags, ion_cell / h * sc.e

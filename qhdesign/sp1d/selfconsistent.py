@@ -1,0 +1,403 @@
+"""Self-consistent Schrödinger–Poisson loop with the predictor–corrector scheme of Trellakis et al.
+
+After each Schrödinger solve at the potential phi_k, the quantum electron density is written as a
+functional of the (unknown) new potential by shifting every subband with the local potential
+change (the predictor):
+
+    n[phi](z) = sum_i |psi_i(z)|^2 D_i kT ln(1 + exp((E_F - E_i + e (phi(z) - phi_k(z))) / kT)),
+
+and the nonlinear Poisson equation with this density (plus classical electrons and donors) is
+solved by Newton (:mod:`.poisson`). The new potential goes back into the Schrödinger equation
+(the corrector) until neither the potential nor the charge changes. Because the predictor builds
+the 2DEG's own screening (its quantum capacitance) into the Poisson step, the outer iteration
+does not slosh charge and needs no under-relaxation; its fixed point is exactly the
+self-consistent solution (at phi = phi_k the predictor equals the true density).
+
+References
+----------
+A. Trellakis, A. T. Galick, A. Pacelli and U. Ravaioli, "Iteration scheme for the solution of
+the two-dimensional Schrödinger–Poisson equations in quantum structures",
+J. Appl. Phys. 81, 7880 (1997).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import constants as sc
+from scipy.special import expit
+
+from ..errors import ConvergenceError, InputError
+from .charge import classical_density, donor_ionized_fraction, subband_dos
+from .device import Device
+from .poisson import PoissonOperator, newton_poisson
+from .schrodinger import control_widths, solve_subbands
+
+__all__ = ["SolveOptions", "State", "solve_device"]
+
+E = sc.e
+_KT_REG = 2e-3 * sc.e  # regularising temperature of the Newton Jacobian (2 meV)
+_JAC_FLOOR = 1e-2
+
+
+@dataclass(frozen=True)
+class SolveOptions:
+    """Numerical options of the self-consistent solve.
+
+    Attributes
+    ----------
+    tol_potential_V
+        Outer convergence: largest potential change between corrector steps (V).
+    tol_charge
+        Outer convergence: charge imbalance of the discrete Poisson equation evaluated with the
+        density of the latest Schrödinger solve, relative to the total positive charge.
+    max_iterations
+        Outer iterations before :class:`~qhdesign.errors.ConvergenceError`.
+    min_subbands
+        Least number of subbands computed.
+    max_subbands
+        Most subbands computed (the highest must lie ``cutoff_kT`` above E_F or the solve warns).
+    cutoff_kT, cutoff_J
+        Subbands are added until the highest one lies more than cutoff_kT kT + cutoff_J above E_F.
+    eigen_tol_eV
+        Absolute tolerance of the eigenvalue bisection (eV).
+    """
+
+    tol_potential_V: float = 1e-6
+    tol_charge: float = 1e-6
+    max_iterations: int = 60
+    min_subbands: int = 4
+    max_subbands: int = 60
+    cutoff_kT: float = 12.0
+    cutoff_J: float = 0.01 * sc.e
+    eigen_tol_eV: float = 1e-10
+
+
+@dataclass(frozen=True)
+class State:
+    """Converged state of a device (all arrays on the device grid).
+
+    Attributes
+    ----------
+    phi_V
+        Electrostatic potential at the nodes, shape (N+1,).
+    U_J
+        Conduction-band edge at the nodes (control-volume average), relative to E_F, shape (N+1,).
+    energies_J, psi
+        Subband energies relative to E_F, shape (S,), and wavefunctions on the full grid
+        (zero outside the quantum region), shape (S, N+1), m^-1/2.
+    subband_mass
+        Mass of each subband <psi|m|psi> in m0, shape (S,).
+    n_quantum_m3, n_classical_m3
+        Electron densities at the nodes, shape (N+1,); each node's value times its
+        control-volume width is its sheet density.
+    donor_charge_C_m2
+        Ionised-donor charge in each control volume, shape (N+1,).
+    donor_fraction_cell
+        Ionised fraction of each cell's donors (mean of its two halves), shape (N,).
+    top_charge_C_m2, bottom_charge_C_m2
+        Charge on the top / bottom boundary (gate metal, surface states, back gate).
+    iterations
+        Outer (Schrödinger) iterations.
+    residuals
+        Largest potential change per outer iteration (V).
+    charge_balance_C_m2
+        Sum of all charges including the boundaries.
+    """
+
+    phi_V: np.ndarray
+    U_J: np.ndarray
+    energies_J: np.ndarray
+    psi: np.ndarray
+    subband_mass: np.ndarray
+    n_quantum_m3: np.ndarray
+    n_classical_m3: np.ndarray
+    donor_charge_C_m2: np.ndarray
+    donor_fraction_cell: np.ndarray
+    top_charge_C_m2: float
+    bottom_charge_C_m2: float
+    iterations: int
+    residuals: tuple[float, ...]
+    charge_balance_C_m2: float
+    positive_charge_C_m2: float
+    temperature_K: float
+
+
+class _Problem:
+    """Pre-computed arrays of one device at one temperature."""
+
+    def __init__(self, dev: Device, temperature: float, frozen_donors: np.ndarray | None):
+        self.dev = dev
+        self.kT = sc.k * temperature
+        z = dev.z
+        h = dev.h
+        self.w = control_widths(z)
+        self.node_offset = dev.node_offset()
+        n_nodes = len(z)
+        fixed = np.zeros(n_nodes, dtype=bool)
+        if dev.top.kind == "dirichlet":
+            fixed[0] = True
+        if dev.bottom.kind == "dirichlet":
+            fixed[-1] = True
+        self.op = PoissonOperator(z, dev.eps, fixed)
+        self.fixed = fixed
+        q0, q1 = dev.quantum
+        self.q0, self.q1 = q0, q1
+        qmask = np.zeros(n_nodes, dtype=bool)
+        qmask[q0 + 1 : q1] = True
+        self.qmask = qmask
+        # classical electrons: half cells of semiconductor cells whose node is not quantum
+        semi = dev.semiconductor.astype(float)
+        self.cl_left_w = 0.5 * h * semi * (~qmask[:-1])  # half cell c at node c
+        self.cl_right_w = 0.5 * h * semi * (~qmask[1:])  # half cell c at node c+1
+        # donors
+        self.frozen = frozen_donors
+        self.don_half = 0.5 * h * dev.donors_m3  # m^-2 in each half cell
+        self.has_donor_levels = np.isfinite(dev.donor_depth_J) & (dev.donors_m3 > 0)
+        # fixed boundary sheet charges
+        self.q_fixed = np.zeros(n_nodes)
+        if dev.top.kind == "neumann":
+            self.q_fixed[0] += dev.top.charge_C_m2
+        if dev.bottom.kind == "neumann":
+            self.q_fixed[-1] += dev.bottom.charge_C_m2
+        total_donors = float(np.sum(h * dev.donors_m3))
+        self.charge_scale = E * max(total_donors, 1e14) + abs(self.q_fixed).sum()
+        self.qz = z[q0 : q1 + 1]
+        self.q_mass = dev.mass[q0:q1]
+
+    # ---- charges ------------------------------------------------------------------------
+    def donors(self, phi):
+        """Ionised donor charge per control volume and its derivative."""
+        dev = self.dev
+        if self.frozen is not None:
+            return self.frozen, np.zeros_like(phi), None
+        q = np.zeros_like(phi)
+        dq = np.zeros_like(phi)
+        level_l = dev.offset_J - E * phi[:-1] - dev.donor_depth_J  # E_D in half cell at node c
+        level_r = dev.offset_J - E * phi[1:] - dev.donor_depth_J
+        f_l, df_l = donor_ionized_fraction(level_l, self.kT)
+        f_r, df_r = donor_ionized_fraction(level_r, self.kT)
+        f_l = np.where(self.has_donor_levels, f_l, 1.0)
+        f_r = np.where(self.has_donor_levels, f_r, 1.0)
+        df_l = np.where(self.has_donor_levels, df_l, 0.0)
+        df_r = np.where(self.has_donor_levels, df_r, 0.0)
+        q[:-1] += E * self.don_half * f_l
+        q[1:] += E * self.don_half * f_r
+        # dQ/dphi = e N h/2 df/dE_D * dE_D/dphi = -e^2 ...
+        dq[:-1] -= E * E * self.don_half * df_l
+        dq[1:] -= E * E * self.don_half * df_r
+        return q, dq, 0.5 * (f_l + f_r)
+
+    def classical(self, phi):
+        """Classical electron sheet density per control volume (m^-2) and d/dphi."""
+        dev = self.dev
+        u_l = dev.offset_J - E * phi[:-1]
+        u_r = dev.offset_J - E * phi[1:]
+        n_l, dn_l = classical_density(u_l, dev.mass, self.kT)
+        n_r, dn_r = classical_density(u_r, dev.mass, self.kT)
+        s = np.zeros_like(phi)
+        ds = np.zeros_like(phi)
+        s[:-1] += n_l * self.cl_left_w
+        s[1:] += n_r * self.cl_right_w
+        ds[:-1] -= E * dn_l * self.cl_left_w  # d/dphi = dn/dU * (-e)
+        ds[1:] -= E * dn_r * self.cl_right_w
+        return s, ds
+
+    def quantum_predictor(self, energies, psi2_dos, phi_k):
+        """Trellakis predictor: density (m^-3) on quantum nodes as a function of phi."""
+        kT = self.kT
+        kT_reg = max(kT, _KT_REG)
+        sl = slice(self.q0, self.q1 + 1)
+
+        def n_of(phi):
+            arg = (-energies[:, None] + E * (phi[sl] - phi_k[sl])[None, :]) / kT
+            occ = kT * np.logaddexp(0.0, arg)
+            n = np.einsum("ij,ij->j", psi2_dos, occ)
+            # Jacobian: the exact derivative expit(arg), floored for empty subbands by a small
+            # multiple of the derivative at a regularising temperature. At mK an empty subband
+            # has an exactly vanishing derivative, which would make the Newton matrix singular
+            # while the potential is still far from the solution; the floor only changes the
+            # Newton direction (the residual stays exact), and is negligible once a subband is
+            # occupied, so the fast final convergence is kept.
+            slope = np.maximum(expit(arg), _JAC_FLOOR * expit(arg * (kT / kT_reg)))
+            dn = E * np.einsum("ij,ij->j", psi2_dos, slope)
+            return n, dn
+
+        return n_of
+
+    def total_charge(self, phi, n_quantum_fn):
+        qd, dqd, _ = self.donors(phi)
+        s, ds = self.classical(phi)
+        q = qd + self.q_fixed - E * s
+        dq = dqd - E * ds
+        if n_quantum_fn is not None:
+            sl = slice(self.q0, self.q1 + 1)
+            nq, dnq = n_quantum_fn(phi)
+            q[sl] -= E * nq * self.w[sl] * self.qmask[sl]
+            dq[sl] -= E * dnq * self.w[sl] * self.qmask[sl]
+        return q, dq
+
+    # ---- Schrödinger -------------------------------------------------------------------
+    def subbands(self, phi, opts: SolveOptions, count_hint: int):
+        sl = slice(self.q0, self.q1 + 1)
+        u = self.node_offset[sl] - E * phi[sl]
+        count = max(count_hint, opts.min_subbands)
+        n_int = self.q1 - self.q0 - 1
+        target = opts.cutoff_kT * self.kT + opts.cutoff_J
+        while True:
+            count = min(count, n_int, opts.max_subbands)
+            en, psi = solve_subbands(self.qz, u, self.q_mass, count)
+            if en[-1] > target or count >= min(n_int, opts.max_subbands):
+                break
+            count = int(count * 1.6) + 2
+        mass_cell = self.q_mass
+        # subband mass <m>: weight each cell by the mean |psi|^2 of its two nodes
+        hq = np.diff(self.qz)
+        p2 = psi**2
+        cell_w = 0.5 * (p2[:, :-1] + p2[:, 1:]) * hq
+        m_sub = (cell_w @ mass_cell) / cell_w.sum(axis=1)
+        return en, psi, m_sub
+
+    def boundary_charges(self, phi, q):
+        """Charge on each boundary from the flux of its first cell (C/m^2)."""
+        flux = self.op.k * np.diff(phi)
+        # node 0 equation: flux_0 + Q_0 + sigma_top = 0 -> sigma_top = -(flux_0 + Q_0)
+        top = -(flux[0] + q[0]) if self.fixed[0] else 0.0
+        bottom = -(-flux[-1] + q[-1]) if self.fixed[-1] else 0.0
+        return float(top), float(bottom)
+
+
+def _initial_potential(prob: _Problem, phi_guess: np.ndarray | None) -> np.ndarray:
+    dev = prob.dev
+    if phi_guess is not None:
+        phi = phi_guess.copy()
+    else:
+        # flat band in the interior, boundary values set below
+        phi = np.zeros(len(dev.z))
+    if dev.top.kind == "dirichlet":
+        phi[0] = (prob.node_offset[0] - dev.top.energy_J) / E
+    if dev.bottom.kind == "dirichlet":
+        phi[-1] = (prob.node_offset[-1] - dev.bottom.energy_J) / E
+    return phi
+
+
+def solve_device(
+    dev: Device,
+    temperature: float,
+    *,
+    frozen_donors: np.ndarray | None = None,
+    phi_guess: np.ndarray | None = None,
+    options: SolveOptions | None = None,
+    count_hint: int = 0,
+) -> State:
+    """Self-consistent Schrödinger–Poisson solve of ``dev`` at ``temperature``.
+
+    Parameters
+    ----------
+    dev
+        The device (grid, materials, boundaries).
+    temperature
+        Solve temperature (K), > 0.
+    frozen_donors
+        If given, the ionised-donor charge of every control volume (C/m^2, shape (N+1,)) is held
+        fixed at these values (donors frozen below the freeze-out temperature).
+    phi_guess
+        Warm start potential (V), shape (N+1,).
+    options
+        Numerical options.
+
+    Returns
+    -------
+    State
+
+    Raises
+    ------
+    ConvergenceError
+        If the potential or the charge does not settle within ``options.max_iterations``.
+    """
+    opts = options or SolveOptions()
+    if not (temperature > 0.0 and np.isfinite(temperature)):
+        raise InputError(f"temperature must be > 0 K, got {temperature} K", key="temperature")
+    prob = _Problem(dev, temperature, frozen_donors)
+    phi = _initial_potential(prob, phi_guess)
+    if phi_guess is None:
+        # start from the semiclassical (Thomas-Fermi everywhere) solution: electrons in the
+        # quantum region counted classically for this first guess only
+        semi = dev.semiconductor.astype(float)
+        h = dev.h
+        saved = prob.cl_left_w, prob.cl_right_w
+        prob.cl_left_w, prob.cl_right_w = 0.5 * h * semi, 0.5 * h * semi
+        phi, _ = newton_poisson(
+            prob.op, phi, lambda p: prob.total_charge(p, None), charge_scale=prob.charge_scale
+        )
+        prob.cl_left_w, prob.cl_right_w = saved
+
+    sl = slice(prob.q0, prob.q1 + 1)
+    residuals: list[float] = []
+    charge_res: list[float] = []
+    count = count_hint
+    for it in range(1, opts.max_iterations + 1):
+        en, psi, m_sub = prob.subbands(phi, opts, count)
+        count = len(en)
+        psi2_dos = psi**2 * subband_dos(m_sub)[:, None]
+        n_fn = prob.quantum_predictor(en, psi2_dos, phi.copy())
+        # charge residual of the current potential with the density of this Schrödinger solve
+        q, _ = prob.total_charge(phi, n_fn)
+        res = prob.op.apply(phi) + q
+        res[prob.fixed] = 0.0
+        rel_charge = float(np.abs(res).sum() / prob.charge_scale)
+        charge_res.append(rel_charge)
+        if residuals and residuals[-1] < opts.tol_potential_V and rel_charge < opts.tol_charge:
+            break
+        phi_new, _ = newton_poisson(
+            prob.op, phi, lambda p, f=n_fn: prob.total_charge(p, f), charge_scale=prob.charge_scale
+        )
+        residuals.append(float(np.max(np.abs(phi_new - phi))))
+        phi = phi_new
+        if not np.all(np.isfinite(phi)):
+            raise ConvergenceError(
+                "1D Schrödinger–Poisson", it, residuals, "V", reason="potential not finite"
+            )
+    else:
+        raise ConvergenceError(
+            "1D Schrödinger–Poisson",
+            opts.max_iterations,
+            residuals,
+            "V",
+            reason=f"last relative charge residual {charge_res[-1]:.2e}",
+        )
+
+    # final bookkeeping with the converged subbands at phi (predictor shift zero)
+    nq_sl, _ = n_fn(phi)
+    n_quantum = np.zeros(len(phi))
+    n_quantum[sl] = nq_sl * prob.qmask[sl]
+    s_cl, _ = prob.classical(phi)
+    n_classical = s_cl / prob.w
+    qd, _, frac = prob.donors(phi)
+    if frac is None:
+        frac = np.full(len(dev.h), np.nan)
+    q = qd + prob.q_fixed - E * (s_cl + n_quantum * prob.w)
+    top, bottom = prob.boundary_charges(phi, q)
+    balance = float(q.sum() + top + bottom)
+    positive = float(qd.sum() + max(prob.q_fixed.sum(), 0.0) + max(top, 0) + max(bottom, 0))
+    psi_full = np.zeros((len(en), len(phi)))
+    psi_full[:, sl] = psi
+    return State(
+        phi_V=phi,
+        U_J=prob.node_offset - E * phi,
+        energies_J=en,
+        psi=psi_full,
+        subband_mass=m_sub,
+        n_quantum_m3=n_quantum,
+        n_classical_m3=n_classical,
+        donor_charge_C_m2=qd,
+        donor_fraction_cell=frac,
+        top_charge_C_m2=top,
+        bottom_charge_C_m2=bottom,
+        iterations=it,
+        residuals=tuple(residuals),
+        charge_balance_C_m2=balance,
+        positive_charge_C_m2=positive,
+        temperature_K=float(temperature),
+    )
