@@ -1,0 +1,45 @@
+"""Test stages for the sweep machinery (used by the test suite; plug in as
+``"qhdesign.sweep.testing:flaky_stage"``). Not a physics model.
+
+They live in the package, not in ``tests/``, so that worker processes (forkserver, MPI ranks)
+can import them exactly as they import a real stage.
+"""
+
+from __future__ import annotations
+
+import time
+
+from qhdesign.errors import ConvergenceError, InputError
+
+from .capacitor import capacitor_stage
+
+__all__ = ["flaky_stage"]
+
+
+def flaky_stage(
+    stack,
+    path: str = "layers.setback_upper.thickness",
+    not_converged_above: float | None = None,
+    invalid_above: float | None = None,
+    bug_above: float | None = None,
+    delay_s: float = 0.0,
+    **options,
+) -> dict[str, float]:
+    """The capacitor stage, but failing on purpose when ``stack.get(path)`` (SI) exceeds a bound.
+
+    ``not_converged_above`` raises :class:`ConvergenceError`, ``invalid_above`` an
+    :class:`InputError`, ``bug_above`` a ``ZeroDivisionError`` (a stage bug); ``delay_s`` sleeps
+    before returning, so a test can kill a sweep part-way.
+    """
+    value = float(stack.get(path))
+    if delay_s:
+        time.sleep(delay_s)
+    if bug_above is not None and value > bug_above:
+        _ = 1 / 0
+    if invalid_above is not None and value > invalid_above:
+        raise InputError(f"test stage refuses {path} = {value:g} > {invalid_above:g}", key=path)
+    if not_converged_above is not None and value > not_converged_above:
+        raise ConvergenceError("test solver", 7, [1.0, 0.5, 0.3], "V")
+    out = capacitor_stage(stack, **options)
+    out["probe_value"] = value
+    return out
