@@ -87,11 +87,19 @@ def classical_density(
         Derivative dn/dU (m^-3 J^-1, negative).
     """
     pref = 2.0 * (np.asarray(mass_rel) * sc.m_e / (2.0 * np.pi * sc.hbar**2)) ** 1.5
-    eta = -np.asarray(potential_J) / kT_J
-    f, df = fermi_half(eta)
-    # (kT)^1.5 * F(eta) stays finite at mK: F ~ eta^1.5, so the product is |U|^1.5
+    eta = -np.asarray(potential_J, dtype=float) / kT_J
     k15 = kT_J**1.5
-    return pref * k15 * f, -pref * k15 * df / kT_J
+    # (kT)^1.5 * F(eta) stays finite at mK: F ~ eta^1.5, so the product is |U|^1.5.
+    # Below eta = -60 the density is < 1e-26 of N_c: skip the evaluation there.
+    live = eta > -60.0
+    n = np.zeros(eta.shape)
+    dn = np.zeros(eta.shape)
+    if np.any(live):
+        f, df = fermi_half(eta[live])
+        p = pref[live] if np.ndim(pref) else pref
+        n[live] = p * k15 * f
+        dn[live] = -p * k15 * df / kT_J
+    return n, dn
 
 
 def donor_ionized_fraction(donor_level_J: np.ndarray, kT_J: float) -> tuple[np.ndarray, np.ndarray]:

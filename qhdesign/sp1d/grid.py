@@ -35,6 +35,12 @@ class GridSpec:
         Maximum spacing in doped layers.
     interface_spacing_m
         Spacing at a layer edge outside the quantum region.
+    quantum_interface_spacing_m
+        Spacing at the interfaces of a well (both sides).
+    quantum_interface_flat_m
+        Barriers next to a well keep ``quantum_interface_spacing_m`` over this distance before
+        the spacing grows: the levels' discretisation error comes mostly from the first
+        decay lengths (~1 nm) of the wavefunction in the barrier.
     grading
         Ratio between neighbouring cells where the spacing grows (> 1).
     """
@@ -45,7 +51,9 @@ class GridSpec:
     barrier_spacing_m: float = 5e-9
     doping_spacing_m: float = 0.5e-9
     interface_spacing_m: float = 0.2e-9
-    grading: float = 1.08
+    quantum_interface_spacing_m: float = 0.05e-9
+    quantum_interface_flat_m: float = 3e-9
+    grading: float = 1.06
 
     def refined(self, factor: float) -> GridSpec:
         """All spacings divided by ``factor`` (for grid studies)."""
@@ -56,12 +64,20 @@ class GridSpec:
             barrier_spacing_m=self.barrier_spacing_m / factor,
             doping_spacing_m=self.doping_spacing_m / factor,
             interface_spacing_m=self.interface_spacing_m / factor,
+            quantum_interface_spacing_m=self.quantum_interface_spacing_m / factor,
+            quantum_interface_flat_m=self.quantum_interface_flat_m,
             grading=1.0 + (self.grading - 1.0) / factor,
         )
 
 
 def graded_layer_nodes(
-    a: float, b: float, h_top: float, h_bottom: float, h_max: float, grading: float
+    a: float,
+    b: float,
+    h_top: float,
+    h_bottom: float,
+    h_max: float,
+    grading: float,
+    flat_m: float = 0.0,
 ) -> np.ndarray:
     """Nodes on [a, b], both ends included, graded from the edge spacings up to ``h_max``.
 
@@ -75,6 +91,8 @@ def graded_layer_nodes(
         Largest spacing inside the layer (m).
     grading
         Growth ratio of neighbouring cells.
+    flat_m
+        The edge spacing is kept over this distance from each edge before growing (m).
 
     Returns
     -------
@@ -91,7 +109,13 @@ def graded_layer_nodes(
     m = 4000
     s = np.linspace(0.0, length, m + 1)
     g = grading - 1.0
-    h = np.minimum.reduce([np.full_like(s, h_max), h_top + g * s, h_bottom + g * (length - s)])
+    h = np.minimum.reduce(
+        [
+            np.full_like(s, h_max),
+            h_top + g * np.maximum(s - flat_m, 0.0),
+            h_bottom + g * np.maximum(length - s - flat_m, 0.0),
+        ]
+    )
     inv = 1.0 / h
     cum = np.concatenate(([0.0], np.cumsum(0.5 * (inv[1:] + inv[:-1]) * np.diff(s))))
     n = max(1, int(np.ceil(cum[-1] - 1e-9)))
@@ -106,6 +130,7 @@ def layered_grid(
     edge_spacing: np.ndarray,
     max_spacing: np.ndarray,
     grading: float,
+    flat: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Graded grid through a sequence of layers.
 
@@ -119,6 +144,8 @@ def layered_grid(
         Maximum spacing inside each layer, shape (L,) (m).
     grading
         Growth ratio.
+    flat
+        Distance over which each layer keeps its edge spacing, shape (L,) (m); default 0.
 
     Returns
     -------
@@ -137,6 +164,7 @@ def layered_grid(
             edge_spacing[k + 1],
             max_spacing[k],
             grading,
+            0.0 if flat is None else float(flat[k]),
         )
         parts.append(nodes if k == 0 else nodes[1:])
         owner.append(np.full(len(nodes) - 1, k, dtype=int))

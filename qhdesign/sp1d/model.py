@@ -124,7 +124,19 @@ def build_device(
         if p.donor_density > 0:
             edge[s] = min(edge[s], max_h[s])
             edge[s + 1] = min(edge[s + 1], max_h[s])
-    z, seg_of_cell = layered_grid(seg_z, edge, max_h, spec.grading)
+    # barriers next to wells inside the quantum region: the wavefunction decays there over
+    # ~1 nm and the levels' discretisation error comes mostly from these first nanometres, so
+    # they keep a fine spacing over quantum_interface_flat_m before growing
+    flat = np.zeros(n_seg)
+    for s in range(n_seg):
+        p = prof[seg_layer[s]]
+        if in_q[s] and p.well is None and p.donor_density == 0:
+            for end in (s, s + 1):
+                touching = [t for t in (end - 1, end) if 0 <= t < n_seg and t != s]
+                if any(prof[seg_layer[t]].well is not None and in_q[t] for t in touching):
+                    edge[end] = min(edge[end], spec.quantum_interface_spacing_m)
+                    flat[s] = spec.quantum_interface_flat_m
+    z, seg_of_cell = layered_grid(seg_z, edge, max_h, spec.grading, flat)
     layer_of_cell = seg_layer[seg_of_cell]
 
     # gate dielectric above z = 0

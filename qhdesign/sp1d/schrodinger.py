@@ -39,6 +39,7 @@ def solve_subbands(
     potential_J: np.ndarray,
     mass_cell: np.ndarray,
     count: int,
+    tol_eV: float = 0.0,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Lowest ``count`` subbands of a 1D region with hard walls at ``z[0]`` and ``z[-1]``.
 
@@ -52,6 +53,8 @@ def solve_subbands(
         Effective mass on each cell in units of m0, shape (N,).
     count
         Number of subbands (lowest first).
+    tol_eV
+        Absolute tolerance of the eigenvalue bisection in eV (0: machine precision).
 
     Returns
     -------
@@ -70,7 +73,7 @@ def solve_subbands(
     diag = (c[:-1] + c[1:]) / w * scale + potential_J[1:-1] * scale
     off = -c[1:-1] / np.sqrt(w[:-1] * w[1:]) * scale
     ev, vec = eigh_tridiagonal(
-        diag, off, select="i", select_range=(0, count - 1), check_finite=False
+        diag, off, select="i", select_range=(0, count - 1), check_finite=False, tol=tol_eV
     )
     psi = np.zeros((count, len(z)))
     psi[:, 1:-1] = (vec / np.sqrt(w)[:, None]).T

@@ -69,8 +69,8 @@ class SolveOptions:
     max_iterations: int = 60
     min_subbands: int = 4
     max_subbands: int = 60
-    cutoff_kT: float = 12.0
-    cutoff_J: float = 0.01 * sc.e
+    cutoff_kT: float = 10.0
+    cutoff_J: float = 0.005 * sc.e
     eigen_tol_eV: float = 1e-10
 
 
@@ -122,6 +122,7 @@ class State:
     charge_balance_C_m2: float
     positive_charge_C_m2: float
     temperature_K: float
+    newton_iterations: int = 0
 
 
 class _Problem:
@@ -149,12 +150,12 @@ class _Problem:
         self.qmask = qmask
         # classical electrons: half cells of semiconductor cells whose node is not quantum
         semi = dev.semiconductor.astype(float)
-        self.cl_left_w = 0.5 * h * semi * (~qmask[:-1])  # half cell c at node c
-        self.cl_right_w = 0.5 * h * semi * (~qmask[1:])  # half cell c at node c+1
+        self._set_classical(0.5 * h * semi * (~qmask[:-1]), 0.5 * h * semi * (~qmask[1:]))
         # donors
         self.frozen = frozen_donors
         self.don_half = 0.5 * h * dev.donors_m3  # m^-2 in each half cell
         self.has_donor_levels = np.isfinite(dev.donor_depth_J) & (dev.donors_m3 > 0)
+        self.lev_idx = np.nonzero(self.has_donor_levels)[0]
         # fixed boundary sheet charges
         self.q_fixed = np.zeros(n_nodes)
         if dev.top.kind == "neumann":
@@ -166,6 +167,13 @@ class _Problem:
         self.qz = z[q0 : q1 + 1]
         self.q_mass = dev.mass[q0:q1]
 
+    def _set_classical(self, left_w, right_w):
+        """Half-cell widths counted classically: cell c's left half sits at node c, its right
+        half at node c+1. Only the non-zero ones are evaluated (most of the grid is quantum)."""
+        self.cl_left_w, self.cl_right_w = left_w, right_w
+        self.cl_l_idx = np.nonzero(left_w)[0]
+        self.cl_r_idx = np.nonzero(right_w)[0]
+
     # ---- charges ------------------------------------------------------------------------
     def donors(self, phi):
         """Ionised donor charge per control volume and its derivative."""
@@ -174,14 +182,16 @@ class _Problem:
             return self.frozen, np.zeros_like(phi), None
         q = np.zeros_like(phi)
         dq = np.zeros_like(phi)
-        level_l = dev.offset_J - E * phi[:-1] - dev.donor_depth_J  # E_D in half cell at node c
-        level_r = dev.offset_J - E * phi[1:] - dev.donor_depth_J
-        f_l, df_l = donor_ionized_fraction(level_l, self.kT)
-        f_r, df_r = donor_ionized_fraction(level_r, self.kT)
-        f_l = np.where(self.has_donor_levels, f_l, 1.0)
-        f_r = np.where(self.has_donor_levels, f_r, 1.0)
-        df_l = np.where(self.has_donor_levels, df_l, 0.0)
-        df_r = np.where(self.has_donor_levels, df_r, 0.0)
+        f_l = np.ones(len(dev.h))
+        f_r = np.ones(len(dev.h))
+        df_l = np.zeros(len(dev.h))
+        df_r = np.zeros(len(dev.h))
+        c = self.lev_idx
+        if len(c):
+            # E_D in the half cell at node c (left) and at node c+1 (right)
+            base = dev.offset_J[c] - dev.donor_depth_J[c]
+            f_l[c], df_l[c] = donor_ionized_fraction(base - E * phi[c], self.kT)
+            f_r[c], df_r[c] = donor_ionized_fraction(base - E * phi[c + 1], self.kT)
         q[:-1] += E * self.don_half * f_l
         q[1:] += E * self.don_half * f_r
         # dQ/dphi = e N h/2 df/dE_D * dE_D/dphi = -e^2 ...
@@ -192,16 +202,18 @@ class _Problem:
     def classical(self, phi):
         """Classical electron sheet density per control volume (m^-2) and d/dphi."""
         dev = self.dev
-        u_l = dev.offset_J - E * phi[:-1]
-        u_r = dev.offset_J - E * phi[1:]
-        n_l, dn_l = classical_density(u_l, dev.mass, self.kT)
-        n_r, dn_r = classical_density(u_r, dev.mass, self.kT)
+        il, ir = self.cl_l_idx, self.cl_r_idx
+        u_l = dev.offset_J[il] - E * phi[il]
+        u_r = dev.offset_J[ir] - E * phi[ir + 1]
+        n_l, dn_l = classical_density(u_l, dev.mass[il], self.kT)
+        n_r, dn_r = classical_density(u_r, dev.mass[ir], self.kT)
         s = np.zeros_like(phi)
         ds = np.zeros_like(phi)
-        s[:-1] += n_l * self.cl_left_w
-        s[1:] += n_r * self.cl_right_w
-        ds[:-1] -= E * dn_l * self.cl_left_w  # d/dphi = dn/dU * (-e)
-        ds[1:] -= E * dn_r * self.cl_right_w
+        wl, wr = self.cl_left_w[il], self.cl_right_w[ir]
+        np.add.at(s, il, n_l * wl)
+        np.add.at(s, ir + 1, n_r * wr)
+        np.add.at(ds, il, -E * dn_l * wl)  # d/dphi = dn/dU * (-e)
+        np.add.at(ds, ir + 1, -E * dn_r * wr)
         return s, ds
 
     def quantum_predictor(self, energies, psi2_dos, phi_k):
@@ -247,7 +259,7 @@ class _Problem:
         target = opts.cutoff_kT * self.kT + opts.cutoff_J
         while True:
             count = min(count, n_int, opts.max_subbands)
-            en, psi = solve_subbands(self.qz, u, self.q_mass, count)
+            en, psi = solve_subbands(self.qz, u, self.q_mass, count, opts.eigen_tol_eV)
             if en[-1] > target or count >= min(n_int, opts.max_subbands):
                 break
             count = int(count * 1.6) + 2
@@ -327,16 +339,17 @@ def solve_device(
         semi = dev.semiconductor.astype(float)
         h = dev.h
         saved = prob.cl_left_w, prob.cl_right_w
-        prob.cl_left_w, prob.cl_right_w = 0.5 * h * semi, 0.5 * h * semi
+        prob._set_classical(0.5 * h * semi, 0.5 * h * semi)
         phi, _ = newton_poisson(
             prob.op, phi, lambda p: prob.total_charge(p, None), charge_scale=prob.charge_scale
         )
-        prob.cl_left_w, prob.cl_right_w = saved
+        prob._set_classical(*saved)
 
     sl = slice(prob.q0, prob.q1 + 1)
     residuals: list[float] = []
     charge_res: list[float] = []
     count = count_hint
+    newton_total = 0
     for it in range(1, opts.max_iterations + 1):
         en, psi, m_sub = prob.subbands(phi, opts, count)
         count = len(en)
@@ -350,9 +363,19 @@ def solve_device(
         charge_res.append(rel_charge)
         if residuals and residuals[-1] < opts.tol_potential_V and rel_charge < opts.tol_charge:
             break
-        phi_new, _ = newton_poisson(
-            prob.op, phi, lambda p, f=n_fn: prob.total_charge(p, f), charge_scale=prob.charge_scale
+        # inexact inner solve: Newton needs only be a hundred times more accurate than the
+        # current outer change (quadratic convergence makes the last digits nearly free)
+        tol_inner = opts.tol_potential_V * 1e-3
+        if residuals:
+            tol_inner = max(tol_inner, min(1e-2 * residuals[-1], 1e-4))
+        phi_new, n_newton = newton_poisson(
+            prob.op,
+            phi,
+            lambda p, f=n_fn: prob.total_charge(p, f),
+            charge_scale=prob.charge_scale,
+            tol_V=tol_inner,
         )
+        newton_total += n_newton
         residuals.append(float(np.max(np.abs(phi_new - phi))))
         phi = phi_new
         if not np.all(np.isfinite(phi)):
@@ -397,6 +420,7 @@ def solve_device(
         bottom_charge_C_m2=bottom,
         iterations=it,
         residuals=tuple(residuals),
+        newton_iterations=newton_total,
         charge_balance_C_m2=balance,
         positive_charge_C_m2=positive,
         temperature_K=float(temperature),
