@@ -130,6 +130,7 @@ class SweepSummary:
 
 
 # ------------------------------------------------------------------------ executors
+_THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
 _MPI_SIZE_VARS = ("PMI_SIZE", "OMPI_COMM_WORLD_SIZE", "MPI_LOCALNRANKS", "PMIX_SIZE")
 
 
@@ -171,8 +172,19 @@ def open_executor(kind: str, workers: int | None) -> Iterator[tuple[object | Non
         n = workers or os.cpu_count() or 1
         ctx = multiprocessing.get_context("forkserver")
         ctx.set_forkserver_preload(["qhdesign.sweep.evaluate", "qhdesign.stack", "numpy"])
-        with ProcessPoolExecutor(max_workers=n, mp_context=ctx) as ex:
-            yield ex, "local", n
+        # one BLAS/OpenMP thread per worker: n workers x n BLAS threads oversubscribe the cores
+        saved = {v: os.environ.get(v) for v in _THREAD_VARS}
+        for v in _THREAD_VARS:
+            os.environ.setdefault(v, "1")
+        try:
+            with ProcessPoolExecutor(max_workers=n, mp_context=ctx) as ex:
+                yield ex, "local", n
+        finally:
+            for v, old in saved.items():
+                if old is None:
+                    os.environ.pop(v, None)
+                else:
+                    os.environ[v] = old
     else:
         try:
             from mpi4py import MPI

@@ -41,26 +41,66 @@ def _import(module: str, attr: str, stage: str) -> Callable[..., Any]:
 
 
 def _summary(result) -> dict[str, Any]:
-    return dict(result.summary())
+    return {k: (float(v) if isinstance(v, int | float) else v) for k, v in result.summary().items()}
+
+
+def _quantity(value: Any, dimension: str, key: str) -> float:
+    """A spec option value: a string with a unit, or a number already in SI units."""
+    from qhdesign.units import parse_quantity
+
+    if isinstance(value, str):
+        return parse_quantity(value, dimension, key=f"options.{key}")
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise InputError(f"expected a quantity with a unit, got {value!r}", key=f"options.{key}")
+    return float(value)
+
+
+def _bands_options(options: dict[str, Any], stage: str):
+    """Split spec options into solver keywords and a ``BandsOptions`` (SI-suffixed fields)."""
+    import dataclasses
+
+    from qhdesign.sp1d import BandsOptions
+
+    fields = {f.name for f in dataclasses.fields(BandsOptions)} - {"solve", "grid"}
+    kw: dict[str, Any] = {}
+    bo: dict[str, Any] = {}
+    for key, value in options.items():
+        if key == "temperature":
+            kw[key] = _quantity(value, "temperature", key)
+        elif key == "gate_voltage" and stage == "bands":
+            kw[key] = _quantity(value, "voltage", key)
+        elif key == "cool_bias" and stage == "gate":
+            kw[key] = _quantity(value, "voltage", key)
+        elif key in fields:
+            if isinstance(value, bool) or not isinstance(value, int | float):
+                raise InputError(
+                    f"expected a number in SI units, got {value!r}", key=f"options.{key}"
+                )
+            bo[key] = float(value)
+        else:
+            own = ["temperature", "gate_voltage" if stage == "bands" else "cool_bias"]
+            raise InputError(
+                f"unknown option of stage '{stage}'; allowed: {', '.join(own + sorted(fields))}",
+                key=f"options.{key}",
+            )
+    if bo:
+        kw["options"] = BandsOptions(**bo)
+    return kw
 
 
 def _bands(stack, **options):
-    return _summary(_import("qhdesign.sp1d", "solve_bands", "bands")(stack, **options))
+    fn = _import("qhdesign.sp1d", "solve_bands", "bands")
+    return _summary(fn(stack, **_bands_options(options, "bands")))
 
 
 def _gate(stack, v_from=None, v_to=None, step=None, **options):
-    from qhdesign.units import parse_quantity
-
-    def volts(v, name):
-        if v is None:
-            raise InputError("gate stage needs v_from, v_to and step", key=f"stage.options.{name}")
-        if isinstance(v, str):
-            return parse_quantity(v, "voltage", key=f"stage.options.{name}")
-        return float(v)
-
     fn = _import("qhdesign.sp1d", "gate_response", "gate")
-    res = fn(stack, volts(v_from, "v_from"), volts(v_to, "v_to"), volts(step, "step"), **options)
-    return _summary(res)
+    volts = []
+    for name, v in (("v_from", v_from), ("v_to", v_to), ("step", step)):
+        if v is None:
+            raise InputError("the gate stage needs v_from, v_to and step", key=f"options.{name}")
+        volts.append(_quantity(v, "voltage", name))
+    return _summary(fn(stack, *volts, **_bands_options(options, "gate")))
 
 
 def _edge(stack, **options):

@@ -1,0 +1,154 @@
+"""Sweep benchmarks: designs per second of a 1D-stage sweep at 1 and 2 workers, parallel
+efficiency, executor overhead per task against one 1D solve, and peak memory of a 10,000-design
+sweep. Prints a Markdown table for docs/performance.md ("Sweeps").
+
+Run: ``.venv/bin/python benchmarks/bench_sweep.py [--designs 1000] [--big 10000]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import platform
+import resource
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+STACK = ROOT / "stacks" / "ql2417_screened.toml"
+QH = str(Path(sys.executable).parent / "qhdesign")
+
+
+def grid_spec(tmp: Path, stage: str, n1: int, n2: int, options: str = "") -> Path:
+    p = tmp / f"{stage}_{n1}x{n2}.toml"
+    p.write_text(
+        f"""
+[sweep]
+name = "bench {stage}"
+stack = "{STACK}"
+stage = "{stage}"
+{options}
+[space]
+kind = "grid"
+[space.parameters]
+"layers.setback_upper.thickness" = {{ from = "20 nm", to = "40 nm", steps = {n1} }}
+"layers.spacer_upper.thickness" = {{ from = "16 nm", to = "40 nm", steps = {n2} }}
+"""
+    )
+    return p
+
+
+def run_sweep(spec: Path, out: Path, workers: int) -> tuple[float, str]:
+    t0 = time.perf_counter()
+    res = subprocess.run(
+        [QH, "sweep", str(spec), "--out", str(out), "--workers", str(workers)],
+        capture_output=True,
+        text=True,
+        check=True,
+    )
+    return time.perf_counter() - t0, res.stdout
+
+
+def overhead_per_task(n_tasks: int = 2000) -> float:
+    """Round-trip time of an empty task through the local process pool (s)."""
+    from qhdesign.stack import load_stack
+    from qhdesign.sweep.evaluate import Job, noop_chunk
+    from qhdesign.sweep.runner import open_executor
+
+    job = Job("bands", load_stack(STACK), {})
+    with open_executor("local", 2) as (ex, _, _):
+        list(ex.map(noop_chunk, [job] * 20, [[(i, {})] for i in range(20)]))  # warm up
+        t0 = time.perf_counter()
+        futs = [
+            ex.submit(noop_chunk, job, [(i, {"layers.primary.thickness": 2.6e-8})])
+            for i in range(n_tasks)
+        ]
+        for f in futs:
+            f.result()
+        dt = time.perf_counter() - t0
+    # tasks run on 2 workers concurrently: per-task cost seen by one worker is 2 dt / n
+    return 2 * dt / n_tasks
+
+
+def one_solve_time(repeats: int = 5) -> float:
+    from qhdesign.stack import load_stack
+    from qhdesign.sweep.evaluate import Job, evaluate_design
+
+    job = Job("bands", load_stack(STACK), {})
+    evaluate_design(job, {})
+    times = []
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        evaluate_design(job, {"layers.setback_upper.thickness": 3.0e-8})
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--designs", type=int, default=1000, help="1D-stage designs (n1 x 25)")
+    ap.add_argument("--big", type=int, default=10000, help="designs of the memory run")
+    args = ap.parse_args()
+    n1 = max(1, args.designs // 25)
+    rows = []
+    with tempfile.TemporaryDirectory() as d:
+        tmp = Path(d)
+        spec = grid_spec(tmp, "bands", n1, 25)
+        n = n1 * 25
+        rate = {}
+        for w in (1, 2):
+            wall, out = run_sweep(spec, tmp / f"bands_w{w}.csv", w)
+            rate[w] = n / wall
+            rows.append(
+                (
+                    f"1D `bands` sweep, {n} designs, {w} worker(s)",
+                    f"{rate[w]:.2f} designs/s (wall {wall:.1f} s incl. start-up)",
+                )
+            )
+            print(out.strip().splitlines()[1], file=sys.stderr)
+        eff = rate[2] / (2 * rate[1])
+        rows.append(("parallel efficiency at 2 workers", f"{100 * eff:.1f} %"))
+        t_solve = one_solve_time()
+        t_task = overhead_per_task()
+        rows.append(("one 1D solve (nominal QL-2417, median of 5)", f"{1e3 * t_solve:.1f} ms"))
+        rows.append(
+            (
+                "executor overhead per task (empty task, local pool)",
+                f"{1e3 * t_task:.3f} ms = {100 * t_task / t_solve:.2f} % of one solve",
+            )
+        )
+        # memory: 10,000 capacitor designs, 2 workers, rows streamed
+        m1 = max(1, args.big // 100)
+        big = grid_spec(tmp, "capacitor", m1, 100)
+        before = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+        wall, out = run_sweep(big, tmp / "big.csv", 2)
+        peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+        rows.append(
+            (
+                f"`capacitor` sweep, {m1 * 100} designs, 2 workers",
+                f"{m1 * 100 / wall:.0f} designs/s",
+            )
+        )
+        rows.append(
+            (
+                "peak RSS of the largest process (sweep main or worker)",
+                f"{max(peak, before) / 1024:.0f} MB",
+            )
+        )
+        lines = (tmp / "big.csv").read_text().count("\n") - 1
+        rows.append(("rows in the 10,000-design CSV", f"{lines}"))
+    print(
+        f"Machine: {platform.processor() or platform.machine()}, {os.cpu_count()} cores, "
+        f"Python {platform.python_version()}, {platform.system()} {platform.release()}"
+    )
+    print("\n| quantity | measured |\n|---|---|")
+    for a, b in rows:
+        print(f"| {a} | {b} |")
+
+
+if __name__ == "__main__":
+    main()
