@@ -1,0 +1,300 @@
+"""``qhdesign bands``, ``qhdesign gate`` and ``qhdesign calibrate``: the 1D Schrödinger–Poisson
+stage on the command line. Results are computed completely before anything is written."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import typer
+
+from .common import guarded, option_quantity
+
+
+def _load(stack_file: Path):
+    from qhdesign.stack import load_stack
+
+    stack = load_stack(stack_file)
+    for w in stack.warnings:
+        typer.echo(f"warning: {w}", err=True)
+    return stack
+
+
+def _temperature(value: str | None):
+    if value is None:
+        return None
+    from qhdesign.errors import InputError
+
+    t = option_quantity(value, "temperature", "--temperature")
+    if not (t > 0.0) or t > 400.0:
+        raise InputError(
+            f"temperature {value} is out of range; allowed above 0 K up to 400 K "
+            '(e.g. "10 mK", "4.2 K")',
+            source="option --temperature",
+        )
+    return t
+
+
+def _print_bands(r) -> None:
+    from rich.console import Console
+    from rich.table import Table
+    from scipy import constants as sc
+
+    console = Console(width=110)
+    console.print(
+        f"[bold]{r.stack_name}[/bold]: T = {r.temperature_K:g} K, gate {r.gate_voltage_V:+.3f} V "
+        f"({r.surface_kind}), converged in {r.iterations} iterations, charge balance "
+        f"{r.charge_balance_relative:.1e} (relative)"
+    )
+    t = Table(title="wells (top to bottom)")
+    for col in ("well", "role", "density (cm^-2)", "centroid (nm)", "E1 - EF (meV)", "nu"):
+        t.add_column(col, justify="left" if col in ("well", "role") else "right")
+    for w in r.wells:
+        t.add_row(
+            w.name,
+            w.role,
+            f"{w.sheet_density_m2 * 1e-4:.4g}",
+            f"{w.centroid_m * 1e9:.2f}",
+            f"{w.lowest_subband_J / sc.e * 1e3:.3f}",
+            "" if math.isnan(w.filling_factor) else f"{w.filling_factor:.2f}",
+        )
+    console.print(t)
+    s = Table(title="subbands (energies relative to the Fermi level)")
+    for col in ("#", "E - EF (meV)", "well", "in well", "density (cm^-2)"):
+        s.add_column(col, justify="right")
+    for i, sb in enumerate(r.subbands):
+        s.add_row(
+            str(i + 1),
+            f"{sb.energy_J / sc.e * 1e3:.3f}",
+            sb.well,
+            f"{sb.fraction_in_well:.3f}",
+            f"{sb.sheet_density_m2 * 1e-4:.3g}",
+        )
+    console.print(s)
+    for d in r.doping:
+        console.print(
+            f"doping {d.name}: {d.donors_m2 * 1e-4:.3g} cm^-2 donors, "
+            f"{d.ionized_fraction:.3f} ionised (frozen), "
+            f"{d.electrons_m2 * 1e-4:.3g} cm^-2 electrons"
+        )
+    console.print(f"surface charge: {r.surface_charge_C_m2 / sc.e * 1e-4:+.4g} e cm^-2")
+    f = r.flags
+    lines = [
+        f"second subband of the primary: E2 - EF = {f.e2_minus_ef_J / sc.e * 1e3:.2f} meV"
+        + (" [OCCUPIED or within margin]" if f.second_subband_occupied else " (ok)"),
+        "parallel conduction: "
+        + (", ".join(f.parallel_layers) if f.parallel_conduction else "none"),
+        "donor supply margin: "
+        + f"{f.donor_supply_margin_m2 * 1e-4:.3g} cm^-2"
+        + (" [LOW]" if f.donor_supply_low else ""),
+    ]
+    for k, v in f.tunnel_splittings_J.items():
+        lines.append(f"tunnel splitting {k}: {v / sc.e * 1e6:.3g} ueV")
+    if f.poor_screening:
+        lines.append(
+            "poor screening (filling near an integer): " + ", ".join(f.poor_screening_wells)
+        )
+    for line in lines:
+        console.print(line)
+    for w in r.warnings:
+        typer.echo(f"warning: {w}", err=True)
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("bands")
+    @guarded
+    def bands(
+        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        gate: str | None = typer.Option(
+            None, "--gate", help="Gate voltage (V; default: the stack's bias)."
+        ),
+        temperature: str | None = typer.Option(
+            None, "--temperature", help='Solve temperature with unit, e.g. "10 mK".'
+        ),
+        field: str | None = typer.Option(
+            None, "--field", help='Perpendicular field for the filling-factor flag, e.g. "3 T".'
+        ),
+        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        plot: Path | None = typer.Option(None, "--plot", help="Write the band diagram."),
+    ) -> None:
+        """Self-consistent subbands and the charge in each well (donors frozen at freeze-out)."""
+        from qhdesign.errors import InputError
+        from qhdesign.sp1d import BandsOptions, solve_bands
+
+        stack = _load(stack_file)
+        v = option_quantity(gate, "voltage", "--gate")
+        t = _temperature(temperature)
+        b = option_quantity(field, "field", "--field")
+        if b is not None and not (0.0 < b <= 100.0):
+            raise InputError(
+                "field out of range; allowed above 0 T up to 100 T", source="option --field"
+            )
+        r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
+        _print_bands(r)
+        if json_out is not None:
+            from qhdesign.io import atomic_write_json
+
+            atomic_write_json(json_out, r.to_dict())
+            typer.echo(f"wrote {json_out}")
+        if plot is not None:
+            from qhdesign.plotting import save_figure
+            from qhdesign.plotting.bands import plot_bands
+
+            save_figure(plot_bands(r), plot)
+            typer.echo(f"wrote {plot}")
+
+    @app.command("gate")
+    @guarded
+    def gate_cmd(
+        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        v_from: str = typer.Option(..., "--from", help="First gate voltage (V)."),
+        v_to: str = typer.Option(..., "--to", help="Last gate voltage (V)."),
+        step: str = typer.Option(..., "--step", help="Voltage step (V)."),
+        cool_bias: str = typer.Option("0", "--cool-bias", help="Gate bias during cool-down (V)."),
+        temperature: str | None = typer.Option(
+            None, "--temperature", help='Solve temperature with unit, e.g. "300 mK".'
+        ),
+        forward_limit: str = typer.Option(
+            "0.5", "--forward-limit", help="Warn about gate leakage above this voltage (V)."
+        ),
+        csv_out: Path | None = typer.Option(None, "--csv", help="Write density vs voltage CSV."),
+        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        plot: Path | None = typer.Option(None, "--plot", help="Write density vs gate voltage."),
+    ) -> None:
+        """Gate sweep with frozen donors: density per well, depletion thresholds, slopes."""
+        from qhdesign.sp1d import BandsOptions, gate_response
+
+        stack = _load(stack_file)
+        a = option_quantity(v_from, "voltage", "--from")
+        b = option_quantity(v_to, "voltage", "--to")
+        s = option_quantity(step, "voltage", "--step")
+        cb = option_quantity(cool_bias, "voltage", "--cool-bias")
+        fl = option_quantity(forward_limit, "voltage", "--forward-limit")
+        t = _temperature(temperature)
+        g = gate_response(
+            stack, a, b, s, cool_bias=cb, temperature=t, options=BandsOptions(forward_limit_V=fl)
+        )
+        typer.echo(
+            f"{g.stack_name}: {len(g.voltages_V)} points from {g.voltages_V[0]:+.3f} V to "
+            f"{g.voltages_V[-1]:+.3f} V at {g.temperature_K:g} K "
+            f"(cool-down bias {g.cool_bias_V:+.3f} V)"
+        )
+        for name in g.well_names:
+            th = g.thresholds_V[name]
+            typer.echo(
+                f"  threshold {name}: "
+                + ("not reached in the sweep" if math.isnan(th) else f"{th:+.4f} V")
+            )
+        typer.echo(f"  depletion order: {', '.join(g.depletion_order) or '-'}")
+        typer.echo(
+            "  window (top screening well empty to primary empty): "
+            + ("n/a" if math.isnan(g.window_V) else f"{g.window_V:.4f} V")
+        )
+        for seg in g.segments:
+            slopes = ", ".join(
+                f"{k} {v * 1e-4:.3g}" for k, v in seg["slope_m2_V"].items() if not math.isnan(v)
+            )
+            typer.echo(
+                f"  dn/dV (cm^-2/V) from {seg['from_V']:+.3f} to {seg['to_V']:+.3f} V: {slopes}"
+            )
+        for w in g.warnings:
+            typer.echo(f"warning: {w}", err=True)
+        if csv_out is not None:
+            from qhdesign.io import atomic_write_text
+
+            atomic_write_text(csv_out, g.to_csv())
+            typer.echo(f"wrote {csv_out}")
+        if json_out is not None:
+            from qhdesign.io import atomic_write_json
+
+            atomic_write_json(json_out, g.to_dict())
+            typer.echo(f"wrote {json_out}")
+        if plot is not None:
+            from qhdesign.plotting import save_figure
+            from qhdesign.plotting.bands import plot_gate
+
+            save_figure(plot_gate(g), plot)
+            typer.echo(f"wrote {plot}")
+
+    @app.command("calibrate")
+    @guarded
+    def calibrate_cmd(
+        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        parameter: str = typer.Option(
+            ..., "--parameter", help="Stack parameter path to fit, e.g. surface.barrier."
+        ),
+        well: str = typer.Option(..., "--well", help="Well whose measurement is given."),
+        density: str | None = typer.Option(
+            None, "--density", help='Measured zero-bias sheet density, e.g. "2.1e11 cm^-2".'
+        ),
+        threshold: str | None = typer.Option(
+            None, "--threshold", help="Measured depletion threshold of the well (V)."
+        ),
+        search_range: str | None = typer.Option(
+            None,
+            "--range",
+            help='Search interval for the parameter, "LOW..HIGH" with units '
+            '(e.g. "0.6 eV..0.8 eV"); default +-50% of its value.',
+        ),
+        out: Path = typer.Option(..., "--out", help="Write the calibrated stack (TOML) here."),
+        json_out: Path | None = typer.Option(None, "--json", help="Write the fit as JSON."),
+    ) -> None:
+        """Fit one stack parameter to a measured density or threshold; write the new stack."""
+        from qhdesign.errors import InputError
+        from qhdesign.sp1d import calibrate
+
+        stack = _load(stack_file)
+        if (density is None) == (threshold is None):
+            raise InputError("give exactly one of --density or --threshold", source="options")
+        if density is not None:
+            target, measured = "density", option_quantity(density, "sheet_density", "--density")
+        else:
+            target, measured = "threshold", option_quantity(threshold, "voltage", "--threshold")
+        bracket = None
+        if search_range is not None:
+            bracket = _parse_range(search_range, stack, parameter)
+        res = calibrate(
+            stack, parameter, target=target, well=well, measured=measured, bracket=bracket
+        )
+        typer.echo(
+            f"{parameter}: fitted {res.fitted_value:.6g} (SI), was {res.initial_value:.6g}; "
+            f"reproduces the measured {target} of {well} "
+            f"({res.achieved:.6g} vs {res.measured:.6g} SI) after {res.evaluations} solves"
+        )
+        from qhdesign.io import atomic_write_json, atomic_write_text
+
+        atomic_write_text(out, res.stack.to_toml())
+        typer.echo(f"wrote {out}")
+        if json_out is not None:
+            atomic_write_json(json_out, res.to_dict())
+            typer.echo(f"wrote {json_out}")
+
+
+def _parse_range(text: str, stack, parameter: str) -> tuple[float, float]:
+    """``"LOW..HIGH"`` in the parameter's dimension (bare numbers for dimensionless ones)."""
+    from qhdesign.errors import InputError
+    from qhdesign.units import DIMENSIONS, parse_quantity
+
+    parts = [p.strip() for p in text.split("..")]
+    if len(parts) != 2:
+        raise InputError('expected "LOW..HIGH", e.g. "0.6 eV..0.8 eV"', source="option --range")
+    stack.get(parameter)  # validates the path
+    out = []
+    for p in parts:
+        try:
+            out.append(float(p))
+            continue
+        except ValueError:
+            pass
+        for dim in DIMENSIONS:
+            try:
+                out.append(parse_quantity(p, dim))
+                break
+            except InputError:
+                continue
+        else:
+            raise InputError(f"cannot read '{p}' as a quantity", source="option --range")
+    lo, hi = sorted(out)
+    if not lo < hi:
+        raise InputError("the range must have LOW < HIGH", source="option --range")
+    return lo, hi
