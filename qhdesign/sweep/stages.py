@@ -103,8 +103,42 @@ def _gate(stack, v_from=None, v_to=None, step=None, **options):
     return _summary(fn(stack, *volts, **_bands_options(options, "gate")))
 
 
-def _edge(stack, **options):
-    return _summary(_import("qhdesign.tf2d", "solve_edge", "edge")(stack, **options))
+def flatten(d: dict, prefix: str = "") -> dict[str, float]:
+    """Numeric leaves of a nested result dict as ``a.b.c`` keys (lists, text and None dropped)."""
+    out: dict[str, float] = {}
+    for k, v in d.items():
+        name = f"{prefix}{k}"
+        if isinstance(v, dict):
+            out.update(flatten(v, name + "."))
+        elif isinstance(v, bool):
+            out[name] = float(v)
+        elif isinstance(v, int | float):
+            out[name] = float(v)
+    return out
+
+
+def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, perimeter=None):
+    """2D edge cross-section: 1D solve -> sheets -> DOLFINx Thomas-Fermi, one process per design."""
+    solve_edge = _import("qhdesign.tf2d", "solve_edge", "edge")
+    from mpi4py import MPI
+
+    from qhdesign.tf2d import EdgeSettings, section_from_stack
+
+    if gate_voltage is None:
+        raise InputError("the edge stage needs gate_voltage", key="options.gate_voltage")
+    settings = EdgeSettings(
+        gate_voltage_V=_quantity(gate_voltage, "voltage", "gate_voltage"),
+        field_T=None if field is None else _quantity(field, "field", "field"),
+        filling=None if filling is None else float(filling),
+        gap_energy_J=None if gap_energy is None else _quantity(gap_energy, "energy", "gap_energy"),
+        perimeter_m=None if perimeter is None else _quantity(perimeter, "length", "perimeter"),
+    )
+    res = solve_edge(section_from_stack(stack), settings, comm=MPI.COMM_SELF)
+    if hasattr(res, "summary"):
+        return _summary(res)
+    d = res.to_dict()
+    d.pop("solver", None)  # timings and mesh sizes: not design outputs
+    return flatten(d)
 
 
 def _island(stack, **options):
