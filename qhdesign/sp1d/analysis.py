@@ -14,7 +14,16 @@ from .results import DopingResult, Flags, SubbandResult, WellResult
 from .schrodinger import solve_subbands
 from .selfconsistent import State
 
-__all__ = ["cell_electrons", "per_layer", "subband_wells", "tunnel_splitting"]
+__all__ = [
+    "TUNNEL_RESOLUTION_J",
+    "cell_electrons",
+    "per_layer",
+    "subband_wells",
+    "tunnel_splitting",
+]
+
+#: Smallest tunnel splitting resolved (J); smaller splittings are reported as 0.
+TUNNEL_RESOLUTION_J = 1e-11 * sc.e
 
 
 def cell_electrons(layout: DeviceLayout, state: State) -> np.ndarray:
@@ -102,7 +111,10 @@ def tunnel_splitting(
             break
         s = max(min(s, 20 * max(split, tol_J), abs(dmin) * s * 4 + 10 * tol_J), tol_J)
     final = math.sqrt(gap2(d0))
-    return min(final, split) if not math.isnan(split) else final
+    value = min(final, split) if not math.isnan(split) else final
+    # below ~1e-11 eV the gap is at the round-off of the eigenvalues (|T| eps): report 0,
+    # meaning "below the numerical resolution"
+    return value if value > TUNNEL_RESOLUTION_J else 0.0
 
 
 def build_results(

@@ -26,6 +26,9 @@ from ..errors import ConvergenceError
 
 __all__ = ["PoissonOperator", "newton_poisson"]
 
+#: Residual (relative to the charge scale) regarded as round-off.
+_RES_FLOOR = 1e-13
+
 
 class PoissonOperator:
     """The linear part of the discrete Poisson problem and its boundary handling.
@@ -125,6 +128,10 @@ def newton_poisson(
     rnorm = np.linalg.norm(res) / charge_scale
     history = []
     for it in range(1, max_iter + 1):
+        if rnorm < _RES_FLOOR:
+            # the residual is at round-off: nothing left to correct (this also ends the
+            # iteration when an approximate Jacobian would keep proposing tiny steps)
+            return phi, it - 1
         delta = op.solve_step(dq, res)
         step = float(np.max(np.abs(delta)))
         history.append(step)
@@ -137,7 +144,7 @@ def newton_poisson(
             res_t = op.apply(trial) + q_t
             res_t[~free] = 0.0
             rn_t = np.linalg.norm(res_t) / charge_scale
-            if rn_t <= (1.0 - 1e-4 * t) * rnorm or t < 1e-6 or rn_t < 1e-13:
+            if rn_t <= (1.0 - 1e-4 * t) * rnorm or t < 1e-6 or rn_t < _RES_FLOOR:
                 break
             t *= 0.5
         phi, q, dq, res, rnorm = trial, q_t, dq_t, res_t, rn_t

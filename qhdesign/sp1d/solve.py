@@ -73,17 +73,17 @@ def check_gate_voltage(stack, v: float, option: str = "gate voltage") -> float:
     vmax = surf.barrier / sc.e
     if v >= vmax:
         raise InputError(
-            f"gate voltage {v:+.3f} V is past the Schottky barrier ({vmax:.3f} V): the gate "
-            f"would inject current; allowed below {vmax:.3f} V",
+            f"{option} {v:+.3f} V is past the Schottky barrier ({vmax:.3f} eV): the gate would "
+            f"inject current; allowed below {vmax:+.3f} V",
             source=stack.source,
-            key=option,
+            key="surface.barrier",
         )
     if v < -20.0:
         raise InputError(
-            f"gate voltage {v:+.3f} V is below -20 V (dielectric breakdown range); allowed "
-            f"-20 V to {vmax:.3f} V",
+            f"{option} {v:+.3f} V is below -20 V (dielectric breakdown range); allowed "
+            f"-20 V to {vmax:+.3f} V",
             source=stack.source,
-            key=option,
+            key="surface.barrier",
         )
     return float(v)
 
