@@ -1,0 +1,36 @@
+"""2D Thomas–Fermi cross-sections on DOLFINx: depletion edges, healing, strips, pinch-off.
+
+The only package that imports dolfinx, gmsh, mpi4py and petsc4py; they load inside the functions
+that need them, so importing this package is light. Entry points: :func:`solve_edge`,
+:func:`solve_pinchoff`, :class:`CrossSectionSolver`.
+"""
+
+from __future__ import annotations
+
+from .edge import (
+    EdgeResult,
+    EdgeSettings,
+    PinchoffResult,
+    section_from_stack,
+    solve_edge,
+    solve_pinchoff,
+)
+from .geometry import GateLayout, MeshOptions
+from .model import CrossSection, SheetSpec, cross_section_from_sheet_model
+from .solver import CrossSectionSolver, SolverOptions
+
+__all__ = [
+    "CrossSection",
+    "CrossSectionSolver",
+    "EdgeResult",
+    "EdgeSettings",
+    "GateLayout",
+    "MeshOptions",
+    "PinchoffResult",
+    "SheetSpec",
+    "SolverOptions",
+    "cross_section_from_sheet_model",
+    "section_from_stack",
+    "solve_edge",
+    "solve_pinchoff",
+]

@@ -1,0 +1,533 @@
+"""Edge and constriction analysis: what a fab engineer asks of a depletion gate.
+
+``solve_edge`` answers, for one gate edge (metal over x < 0): where is the electronic edge of each
+well relative to the lithographic edge, how sharp is it, is the well cut under the gate, how
+strong is the in-plane field and how fast is the edge state at the operating filling, where are
+the incompressible strips, and how far does the edge move per gate volt (hence dA/dV for a
+perimeter). ``solve_pinchoff`` finds, for a split gate of gap w, the density at the constriction
+centre against gate voltage and the pinch-off voltage of each well by bisection.
+
+Definitions of edge, healing length, cut and strips: :mod:`qhdesign.tf2d.profile`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+from scipy import constants as sc
+
+from qhdesign.errors import InputError
+
+from .geometry import GateLayout, MeshOptions
+from .model import CrossSection, _inverse_tf
+from .profile import (
+    EDGE_FRACTION,
+    crossing_from_bulk,
+    interp_at,
+    local_filling,
+    strip_width,
+)
+from .solver import CrossSectionSolver, FieldSolution, SolverOptions
+
+__all__ = [
+    "EdgeResult",
+    "EdgeSettings",
+    "PinchoffResult",
+    "WellEdge",
+    "analyse_edge",
+    "solve_edge",
+    "solve_pinchoff",
+]
+
+#: Gate-voltage step of the finite difference for the edge shift per volt (V).
+VOLTAGE_STEP_V = 0.02
+#: Bisection tolerance of the pinch-off voltage (V).
+PINCHOFF_TOL_V = 1e-3
+#: |g*| of GaAs for the spin gap of odd integer strips (bare Zeeman, exchange enhancement
+#: ignored). From memory: g* = -0.44 for GaAs conduction electrons.
+G_FACTOR_GAAS = 0.44
+#: Most negative gate voltage accepted (V): beyond this a Schottky gate breaks down.
+MIN_GATE_VOLTAGE_V = -20.0
+
+
+@dataclass(frozen=True)
+class EdgeSettings:
+    """What to compute besides the edge itself.
+
+    Attributes
+    ----------
+    gate_voltage_V
+        Gate bias (V).
+    field_T
+        Perpendicular magnetic field (T); needed for the filling, edge velocity and strips.
+    filling
+        Operating filling nu whose edge channel is reported (default 1 when a field is given).
+    gap_energy_J
+        Gap of a fractional ``filling`` (J): adds its incompressible strip.
+    perimeter_m
+        Gate perimeter for dA/dV (m).
+    voltage_step_V
+        Step of the finite difference for the edge shift per volt.
+    """
+
+    gate_voltage_V: float
+    field_T: float | None = None
+    filling: float | None = None
+    gap_energy_J: float | None = None
+    perimeter_m: float | None = None
+    voltage_step_V: float = VOLTAGE_STEP_V
+
+    def __post_init__(self):
+        if self.filling is not None and (self.field_T is None or self.field_T == 0.0):
+            raise InputError(
+                "a filling needs a magnetic field: give --field B with B > 0 T",
+                source="option --field",
+            )
+        if self.field_T is not None and not self.field_T > 0:
+            raise InputError(
+                f"field must be > 0 T, got {self.field_T:g} T", source="option --field"
+            )
+        if self.filling is not None and not self.filling > 0:
+            raise InputError(
+                f"filling must be > 0, got {self.filling:g}", source="option --filling"
+            )
+        if self.gap_energy_J is not None and not self.gap_energy_J > 0:
+            raise InputError("gap energy must be > 0", source="option --gap-energy")
+        if self.perimeter_m is not None and not self.perimeter_m > 0:
+            raise InputError("perimeter must be > 0", source="option --perimeter")
+
+
+@dataclass(frozen=True)
+class WellEdge:
+    """Edge figures of one well (SI)."""
+
+    name: str
+    role: str
+    bulk_density_m2: float
+    far_density_m2: float
+    gated_density_m2: float
+    edge_x_m: float | None
+    depletion_width_m: float | None
+    healing_length_m: float | None
+    cut_under_gate: bool
+    edge_shift_m_per_V: float | None = None
+
+    def to_dict(self) -> dict:
+        return {
+            "role": self.role,
+            "bulk_density_m2": self.bulk_density_m2,
+            "far_field_density_m2": self.far_density_m2,
+            "gated_density_m2": self.gated_density_m2,
+            "edge_position_m": self.edge_x_m,
+            "depletion_width_m": self.depletion_width_m,
+            "healing_length_m": self.healing_length_m,
+            "cut_under_gate": self.cut_under_gate,
+            "edge_shift_m_per_V": self.edge_shift_m_per_V,
+        }
+
+
+@dataclass(frozen=True, eq=False)
+class EdgeResult:
+    """Result of :func:`solve_edge` (SI units; ``to_dict`` gives the JSON form)."""
+
+    settings: EdgeSettings
+    wells: tuple[WellEdge, ...]
+    primary: str
+    lithographic_edge_m: float
+    solution: FieldSolution
+    operating_filling: float | None = None
+    bulk_filling: float | None = None
+    edge_channel_x_m: float | None = None
+    edge_field_V_per_m: float | None = None
+    edge_velocity_m_per_s: float | None = None
+    strips: tuple[dict, ...] = ()
+    edge_shift_m_per_V: float | None = None
+    area_change_m2_per_V: float | None = None
+    info: dict = field(default_factory=dict)
+
+    def well(self, name: str) -> WellEdge:
+        return next(w for w in self.wells if w.name == name)
+
+    def to_dict(self) -> dict:
+        s = self.settings
+        return {
+            "gate_voltage_V": s.gate_voltage_V,
+            "field_T": s.field_T,
+            "primary_well": self.primary,
+            "lithographic_edge_m": self.lithographic_edge_m,
+            "edge_fraction_of_bulk": EDGE_FRACTION,
+            "wells": {w.name: w.to_dict() for w in self.wells},
+            "operating_filling": self.operating_filling,
+            "bulk_filling": self.bulk_filling,
+            "edge_channel_position_m": self.edge_channel_x_m,
+            "edge_field_V_per_m": self.edge_field_V_per_m,
+            "edge_velocity_m_per_s": self.edge_velocity_m_per_s,
+            "strips": list(self.strips),
+            "edge_shift_m_per_V": self.edge_shift_m_per_V,
+            "voltage_step_V": s.voltage_step_V,
+            "edge_shift_difference": "central",
+            "perimeter_m": s.perimeter_m,
+            "area_change_m2_per_V": self.area_change_m2_per_V,
+            "solver": dict(self.info),
+        }
+
+    def profile_table(self) -> tuple[list[str], np.ndarray]:
+        """Columns and rows of the n(x) table (x in nm, densities in cm^-2, filling)."""
+        sol = self.solution
+        cols = ["x_nm"] + [f"{n}_density_cm^-2" for n in sol.sheet_names]
+        data = [sol.x_m * 1e9] + [d * 1e-4 for d in sol.density_m2]
+        if self.settings.field_T:
+            i = sol.sheet_names.index(self.primary)
+            cols.append(f"{self.primary}_filling")
+            data.append(local_filling(sol.density_m2[i], self.settings.field_T))
+        return cols, np.column_stack(data)
+
+
+@dataclass(frozen=True, eq=False)
+class PinchoffResult:
+    """Result of :func:`solve_pinchoff`."""
+
+    gap_m: float
+    voltages_V: np.ndarray  # (M,)
+    centre_density_m2: dict  # well -> (M,)
+    bulk_density_m2: dict  # well -> float
+    pinchoff_V: dict  # well -> float | None
+    tolerance_V: float = PINCHOFF_TOL_V
+    info: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return {
+            "gap_m": self.gap_m,
+            "pinchoff_V": dict(self.pinchoff_V),
+            "pinchoff_tolerance_V": self.tolerance_V,
+            "pinchoff_fraction_of_bulk": EDGE_FRACTION,
+            "bulk_density_m2": dict(self.bulk_density_m2),
+            "sweep": {
+                "gate_voltage_V": self.voltages_V.tolist(),
+                "centre_density_m2": {k: v.tolist() for k, v in self.centre_density_m2.items()},
+            },
+            "solver": dict(self.info),
+        }
+
+
+def _check_gate_voltage(section: CrossSection, v: float) -> None:
+    limit = section.gate_barrier_J / sc.e
+    if not (MIN_GATE_VOLTAGE_V <= v <= limit) or not math.isfinite(v):
+        raise InputError(
+            f"gate voltage {v:g} V is outside the allowed range "
+            f"[{MIN_GATE_VOLTAGE_V:g} V, {limit:.3g} V] (above it the Schottky gate conducts)",
+            source="option --gate-voltage",
+        )
+
+
+def _primary(section: CrossSection) -> int:
+    for i, s in enumerate(section.sheets):
+        if s.role == "primary":
+            return i
+    return 0
+
+
+def analyse_edge(sol: FieldSolution, section: CrossSection, edge_m: float = 0.0) -> list[WellEdge]:
+    """Per-well edge figures from a solved single-edge cross-section (bulk at large x).
+
+    Density levels are located on the sheet potential, which is piecewise linear on the mesh,
+    instead of on n(x), which has a kink at the edge (at T -> 0): the crossing of the potential
+    level at which the Thomas–Fermi density equals the threshold is the exact crossing of the
+    discrete solution and moves smoothly with the gate voltage.
+    """
+    out = []
+    kT = sc.k * section.temperature_K
+    for i, s in enumerate(section.sheets):
+        n = sol.density_m2[i]
+        phi = sol.sheet_potential(i)
+        energy = sol.sheet_energy_eV[i]
+        bulk = s.density_m2
+        gated = float(n[0])
+        # an empty well (bulk 0) counts as cut: there is nothing under the gate either
+        cut = gated < EDGE_FRACTION * bulk or bulk <= 0
+
+        def x_at(level_m2: float, energy=energy, s=s, phi=phi) -> float | None:
+            target = energy + _inverse_tf(level_m2, s.dos_J_m2, kT) / sc.e
+            return crossing_from_bulk(sol.x_m, phi, target)
+
+        edge = x_at(EDGE_FRACTION * bulk) if cut and bulk > 0 else None
+        heal = None
+        base = 0.0 if cut else gated
+        if bulk > base:
+            x10 = x_at(base + 0.1 * (bulk - base))
+            x90 = x_at(base + 0.9 * (bulk - base))
+            if x10 is not None and x90 is not None:
+                heal = x90 - x10
+        out.append(
+            WellEdge(
+                name=s.name,
+                role=s.role,
+                bulk_density_m2=bulk,
+                far_density_m2=float(n[-1]),
+                gated_density_m2=gated,
+                edge_x_m=edge,
+                depletion_width_m=None if edge is None else edge - edge_m,
+                healing_length_m=heal,
+                cut_under_gate=bool(cut),
+            )
+        )
+    return out
+
+
+def _check_electrons(sol: FieldSolution, section: CrossSection, v: float) -> None:
+    if all(
+        np.max(sol.density_m2[i]) < EDGE_FRACTION * s.density_m2 or s.density_m2 <= 0
+        for i, s in enumerate(section.sheets)
+    ):
+        raise InputError(
+            f"gate voltage {v:g} V leaves no electrons anywhere in the cross-section "
+            f"(|x| <= {sol.x_m[-1] * 1e6:.2f} um); use a less negative voltage",
+            source="option --gate-voltage",
+        )
+
+
+def solve_edge(
+    section: CrossSection,
+    settings: EdgeSettings,
+    mesh_options: MeshOptions | None = None,
+    options: SolverOptions | None = None,
+    *,
+    comm=None,
+    solver: CrossSectionSolver | None = None,
+) -> EdgeResult:
+    """Solve a single depletion-gate edge (gate over x < 0) and read off the edge figures.
+
+    Pass 1 solves on a mesh twice as coarse and locates the electronic edges; pass 2 re-meshes
+    with the edge size at each of them and solves again (started from pass 1). The edge shift per
+    volt is the central difference of two more solves at V_g -+ ``voltage_step_V``/2.
+
+    Raises
+    ------
+    InputError
+        Gate voltage out of range or leaving no electrons anywhere.
+    ConvergenceError
+        If Newton fails.
+    """
+    v = settings.gate_voltage_V
+    _check_gate_voltage(section, v)
+    if all(s.density_m2 <= 0 for s in section.sheets):
+        raise InputError("the stack has no electrons at zero gate bias; nothing to deplete")
+    mesh_options = mesh_options or MeshOptions()
+    layout = GateLayout.single_edge()
+    # pass 1: locate the electronic edges on a mesh twice as coarse
+    base = CrossSectionSolver(section, layout, mesh_options.scaled(0.5), options, comm=comm)
+    sol0 = base.solve(v)
+    _check_electrons(sol0, section, v)
+    solver = _refined_solver(base, sol0, section, settings, mesh_options, options, comm)
+    # pass 2: the mesh is fine (h_edge) at every electronic edge
+    sol = solver.solve(v, initial=sol0)
+    wells = analyse_edge(sol, section)
+    half = 0.5 * settings.voltage_step_V
+    lo = analyse_edge(solver.solve(v - half), section)
+    hi = analyse_edge(solver.solve(v + half), section)
+    shifted = []
+    for w, wl, wh in zip(wells, lo, hi, strict=True):
+        shift = None
+        if wl.edge_x_m is not None and wh.edge_x_m is not None:
+            shift = (wh.edge_x_m - wl.edge_x_m) / settings.voltage_step_V
+        shifted.append(replace(w, edge_shift_m_per_V=shift))
+    ip = _primary(section)
+    prim = section.sheets[ip]
+    result = dict(
+        settings=settings,
+        wells=tuple(shifted),
+        primary=prim.name,
+        lithographic_edge_m=0.0,
+        solution=sol,
+        edge_shift_m_per_V=shifted[ip].edge_shift_m_per_V,
+        info={
+            "dofs": solver.num_dofs,
+            "newton_iterations": sol.iterations,
+            "linear_solver": solver.linear_solver,
+            "mesh_s": solver.timings.get("mesh"),
+            "half_width_m": float(sol.x_m[-1]),
+            "neutrality_correction_C_m2": float(solver.calibration["neutrality_correction_C_m2"]),
+        },
+    )
+    if settings.perimeter_m is not None and result["edge_shift_m_per_V"] is not None:
+        # the electrons retreat by dx per volt along the whole perimeter
+        result["area_change_m2_per_V"] = -settings.perimeter_m * result["edge_shift_m_per_V"]
+    if settings.field_T:
+        result.update(_field_figures(sol, section, ip, settings))
+    return EdgeResult(**result)
+
+
+def _refined_solver(base, sol0, section, settings, mesh_options, options, comm):
+    """A solver whose mesh is fine at the electronic edges (and the operating filling) of sol0.
+
+    The P1 potential makes the located edge move in a saw-tooth as it crosses mesh nodes; a fine
+    mesh where the edges are keeps that error well below a nanometre.
+    """
+    marks = [w.edge_x_m for w in analyse_edge(sol0, section) if w.edge_x_m is not None]
+    if settings.field_T:
+        ip = _primary(section)
+        nu = local_filling(sol0.density_m2[ip], settings.field_T)
+        for k in range(1, int(np.ceil(nu[-1]))):
+            xk = crossing_from_bulk(sol0.x_m, nu, float(k))
+            if xk is not None:
+                marks.append(xk)
+        if settings.filling is not None:
+            xk = crossing_from_bulk(sol0.x_m, nu, settings.filling)
+            if xk is not None:
+                marks.append(xk)
+    half_width = float(sol0.x_m[-1])
+    marks = sorted({round(m, 10) for m in marks if abs(m) < 0.9 * half_width and abs(m) > 1e-10})
+    opts = replace(mesh_options, x_attractors_m=tuple(mesh_options.x_attractors_m) + tuple(marks))
+    return CrossSectionSolver(section, base.layout, opts, options, comm=comm)
+
+
+def _field_figures(sol: FieldSolution, section, ip: int, settings: EdgeSettings) -> dict:
+    B = settings.field_T
+    prim = section.sheets[ip]
+    n = sol.density_m2[ip]
+    nu = local_filling(n, B)
+    nu_bulk = float(local_filling(prim.density_m2, B))
+    nu_op = settings.filling if settings.filling is not None else 1.0
+    out: dict = {"operating_filling": nu_op, "bulk_filling": nu_bulk}
+    x = sol.x_m
+    if nu_op < nu_bulk:
+        x_nu = crossing_from_bulk(x, nu, nu_op)
+        if x_nu is not None:
+            e_x = interp_at(x, sol.in_plane_field(ip), x_nu)
+            out["edge_channel_x_m"] = x_nu
+            out["edge_field_V_per_m"] = abs(e_x)
+            out["edge_velocity_m_per_s"] = abs(e_x) / B
+    # incompressible strips (CSG) on the primary well
+    mstar = np.pi * sc.hbar**2 * prim.dos_J_m2
+    hw_c = sc.hbar * sc.e * B / mstar
+    eps_r = _permittivity_at(section, prim.z_m)
+    dndx = np.gradient(n, x)
+    levels: list[tuple[float, float, str]] = []
+    for k in range(1, int(np.ceil(nu_bulk))):
+        if k < nu_bulk:
+            if k % 2 == 0:
+                levels.append((float(k), hw_c, "Landau gap hbar*omega_c"))
+            else:
+                gap = G_FACTOR_GAAS * sc.physical_constants["Bohr magneton"][0] * B
+                levels.append((float(k), gap, "bare Zeeman gap |g*| mu_B B"))
+    if settings.gap_energy_J is not None and settings.filling is not None:
+        if abs(settings.filling - round(settings.filling)) > 1e-9 and settings.filling < nu_bulk:
+            levels.append((settings.filling, settings.gap_energy_J, "user gap"))
+    strips = []
+    for nu_k, gap, why in sorted(levels):
+        xc = crossing_from_bulk(x, nu, nu_k)
+        if xc is None:
+            continue
+        g = interp_at(x, dndx, xc)
+        if not g > 0:
+            continue
+        a = strip_width(eps_r, gap, g)
+        e_strip = gap / (sc.e * a)
+        strips.append(
+            {
+                "filling": nu_k,
+                "gap_J": gap,
+                "gap_kind": why,
+                "centre_m": xc,
+                "width_m": a,
+                "density_gradient_m3": g,
+                "field_V_per_m": e_strip,
+                "velocity_m_per_s": e_strip / B,
+            }
+        )
+    out["strips"] = tuple(strips)
+    return out
+
+
+def _permittivity_at(section: CrossSection, z: float) -> float:
+    lz = np.asarray(section.layer_z_m)
+    i = int(np.clip(np.searchsorted(lz, z) - 1, 0, lz.size - 2))
+    return float(np.asarray(section.layer_permittivity)[i])
+
+
+def solve_pinchoff(
+    section: CrossSection,
+    gap_m: float,
+    *,
+    v_start: float = 0.0,
+    v_stop: float = -5.0,
+    v_step: float = -0.1,
+    tolerance_V: float = PINCHOFF_TOL_V,
+    mesh_options: MeshOptions | None = None,
+    options: SolverOptions | None = None,
+    comm=None,
+) -> PinchoffResult:
+    """Density at the constriction centre vs gate voltage, and each well's pinch-off voltage.
+
+    A well is pinched off when its density at x = 0 falls below ``EDGE_FRACTION`` of its bulk
+    density. The sweep from ``v_start`` to ``v_stop`` brackets each pinch-off; bisection then
+    narrows it to ``tolerance_V``. A well already below the threshold at ``v_start`` or never
+    pinched within the sweep gets None.
+    """
+    if not gap_m > 0:
+        raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
+    for v in (v_start, v_stop):
+        _check_gate_voltage(section, v)
+    mesh_options = mesh_options or MeshOptions()
+    solver = CrossSectionSolver(section, GateLayout.split(gap_m), mesh_options, options, comm=comm)
+    names = [s.name for s in section.sheets]
+    thr = np.array([EDGE_FRACTION * s.density_m2 for s in section.sheets])
+
+    def centre(v: float) -> np.ndarray:
+        sol = solver.solve(v)
+        return np.array([interp_at(sol.x_m, d, 0.0) for d in sol.density_m2])
+
+    n_steps = int(np.floor((v_stop - v_start) / v_step + 1e-9)) + 1
+    volts = v_start + v_step * np.arange(n_steps)
+    dens = []
+    for v in volts:
+        dens.append(centre(float(v)))
+        if np.all(dens[-1] < thr):
+            break
+    volts = volts[: len(dens)]
+    dens_arr = np.array(dens)  # (M, S)
+    pinch: dict[str, float | None] = {}
+    for i, name in enumerate(names):
+        open_ = dens_arr[:, i] >= thr[i]
+        if not open_[0] or open_.all():
+            pinch[name] = None
+            continue
+        j = int(np.argmin(open_))  # first closed point
+        hi, lo = float(volts[j - 1]), float(volts[j])  # hi open, lo closed
+        while hi - lo > tolerance_V:
+            mid = 0.5 * (hi + lo)
+            if centre(mid)[i] >= thr[i]:
+                hi = mid
+            else:
+                lo = mid
+        pinch[name] = 0.5 * (hi + lo)
+    return PinchoffResult(
+        gap_m=gap_m,
+        voltages_V=volts,
+        centre_density_m2={n: dens_arr[:, i] for i, n in enumerate(names)},
+        bulk_density_m2={s.name: s.density_m2 for s in section.sheets},
+        pinchoff_V=pinch,
+        tolerance_V=tolerance_V,
+        info={"dofs": solver.num_dofs, "linear_solver": solver.linear_solver},
+    )
+
+
+def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSection:
+    """Run the 1D stage on a stack and build the cross-section (donors frozen at their 1D state).
+
+    Raises
+    ------
+    InputError
+        If the 1D stage is not available or the stack is invalid.
+    """
+    from .model import cross_section_from_sheet_model
+
+    try:
+        from qhdesign.sp1d import solve_bands
+        from qhdesign.sp1d.sheets import sheet_model
+    except ImportError as exc:  # the 1D stage is a separate issue
+        raise InputError(f"the 1D stage is not available ({exc})") from None
+    result = solve_bands(stack)
+    return cross_section_from_sheet_model(sheet_model(stack, result), gate_barrier_J=gate_barrier_J)

@@ -1,0 +1,353 @@
+"""The electrostatic description of a cross-section: layers, sheets, frozen charge, boundaries.
+
+No DOLFINx here: this module turns the 1D stage's :class:`~qhdesign.sp1d.sheets.SheetModel` into a
+:class:`CrossSection` and calibrates the sheet energies E_w by an exact 1D solve on the same
+z-levels the 2D mesh uses.
+
+Model (see docs/models.md, "2D Thomas–Fermi")
+----------------------------------------------
+Electron potential energy U = E_c - e*phi, the Fermi level of the grounded 2DEG is the energy
+zero, depth z is positive downward. Each well w is a charged sheet at its charge centroid z_w with
+the Thomas–Fermi density
+
+    n_w(phi) = D_w k_B T ln(1 + exp((e phi(z_w) - E_w) / k_B T)),
+
+and every fixed charge (frozen donors, the frozen surface charge of an exposed surface) is frozen
+at its 1D value. Under a gate the surface potential is phi = V_g - Phi_B/e; an exposed surface
+either carries its frozen surface charge (default) or is pinned at phi = V_s - Phi_s/e.
+
+Calibration of E_w: on the z-levels of the mesh, the frozen volume charge is lumped onto the
+levels with hat-function weights (this keeps the total charge and its first moment, so the
+potential outside the doped layers is exact), the sheets carry their 1D densities, and the
+piecewise-linear 1D potential of these line charges is computed exactly. E_w is then the energy
+that puts the sheet's Thomas–Fermi density at its 1D value given that potential. A P1 finite-
+element solution on the same levels is exact for line charges, so far from any gate the 2D
+solution reproduces the 1D densities to solver precision.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import constants as sc
+
+from qhdesign.errors import InputError
+
+__all__ = [
+    "CrossSection",
+    "SheetSpec",
+    "cross_section_from_sheet_model",
+    "lump_volume_charge",
+    "solve_column",
+    "thomas_fermi_density",
+]
+
+
+@dataclass(frozen=True)
+class SheetSpec:
+    """One well as a charged Thomas–Fermi sheet.
+
+    Attributes
+    ----------
+    name, role
+        Well name and role (``"primary"`` or ``"screening"``).
+    z_m
+        Sheet depth (m, positive down).
+    dos_J_m2
+        2D density of states (J^-1 m^-2).
+    density_m2
+        Far-field (1D) density the calibration reproduces (m^-2).
+    subband_energy_J
+        Lowest subband energy relative to the Fermi level in the 1D solve (J); used to place an
+        empty well (density 0), whose energy a density cannot fix.
+    """
+
+    name: str
+    role: str
+    z_m: float
+    dos_J_m2: float
+    density_m2: float
+    subband_energy_J: float = float("nan")
+
+
+@dataclass(frozen=True, eq=False)
+class CrossSection:
+    """Everything along z that the 2D solve needs, in SI units.
+
+    Attributes
+    ----------
+    layer_z_m
+        Layer boundaries, shape (L+1,), from 0 (semiconductor surface) to the bottom of the model.
+    layer_permittivity
+        Relative permittivities, shape (L,).
+    sheets
+        Wells, top to bottom.
+    temperature_K
+        Solve temperature (K).
+    charge_z_m, charge_C_m3
+        Frozen volume charge: cell centres, shape (N,), and density (C/m^3) on the 1D grid.
+    surface_charge_C_m2
+        Frozen charge of an exposed surface (C/m^2).
+    surface_potential_V
+        phi at an exposed surface in the far field: V_s - Phi_s/e (V). Used as the Dirichlet
+        value of a pinned surface and as the potential reference of a frozen one.
+    gate_barrier_J
+        Schottky barrier Phi_B of the gate metal (J): phi = V_g - Phi_B/e under a gate.
+    bottom
+        ``"zero_field"`` or ``"gate"`` (Dirichlet at ``bottom_potential_V``).
+    extra_levels_m
+        Depths that must be mesh lines (probe lines for tests), m.
+    """
+
+    layer_z_m: np.ndarray
+    layer_permittivity: np.ndarray
+    sheets: tuple[SheetSpec, ...]
+    temperature_K: float
+    charge_z_m: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    charge_C_m3: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    surface_charge_C_m2: float = 0.0
+    surface_potential_V: float = 0.0
+    gate_barrier_J: float = 0.0
+    bottom: str = "zero_field"
+    bottom_potential_V: float = 0.0
+    extra_levels_m: tuple[float, ...] = ()
+
+    def __post_init__(self):
+        z = np.asarray(self.layer_z_m, dtype=float)
+        eps = np.asarray(self.layer_permittivity, dtype=float)
+        if z.ndim != 1 or z.size < 2 or np.any(np.diff(z) <= 0):
+            raise InputError("layer boundaries must increase", key="layer_z_m")
+        if eps.shape != (z.size - 1,) or np.any(eps <= 0):
+            raise InputError("need one positive permittivity per layer", key="layer_permittivity")
+        if self.bottom not in ("zero_field", "gate"):
+            raise InputError("bottom must be 'zero_field' or 'gate'", key="bottom")
+        if not self.temperature_K > 0:
+            raise InputError("temperature must be > 0 K", key="temperature_K")
+        for s in self.sheets:
+            if not z[0] < s.z_m < z[-1]:
+                raise InputError(f"sheet '{s.name}' at {s.z_m} m lies outside the layers")
+            if s.dos_J_m2 <= 0 or s.density_m2 < 0:
+                raise InputError(f"sheet '{s.name}' needs DOS > 0 and density >= 0")
+
+
+def cross_section_from_sheet_model(model, *, gate_barrier_J: float | None = None) -> CrossSection:
+    """Build a :class:`CrossSection` from the 1D stage's ``SheetModel``.
+
+    Parameters
+    ----------
+    model
+        A :class:`qhdesign.sp1d.sheets.SheetModel` (read by attribute).
+    gate_barrier_J
+        Schottky barrier of the depletion-gate metal (J). Default: the stack's surface barrier,
+        so that at zero gate bias a gate changes nothing on a pinned surface.
+    """
+    sheets = tuple(
+        SheetSpec(
+            s.name,
+            s.role,
+            float(s.z_m),
+            float(s.dos_J_m2),
+            float(s.density_m2),
+            float(getattr(s, "subband_energy_J", float("nan"))),
+        )
+        for s in model.sheets
+    )
+    barrier = float(model.surface_barrier_J)
+    return CrossSection(
+        layer_z_m=np.asarray(model.layer_z_m, dtype=float),
+        layer_permittivity=np.asarray(model.layer_permittivity, dtype=float),
+        sheets=sheets,
+        temperature_K=float(model.temperature_K),
+        charge_z_m=np.asarray(model.fixed_charge_z_m, dtype=float),
+        charge_C_m3=np.asarray(model.fixed_charge_C_m3, dtype=float),
+        surface_charge_C_m2=float(model.surface_charge_C_m2),
+        surface_potential_V=float(model.surface_bias_V) - barrier / sc.e,
+        gate_barrier_J=barrier if gate_barrier_J is None else float(gate_barrier_J),
+    )
+
+
+def thomas_fermi_density(
+    energy_J: np.ndarray | float, dos_J_m2: float, kT_J: float
+) -> np.ndarray | float:
+    """n = D k_B T ln(1 + exp(energy / k_B T)) with energy = e phi - E_w (m^-2); overflow safe."""
+    return dos_J_m2 * kT_J * np.logaddexp(0.0, np.asarray(energy_J) / kT_J)
+
+
+def _inverse_tf(n_m2: float, dos_J_m2: float, kT_J: float) -> float:
+    """Energy e phi - E_w (J) at which the Thomas–Fermi sheet holds ``n_m2``."""
+    y = n_m2 / (dos_J_m2 * kT_J)
+    if y > 30.0:
+        return kT_J * (y + np.log1p(-np.exp(-y)))
+    if y <= 0.0:
+        raise InputError("an empty well cannot be calibrated (density 0)")
+    return kT_J * np.log(np.expm1(y))
+
+
+def lump_volume_charge(
+    levels_m: np.ndarray,
+    cell_centres_m: np.ndarray,
+    rho_C_m3: np.ndarray,
+    z_min: float,
+    z_max: float,
+) -> np.ndarray:
+    """Lump a cell-wise constant volume charge onto z-levels with hat-function weights.
+
+    Each 1D cell spans the midpoints between neighbouring centres (ends at ``z_min``/``z_max``).
+    The charge of every piece between two levels is split linearly between them, which keeps the
+    total charge and its first moment exactly.
+
+    Returns
+    -------
+    numpy.ndarray
+        Line charge per level (C/m^2), shape (K,).
+    """
+    levels = np.asarray(levels_m, dtype=float)
+    q = np.zeros(levels.size)
+    zc = np.asarray(cell_centres_m, dtype=float)
+    rho = np.asarray(rho_C_m3, dtype=float)
+    if zc.size == 0:
+        return q
+    edges = np.concatenate(([z_min], 0.5 * (zc[1:] + zc[:-1]), [z_max]))
+    bps = np.unique(np.concatenate((edges, levels)))
+    bps = bps[(bps >= z_min) & (bps <= z_max)]
+    a, b = bps[:-1], bps[1:]
+    mid = 0.5 * (a + b)
+    cell = np.clip(np.searchsorted(edges, mid) - 1, 0, zc.size - 1)
+    charge = rho[cell] * (b - a)
+    k = np.clip(np.searchsorted(levels, mid) - 1, 0, levels.size - 2)
+    w_hi = (mid - levels[k]) / (levels[k + 1] - levels[k])
+    np.add.at(q, k, charge * (1.0 - w_hi))
+    np.add.at(q, k + 1, charge * w_hi)
+    return q
+
+
+def solve_column(
+    levels_m: np.ndarray,
+    eps_r: np.ndarray,
+    line_charge_C_m2: np.ndarray,
+    *,
+    top: str,
+    top_potential_V: float,
+    bottom: str,
+    bottom_potential_V: float = 0.0,
+) -> np.ndarray:
+    """Exact 1D potential of line charges on levels with piecewise-constant permittivity.
+
+    Parameters
+    ----------
+    levels_m
+        Levels, shape (K,), from the surface down.
+    eps_r
+        Relative permittivity of each interval, shape (K-1,).
+    line_charge_C_m2
+        Charge on each level (C/m^2), shape (K,); the surface charge sits on level 0.
+    top
+        ``"dirichlet"`` (phi(0) = top_potential_V) or ``"charge"`` (zero field above the surface,
+        the surface charge is ``line_charge[0]``, and phi(0) = top_potential_V fixes the constant
+        when the bottom is also a zero-field boundary).
+    bottom
+        ``"zero_field"`` or ``"gate"`` (phi = bottom_potential_V).
+
+    Returns
+    -------
+    numpy.ndarray
+        phi on the levels (V), shape (K,).
+    """
+    z = np.asarray(levels_m, dtype=float)
+    q = np.asarray(line_charge_C_m2, dtype=float)
+    dz_over_eps = np.diff(z) / (sc.epsilon_0 * np.asarray(eps_r, dtype=float))
+    if top == "charge":
+        # displacement D = eps E_z (z down) on each interval: charge above it
+        d = np.cumsum(q)[:-1]
+        phi = top_potential_V - np.concatenate(([0.0], np.cumsum(d * dz_over_eps)))
+        if bottom == "gate":
+            phi += bottom_potential_V - phi[-1]
+        return phi
+    if bottom == "zero_field":
+        d = -np.cumsum(q[::-1])[::-1][1:]  # minus the charge below each interval
+    else:
+        d0 = np.cumsum(q[1:])[:-1]  # charge between level 1 and the interval's top
+        d0 = np.concatenate(([0.0], d0))
+        drop = top_potential_V - bottom_potential_V
+        c = (drop - np.sum(d0 * dz_over_eps)) / np.sum(dz_over_eps)
+        d = c + d0
+    return top_potential_V - np.concatenate(([0.0], np.cumsum(d * dz_over_eps)))
+
+
+def calibrate(
+    section: CrossSection,
+    levels_m: np.ndarray,
+    eps_intervals: np.ndarray,
+    *,
+    exposed: str,
+) -> dict:
+    """Sheet energies E_w and the far-field column on the given levels.
+
+    Parameters
+    ----------
+    section
+        The cross-section.
+    levels_m, eps_intervals
+        z-levels of the mesh (shape (K,)) and the permittivity of each interval (K-1,).
+    exposed
+        ``"frozen"`` or ``"pinned"``: how the exposed surface is treated.
+
+    Returns
+    -------
+    dict
+        ``energy_eV`` (E_w/e per sheet), ``line_charge_C_m2`` (frozen charge per level, without
+        sheets and without the surface charge), ``surface_charge_C_m2`` (after the neutrality
+        correction), ``neutrality_correction_C_m2``, ``phi_V`` (far-field potential per level),
+        ``sheet_level`` (level index of each sheet).
+    """
+    z = np.asarray(levels_m, dtype=float)
+    kT = sc.k * section.temperature_K
+    q_fixed = lump_volume_charge(
+        z, section.charge_z_m, section.charge_C_m3, float(z[0]), float(z[-1])
+    )
+    idx = []
+    for s in section.sheets:
+        k = int(np.argmin(np.abs(z - s.z_m)))
+        if abs(z[k] - s.z_m) > 1e-13:
+            raise RuntimeError(f"sheet {s.name} is not on a mesh level")  # a bug, not input
+        idx.append(k)
+    q = q_fixed.copy()
+    for s, k in zip(section.sheets, idx, strict=True):
+        q[k] -= sc.e * s.density_m2
+    sigma = section.surface_charge_C_m2 if exposed == "frozen" else 0.0
+    correction = 0.0
+    if exposed == "frozen" and section.bottom == "zero_field":
+        # Both boundaries are zero-field: the column must be neutral. Whatever the sheet model
+        # leaves out (e.g. classical electrons outside the wells) is put on the surface.
+        correction = -(sigma + np.sum(q))
+        sigma += correction
+    q[0] += sigma
+    phi = solve_column(
+        z,
+        eps_intervals,
+        q,
+        top="charge" if exposed == "frozen" else "dirichlet",
+        top_potential_V=section.surface_potential_V,
+        bottom=section.bottom,
+        bottom_potential_V=section.bottom_potential_V,
+    )
+    energy = []
+    for s, k in zip(section.sheets, idx, strict=True):
+        if s.density_m2 > 1e-6 * s.dos_J_m2 * kT:
+            mu = _inverse_tf(s.density_m2, s.dos_J_m2, kT)
+        elif np.isfinite(s.subband_energy_J):
+            mu = -s.subband_energy_J  # empty well: its subband sits E_sub above the Fermi level
+        else:
+            raise InputError(
+                f"well '{s.name}' is empty in the 1D solve and has no subband energy to place it"
+            )
+        energy.append(phi[k] - mu / sc.e)
+    return {
+        "energy_eV": np.array(energy),
+        "line_charge_C_m2": q_fixed,
+        "surface_charge_C_m2": sigma,
+        "neutrality_correction_C_m2": correction,
+        "phi_V": phi,
+        "sheet_level": np.array(idx, dtype=int),
+    }

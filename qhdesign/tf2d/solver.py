@@ -1,0 +1,483 @@
+"""Nonlinear Thomas–Fermi–Poisson solve of a cross-section with DOLFINx 0.11 and PETSc SNES.
+
+Weak form (mesh lengths in nm, potential in V, charges in units of e):
+
+    F(phi; v) = int c eps_r grad(phi).grad(v) dx
+              + sum_w int n_w(phi) v dS_w          (electron sheets, Thomas–Fermi)
+              - int q_lines v dS_levels - int q_lines v ds   (frozen donors, lumped on levels)
+              - int sigma_s v ds_exposed           (frozen surface charge, if not pinned)
+
+with c = eps_0/e (e V^-1 nm^-1) and n_w(phi) = D_w kT softplus((phi - E_w)/kT) in nm^-2. The
+sheet term uses vertex quadrature: the sheet density is nodal (what the line profiles report) and
+its Jacobian is a positive diagonal, so the Jacobian is symmetric positive definite (CG + GAMG
+works for large meshes; LU by MUMPS for small ones). Dirichlet: gate metal (V_g - Phi_B/e),
+a pinned exposed surface, a back gate; test hooks allow an exact potential on the outer boundary
+and metal on a sheet line (coplanar gate).
+
+Every stepped parameter (kT, E_w, D_w, sigma_s) is a ``fem.Constant`` and the gate potential is a
+Dirichlet function, so a gate sweep or a temperature continuation never recompiles a form.
+
+References
+----------
+PETSc SNES Newton line search with backtracking; DOLFINx ``fem.petsc.NonlinearProblem``.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import constants as sc
+
+from qhdesign.errors import ConvergenceError, InputError
+
+from .geometry import NM, TAGS, GateLayout, MeshOptions, StructuredGrid, build_grid, build_mesh
+from .model import CrossSection, calibrate, thomas_fermi_density
+
+__all__ = ["CrossSectionSolver", "FieldSolution", "SolverOptions"]
+
+#: eps_0/e in e V^-1 nm^-1
+C_EPS = sc.epsilon_0 / sc.e * NM
+#: J^-1 m^-2 -> eV^-1 nm^-2
+DOS_SCALE = sc.e * NM**2
+#: m^-2 -> nm^-2 ; C/m^2 -> e/nm^2
+AREA_SCALE = NM**2
+
+
+@dataclass(frozen=True)
+class SolverOptions:
+    """Newton and linear-solver settings.
+
+    Attributes
+    ----------
+    exposed
+        ``"frozen"`` (frozen surface charge on the exposed surface) or ``"pinned"``.
+    linear_solver
+        ``"auto"`` (MUMPS LU below ``direct_max_dofs``, CG + GAMG above), ``"lu"``, ``"gamg"``.
+    kT_start_eV, kT_factor
+        Temperature continuation of a cold start: kT from max(kT_start, kT) down by ``kT_factor``.
+    rtol, atol, max_it
+        SNES relative / absolute residual tolerances (residual in e/nm) and iteration cap.
+    floor
+        Residual (e/nm) below which a stalled line search still counts as converged (round-off).
+    """
+
+    exposed: str = "frozen"
+    linear_solver: str = "auto"
+    direct_max_dofs: int = 120_000
+    kT_start_eV: float = 2.0e-3
+    kT_factor: float = 10.0
+    rtol: float = 1e-10
+    atol: float = 1e-12
+    floor: float = 1e-10
+    max_it: int = 60
+    sheet_quadrature_degree: int = 8
+
+
+@dataclass(frozen=True, eq=False)
+class FieldSolution:
+    """A solved cross-section, gathered on every rank (identical serial and parallel).
+
+    Attributes
+    ----------
+    x_m
+        Grid x-nodes (m), shape (nx,).
+    z_m
+        Grid z-levels (m), shape (nz,).
+    phi_V
+        Potential on the grid (V), shape (nz, nx); row k is depth z_m[k].
+    sheet_names
+        Names of the sheets.
+    density_m2
+        Sheet densities (m^-2), shape (S, nx).
+    bulk_density_m2
+        1D (far-field target) densities (m^-2), shape (S,).
+    gate_potential_V
+        Dirichlet potential of the gates (V).
+    iterations, residuals
+        Newton iterations of the last solve and its residual history (e/nm).
+    """
+
+    x_m: np.ndarray
+    z_m: np.ndarray
+    phi_V: np.ndarray
+    sheet_names: tuple[str, ...]
+    sheet_level: np.ndarray
+    density_m2: np.ndarray
+    bulk_density_m2: np.ndarray
+    sheet_energy_eV: np.ndarray
+    gate_voltage_V: float
+    iterations: int
+    residuals: tuple[float, ...]
+    timings_s: dict = field(default_factory=dict)
+
+    def sheet_potential(self, i: int) -> np.ndarray:
+        """phi along sheet i (V), shape (nx,)."""
+        return self.phi_V[self.sheet_level[i]]
+
+    def in_plane_field(self, i: int) -> np.ndarray:
+        """E_x = -dphi/dx along sheet i (V/m), shape (nx,)."""
+        return -np.gradient(self.sheet_potential(i), self.x_m)
+
+
+class CrossSectionSolver:
+    """Build the mesh and forms once; solve for any gate voltage with warm starts.
+
+    Parameters
+    ----------
+    section
+        Layers, sheets and frozen charges.
+    layout
+        Gate layout.
+    mesh_options, options
+        Resolution and solver settings.
+    comm
+        MPI communicator (default ``MPI.COMM_WORLD``).
+    outer_dirichlet
+        Validation hook: ``f(x_m, z_m) -> phi`` imposed on the sides, the bottom and the exposed
+        surface (for comparison with exact solutions of unbounded problems).
+    sheet_metal
+        Validation hook: ``[(sheet index, x_max_m)]``: the sheet line for x <= x_max is metal at
+        the gate potential (a coplanar gate).
+    """
+
+    def __init__(
+        self,
+        section: CrossSection,
+        layout: GateLayout,
+        mesh_options: MeshOptions | None = None,
+        options: SolverOptions | None = None,
+        *,
+        comm=None,
+        outer_dirichlet: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
+        sheet_metal: list[tuple[int, float]] | None = None,
+    ):
+        import dolfinx  # noqa: F401
+        from mpi4py import MPI
+
+        self.section = section
+        self.layout = layout
+        self.mesh_options = mesh_options or MeshOptions()
+        self.options = options or SolverOptions()
+        if self.options.exposed not in ("frozen", "pinned"):
+            raise InputError("exposed surface must be 'frozen' or 'pinned'", key="exposed")
+        self.comm = comm if comm is not None else MPI.COMM_WORLD
+        self._outer = outer_dirichlet
+        self._sheet_metal = list(sheet_metal or [])
+        self.timings: dict[str, float] = {}
+
+        t0 = time.perf_counter()
+        self.grid: StructuredGrid = build_grid(section, layout, self.mesh_options)
+        eps_int = np.asarray(section.layer_permittivity)[self.grid.layer_of_interval]
+        self.calibration = calibrate(section, self.grid.z_m, eps_int, exposed=self.options.exposed)
+        data = build_mesh(self.grid, section, self.comm)
+        self.timings["mesh"] = time.perf_counter() - t0
+        self.mesh, self.cell_tags, self.facet_tags = data.mesh, data.cell_tags, data.facet_tags
+
+        t0 = time.perf_counter()
+        self._setup_spaces()
+        self._setup_bcs()
+        self._setup_forms()
+        self.timings["forms"] = time.perf_counter() - t0
+        self._solved = False
+        self.gate_voltage_V = 0.0
+
+    # ------------------------------------------------------------------ set-up
+    def _setup_spaces(self) -> None:
+        from dolfinx import fem
+
+        msh = self.mesh
+        self.V = fem.functionspace(msh, ("Lagrange", 1))
+        self.num_dofs = self.V.dofmap.index_map.size_global
+        coords = self.V.tabulate_dof_coordinates()
+        self._dof_x_m = coords[:, 0] * NM
+        self._dof_z_m = -coords[:, 1] * NM
+        # grid indices of every local dof (the mesh vertices are the grid nodes)
+        self._dof_ix = _nearest(self.grid.x_m, self._dof_x_m)
+        self._dof_iz = _nearest(self.grid.z_m, self._dof_z_m)
+
+        Q = fem.functionspace(msh, ("DG", 0))
+        self.eps = fem.Function(Q)
+        layer = self.cell_tags.values - 1
+        eps_layers = np.asarray(self.section.layer_permittivity, dtype=float)
+        self.eps.x.array[self.cell_tags.indices] = eps_layers[layer]
+        self.eps.x.scatter_forward()
+
+        self.q_lines = fem.Function(self.V)
+        q = self.calibration["line_charge_C_m2"] / sc.e * AREA_SCALE  # e/nm^2 per level
+        self.q_lines.x.array[:] = q[self._dof_iz]
+        self.phi = fem.Function(self.V, name="phi_V")
+        self._g = fem.Function(self.V)
+
+    def _setup_bcs(self) -> None:
+        from dolfinx import fem
+
+        ft = self.facet_tags
+        V = self.V
+
+        def dofs_of(tag: int) -> np.ndarray:
+            return fem.locate_dofs_topological(V, 1, ft.find(tag))
+
+        groups: list[tuple[np.ndarray, str]] = [(dofs_of(TAGS["gate"]), "gate")]
+        if self.options.exposed == "pinned" and self._outer is None:
+            groups.append((dofs_of(TAGS["exposed"]), "surface"))
+        if self.section.bottom == "gate" and self._outer is None:
+            groups.append((dofs_of(TAGS["bottom"]), "bottom"))
+        if self._outer is not None:
+            outer = np.unique(
+                np.concatenate([dofs_of(TAGS[t]) for t in ("sides", "bottom", "exposed")])
+            )
+            groups.append((outer, "outer"))
+        for i, x_max in self._sheet_metal:
+            d = dofs_of(TAGS["sheet0"] + i)
+            groups.append((d[self._dof_x_m[d] <= x_max + 1e-15], "gate"))
+        self._bc_groups = groups
+        all_dofs = np.unique(np.concatenate([g[0] for g in groups])).astype(np.int32)
+        self._bc_dofs = all_dofs
+        self.bc = fem.dirichletbc(self._g, all_dofs)
+
+    def _gate_potential(self, gate_voltage_V: float) -> float:
+        return gate_voltage_V - self.section.gate_barrier_J / sc.e
+
+    def _set_bc_values(self, gate_voltage_V: float) -> None:
+        """Dirichlet values; a dof shared by groups of different value gets their mean."""
+        total = np.zeros(self._g.x.array.size)
+        count = np.zeros(self._g.x.array.size)
+        for dofs, kind in self._bc_groups:
+            if kind == "gate":
+                val = np.full(dofs.size, self._gate_potential(gate_voltage_V))
+            elif kind == "surface":
+                val = np.full(dofs.size, self.section.surface_potential_V)
+            elif kind == "bottom":
+                val = np.full(dofs.size, self.section.bottom_potential_V)
+            else:
+                val = np.asarray(self._outer(self._dof_x_m[dofs], self._dof_z_m[dofs]), float)
+            np.add.at(total, dofs, val)
+            np.add.at(count, dofs, 1.0)
+        mask = count > 0
+        self._g.x.array[mask] = total[mask] / count[mask]
+
+    def _setup_forms(self) -> None:
+        import ufl
+        from dolfinx import default_scalar_type, fem
+        from dolfinx.fem.petsc import NonlinearProblem
+
+        msh, ft = self.mesh, self.facet_tags
+        u, v = self.phi, ufl.TestFunction(self.V)
+        cal = self.calibration
+        kT = sc.k * self.section.temperature_K / sc.e
+        self.kT = fem.Constant(msh, default_scalar_type(kT))
+        self.kT_target_eV = kT
+        self.sigma = fem.Constant(msh, default_scalar_type(0.0))
+        if self.options.exposed == "frozen":
+            self.sigma.value = cal["surface_charge_C_m2"] / sc.e * AREA_SCALE
+        dx = ufl.Measure("dx", domain=msh, subdomain_data=self.cell_tags)
+        dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
+        ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
+        qd = self.options.sheet_quadrature_degree
+        dS_v = ufl.Measure(
+            "dS",
+            domain=msh,
+            subdomain_data=ft,
+            metadata={"quadrature_rule": "vertex", "quadrature_degree": 1}
+            if qd == 0
+            else {"quadrature_degree": qd},
+        )
+        sheet_tags = tuple(TAGS["sheet0"] + i for i in range(len(self.section.sheets)))
+        F = C_EPS * self.eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * dx
+        F -= self.q_lines("+") * v("+") * dS((TAGS["levels"], *sheet_tags))
+        F -= self.q_lines * v * ds((TAGS["exposed"], TAGS["bottom"]))
+        F -= self.sigma * v * ds(TAGS["exposed"])
+        self.E = []
+        self.D = []
+        for i, s in enumerate(self.section.sheets):
+            E = fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
+            D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
+            a = (u("+") - E) / self.kT
+            softplus = ufl.max_value(a, 0.0) + ufl.ln(1.0 + ufl.exp(-abs(a)))
+            F += D * self.kT * softplus * v("+") * dS_v(sheet_tags[i])
+            self.E.append(E)
+            self.D.append(D)
+        use_lu = self.options.linear_solver == "lu" or (
+            self.options.linear_solver == "auto" and self.num_dofs <= self.options.direct_max_dofs
+        )
+        self.linear_solver = "lu" if use_lu else "gamg"
+        opts = {
+            "snes_type": "newtonls",
+            "snes_linesearch_type": "bt",
+            "snes_rtol": self.options.rtol,
+            "snes_atol": self.options.atol,
+            "snes_stol": 0.0,
+            "snes_max_it": self.options.max_it,
+        }
+        if use_lu:
+            opts |= {"ksp_type": "preonly", "pc_type": "lu", "pc_factor_mat_solver_type": "mumps"}
+        else:
+            opts |= {
+                "ksp_type": "cg",
+                "pc_type": "gamg",
+                "ksp_rtol": 1e-12,
+                "ksp_atol": 1e-16,
+                "ksp_max_it": 500,
+                "pc_gamg_threshold": 0.02,
+                "mg_levels_ksp_type": "chebyshev",
+                "mg_levels_pc_type": "jacobi",
+            }
+        self.problem = NonlinearProblem(
+            F, u, bcs=[self.bc], petsc_options_prefix=f"qh_tf2d_{id(self)}_", petsc_options=opts
+        )
+        snes = self.problem.solver
+        self._history: list[float] = []
+        snes.setMonitor(lambda _snes, _it, norm: self._history.append(float(norm)))
+
+    # ------------------------------------------------------------------ solving
+    def _initial_guess(self, gate_voltage_V: float) -> None:
+        self.phi.x.array[:] = self.calibration["phi_V"][self._dof_iz]
+        self._set_bc_values(gate_voltage_V)
+        self.phi.x.array[self._bc_dofs] = self._g.x.array[self._bc_dofs]
+        self.phi.x.scatter_forward()
+
+    def _newton(self) -> tuple[bool, int]:
+        self._history.clear()
+        self.problem.solve()
+        snes = self.problem.solver
+        reason = snes.getConvergedReason()
+        last = self._history[-1] if self._history else np.inf
+        # a line-search stall at the round-off floor counts as converged
+        ok = (reason > 0 or last < self.options.floor) and np.all(np.isfinite(self.phi.x.array))
+        return bool(self.comm.allreduce(ok, op=_land())), snes.getIterationNumber()
+
+    def _continuation(self) -> int:
+        kT_target = self.kT_target_eV
+        kT = max(self.options.kT_start_eV, kT_target)
+        total = 0
+        while True:
+            self.kT.value = kT
+            ok, its = self._newton()
+            total += its
+            if not ok:
+                raise ConvergenceError(
+                    "2D Thomas–Fermi Newton",
+                    its,
+                    self._history,
+                    "e/nm",
+                    reason=f"kT = {kT * 1e3:.3g} meV in the temperature continuation",
+                )
+            if kT <= kT_target:
+                return total
+            kT = max(kT / self.options.kT_factor, kT_target)
+
+    def solve(
+        self,
+        gate_voltage_V: float,
+        *,
+        warm: bool = True,
+        initial: FieldSolution | None = None,
+    ) -> FieldSolution:
+        """Solve at a gate voltage (V).
+
+        Parameters
+        ----------
+        gate_voltage_V
+            Gate bias (V).
+        warm
+            Start from the last solution of this solver, if any.
+        initial
+            Start from a solution on another grid of the same cross-section (interpolated).
+
+        A warm or interpolated start runs Newton at the target temperature directly and falls
+        back to the temperature continuation from the 1D column if that fails.
+
+        Raises
+        ------
+        ConvergenceError
+            If Newton fails (with the residual history of the failing solve).
+        """
+        t0 = time.perf_counter()
+        started = False
+        if initial is not None:
+            from scipy.interpolate import RegularGridInterpolator
+
+            f = RegularGridInterpolator((initial.z_m, initial.x_m), initial.phi_V)
+            pts = np.column_stack((self._dof_z_m, self._dof_x_m))
+            lo = [initial.z_m[0], initial.x_m[0]]
+            hi = [initial.z_m[-1], initial.x_m[-1]]
+            self.phi.x.array[:] = f(np.clip(pts, lo, hi))
+            started = True
+        elif warm and self._solved:
+            started = True
+        its = 0
+        if started:
+            self._set_bc_values(gate_voltage_V)
+            self.phi.x.array[self._bc_dofs] = self._g.x.array[self._bc_dofs]
+            self.phi.x.scatter_forward()
+            self.kT.value = self.kT_target_eV
+            ok, its = self._newton()
+            started = ok
+        if not started:
+            self._initial_guess(gate_voltage_V)
+            its += self._continuation()
+        self._solved = True
+        self.gate_voltage_V = float(gate_voltage_V)
+        self.timings["solve"] = time.perf_counter() - t0
+        return self._gather(its)
+
+    def _gather(self, its: int) -> FieldSolution:
+        n_own = self.V.dofmap.index_map.size_local
+        local = (
+            self._dof_iz[:n_own].copy(),
+            self._dof_ix[:n_own].copy(),
+            self.phi.x.array[:n_own].copy(),
+        )
+        parts = self.comm.allgather(local)
+        nz, nx = self.grid.z_m.size, self.grid.x_m.size
+        grid_phi = np.full((nz, nx), np.nan)
+        for iz, ix, val in parts:
+            grid_phi[iz, ix] = val
+        kT = self.kT_target_eV * sc.e
+        dens = []
+        for i, s in enumerate(self.section.sheets):
+            row = grid_phi[self.grid.sheet_level[i]]
+            e_rel = (row - self.calibration["energy_eV"][i]) * sc.e
+            dens.append(thomas_fermi_density(e_rel, s.dos_J_m2, kT))
+        return FieldSolution(
+            x_m=self.grid.x_m.copy(),
+            z_m=self.grid.z_m.copy(),
+            phi_V=grid_phi,
+            sheet_names=tuple(s.name for s in self.section.sheets),
+            sheet_level=self.grid.sheet_level.copy(),
+            density_m2=np.array(dens).reshape(len(self.section.sheets), nx),
+            bulk_density_m2=np.array([s.density_m2 for s in self.section.sheets]),
+            sheet_energy_eV=np.asarray(self.calibration["energy_eV"], dtype=float).copy(),
+            gate_voltage_V=self.gate_voltage_V,
+            iterations=int(its),
+            residuals=tuple(self._history),
+            timings_s=dict(self.timings),
+        )
+
+    def write_fields(self, path) -> None:
+        """Write the mesh, the potential (V) and the permittivity map to XDMF (lengths in nm)."""
+        from dolfinx import fem
+        from dolfinx.io import XDMFFile
+
+        eps = fem.Function(self.eps.function_space, name="relative_permittivity")
+        eps.x.array[:] = self.eps.x.array
+        with XDMFFile(self.comm, str(path), "w") as f:
+            f.write_mesh(self.mesh)
+            f.write_function(self.phi)
+            f.write_function(eps)
+
+
+def _nearest(nodes: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Index of the nearest node (nodes sorted)."""
+    i = np.clip(np.searchsorted(nodes, values), 1, nodes.size - 1)
+    left = np.abs(values - nodes[i - 1]) <= np.abs(nodes[i] - values)
+    return np.where(left, i - 1, i)
+
+
+def _land():
+    from mpi4py import MPI
+
+    return MPI.LAND
