@@ -155,6 +155,16 @@ def build_results(
                 sheet_density_m2=float(n_sub[s]),
             )
         )
+    # electrons that are not part of a well's 2DEG: classical (3D) electrons anywhere, plus the
+    # quantum density of subbands that do not live mainly in a well (a doping layer's own bound
+    # state). The tails of well subbands in the barriers stay with their wells' 2DEG.
+    ncl = state.n_classical_m3
+    par_cell = 0.5 * (ncl[:-1] + ncl[1:]) * dev.h
+    p2 = state.psi**2
+    for s in range(len(en)):
+        if sub_results[s].fraction_in_well < 0.5:
+            par_cell = par_cell + n_sub[s] * 0.5 * (p2[s, :-1] + p2[s, 1:]) * dev.h
+    par_layer = per_layer(layout, par_cell)
     centres = dev.centres
     wells = []
     for li in well_idx:
@@ -196,7 +206,7 @@ def build_results(
             name=layout.layer_names[i],
             donors_m2=float(don_layer[i]),
             ionized_m2=float(ion_layer[i]),
-            electrons_m2=float(e_layer[i]),
+            electrons_m2=float(par_layer[i]),
         )
         for i in layout.doped_layers
     )
@@ -209,7 +219,17 @@ def build_results(
         # the primary's second subband lies above every computed subband
         e2 = float(en[-1]) if len(en) else math.nan
     second = bool(e2 < options.second_subband_margin_J)
+    # parallel conduction: electrons in any layer that is not a well (doped layers first; an
+    # undoped buffer can hold a 3D electron layer too, e.g. when the freeze-out left a
+    # thermal population there)
     parallel = tuple(d.name for d in doping if d.electrons_m2 > options.parallel_threshold_m2)
+    parallel += tuple(
+        layout.layer_names[i]
+        for i in range(len(layout.layer_names))
+        if i not in well_idx
+        and i not in layout.doped_layers
+        and par_layer[i] > options.parallel_threshold_m2
+    )
     poor = ()
     if options.field_T:
         poor = tuple(
@@ -245,4 +265,9 @@ def build_results(
         ),
         forward_leakage=bool(gate_voltage > options.forward_limit_V),
     )
-    return tuple(sub_results), tuple(wells), doping, flags, ion_cell / h * sc.e
+    others = {
+        layout.layer_names[i]: float(par_layer[i])
+        for i in range(len(layout.layer_names))
+        if i not in well_idx and i not in layout.doped_layers
+    }
+    return tuple(sub_results), tuple(wells), doping, flags, ion_cell / h * sc.e, others

@@ -111,6 +111,7 @@ class BandsResult:
     quantum_region_m: tuple[float, float]
     warnings: tuple[str, ...] = ()
     fermi_level_J: float = 0.0
+    other_layers_electrons_m2: dict = field(default_factory=dict)
 
     def well(self, name: str) -> WellResult:
         """The well called ``name``."""
@@ -170,6 +171,9 @@ class BandsResult:
                     "electrons_m2": d.electrons_m2,
                 }
                 for d in self.doping
+            },
+            "other_layers": {
+                k: {"electrons_m2": v} for k, v in self.other_layers_electrons_m2.items()
             },
             "surface_charge_C_m2": self.surface_charge_C_m2,
             "bottom_charge_C_m2": self.bottom_charge_C_m2,

@@ -236,7 +236,7 @@ def assemble(
         surface_charge = frozen.surface_charge_C_m2
     else:
         surface_charge = st.top_charge_C_m2
-    subs, wells, doping, flags, fixed = build_results(
+    subs, wells, doping, flags, fixed, others = build_results(
         stack,
         layout,
         st,
@@ -252,6 +252,11 @@ def assemble(
             f"gate voltage {v:+.3f} V is above the forward-bias limit "
             f"{opts.forward_limit_V:+.3f} V: expect gate leakage"
         )
+    if flags.parallel_conduction:
+        held = dict(others)
+        held.update({d.name: d.electrons_m2 for d in doping})
+        text = ", ".join(f"{n} ({held[n] * 1e-4:.3g} cm^-2)" for n in flags.parallel_layers)
+        warn.append(f"parallel conduction in {text}")
     if all(w.sheet_density_m2 < 1e12 for w in wells):
         warn.append("no well holds charge (all below 1e8 cm^-2)")
     h = dev.h
@@ -285,4 +290,5 @@ def assemble(
         grid_max_spacing_m=float(h.max()),
         quantum_region_m=(float(dev.z[dev.quantum[0]]), float(dev.z[dev.quantum[1]])),
         warnings=tuple(warn),
+        other_layers_electrons_m2=others,
     )

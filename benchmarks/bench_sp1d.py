@@ -1,0 +1,155 @@
+"""1D Schrödinger–Poisson benchmarks on the screened example stack (QL-2417).
+
+Measures: one full solve at 0.3 K (freeze-out + low-temperature solve + results), the
+low-temperature solve alone with the frozen state reused, a 200-point gate sweep, iterations per
+solve (0.3 K and 10 mK), and the overhead ratio = solve time / (outer iterations x (one bare
+eigen-solve + one linear Poisson solve on the same grid)). Prints a Markdown table for
+docs/performance.md (section "1D").
+
+Run: ``.venv/bin/python benchmarks/bench_sp1d.py [--repeat 15]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import platform
+import statistics
+import time
+from pathlib import Path
+
+import numpy as np
+import scipy
+
+ROOT = Path(__file__).resolve().parents[1]
+STACK = ROOT / "stacks" / "ql2417_screened.toml"
+
+
+def machine_line() -> str:
+    cpu = platform.processor() or platform.machine()
+    try:
+        for line in Path("/proc/cpuinfo").read_text().splitlines():
+            if line.startswith("model name"):
+                cpu = line.split(":", 1)[1].strip()
+                break
+    except OSError:
+        pass
+    return (
+        f"{cpu}, {os.cpu_count()} logical CPUs, {platform.system()} {platform.release()}, "
+        f"Python {platform.python_version()}, numpy {np.__version__}, scipy {scipy.__version__}"
+    )
+
+
+def timed(fn, repeat: int, warmup: int = 2) -> tuple[float, object]:
+    for _ in range(warmup):
+        out = fn()
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times), out
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--repeat", type=int, default=15)
+    args = ap.parse_args()
+
+    from qhdesign.sp1d import BandsOptions, freeze_out, gate_response, solve_bands
+    from qhdesign.sp1d.poisson import PoissonOperator
+    from qhdesign.sp1d.schrodinger import solve_subbands
+    from qhdesign.sp1d.solve import solve_at
+    from qhdesign.stack import load_stack
+
+    stack = load_stack(STACK)
+    opts = BandsOptions()
+    t_full, res = timed(lambda: solve_bands(stack), args.repeat)
+    frozen = freeze_out(stack)
+    t_freeze, fr_state = timed(lambda: freeze_out(stack), args.repeat)
+    t_solve, st = timed(lambda: solve_at(stack, frozen, 0.0, stack.temperature, opts), args.repeat)
+    t_bands_frozen, _ = timed(lambda: solve_bands(stack, frozen=frozen), args.repeat)
+    it_03 = st.iterations
+    it_10mk = solve_bands(stack, temperature=0.01).iterations
+    it_freeze = fr_state.state.iterations
+
+    # bare eigen-solve (same quantum grid, same subband count, same tolerance) and one linear
+    # Poisson (tridiagonal) solve on the full grid
+    dev = frozen.layout.device
+    q0, q1 = dev.quantum
+    z = dev.z[q0 : q1 + 1]
+    u = st.U_J[q0 : q1 + 1]
+    count = len(st.energies_J)
+    t_eig, _ = timed(
+        lambda: solve_subbands(z, u, dev.mass[q0:q1], count, opts.solve.eigen_tol_eV), 50
+    )
+    op = PoissonOperator(dev.z, dev.eps, np.zeros(len(dev.z), dtype=bool))
+    dq = -np.full(len(dev.z), 1e-3)
+    rhs = np.ones(len(dev.z))
+    t_poi, _ = timed(lambda: op.solve_step(dq, rhs), 200)
+    bare = t_eig + t_poi
+    ratio_solve = t_solve / (it_03 * bare)
+    fc = len(fr_state.state.energies_J)
+    zf = dev.z[q0 : q1 + 1]
+    t_eig_f, _ = timed(
+        lambda: solve_subbands(
+            zf, fr_state.state.U_J[q0 : q1 + 1], dev.mass[q0:q1], fc, opts.solve.eigen_tol_eV
+        ),
+        20,
+    )
+    ratio_full = t_full / (it_freeze * (t_eig_f + t_poi) + it_03 * bare)
+
+    # 200-point gate sweep (fresh freeze-out included), +0.2 V to -1.0 V
+    step = -1.2 / 199
+    t_sweep, g = timed(lambda: gate_response(stack, 0.2, -1.0, step), 3, warmup=1)
+    n_pts = len(g.voltages_V)
+    it_sweep = float(np.mean(g.iterations))
+
+    rows = [
+        (
+            "full solve at 0.3 K (freeze-out + solve + results), median",
+            f"{t_full * 1e3:.1f} ms",
+            "<= 50 ms",
+        ),
+        (
+            f"of which freeze-out at {stack.freeze_temperature:g} K "
+            f"({it_freeze} iterations, {fc} subbands)",
+            f"{t_freeze * 1e3:.1f} ms",
+            "",
+        ),
+        ("self-consistent solve at 0.3 K with the frozen state", f"{t_solve * 1e3:.1f} ms", ""),
+        (
+            "solve + results (flags, tunnel splittings) with the frozen state",
+            f"{t_bands_frozen * 1e3:.1f} ms",
+            "",
+        ),
+        (f"{n_pts}-point gate sweep (incl. one freeze-out)", f"{t_sweep:.2f} s", "<= 2 s"),
+        (
+            "outer iterations: 0.3 K / 10 mK / freeze-out / sweep mean",
+            f"{it_03} / {it_10mk} / {it_freeze} / {it_sweep:.1f}",
+            "<= 30 at 10 mK",
+        ),
+        (
+            f"bare eigen-solve ({count} subbands) / linear Poisson solve",
+            f"{t_eig * 1e3:.2f} ms / {t_poi * 1e3:.3f} ms",
+            "",
+        ),
+        ("overhead ratio, solve at 0.3 K", f"{ratio_solve:.2f}", "<= 1.5"),
+        (
+            "overhead ratio, full solve (freeze-out with its own eigen-solves)",
+            f"{ratio_full:.2f}",
+            "",
+        ),
+    ]
+    print(f"machine: {machine_line()}")
+    print(f"grid: {len(dev.z)} nodes, quantum region {q1 - q0 + 1} nodes")
+    print()
+    print("| quantity | measured | target |")
+    print("|---|---|---|")
+    for r in rows:
+        print(f"| {r[0]} | {r[1]} | {r[2]} |")
+    del res
+
+
+if __name__ == "__main__":
+    main()
