@@ -107,6 +107,9 @@ def tunnel_splitting(
         split2 = g[1] - b * b / (4 * a)
         d0 = d0 + dmin * s
         split = math.sqrt(max(split2, 0.0))
+        if gap2(d0) < TUNNEL_RESOLUTION_J**2:
+            # already at resonance within the resolution and the gap is unresolved
+            return 0.0
         if abs(dmin) * s < max(tol_J, 1e-3 * split) and s < 50 * max(split, tol_J):
             break
         s = max(min(s, 20 * max(split, tol_J), abs(dmin) * s * 4 + 10 * tol_J), tol_J)

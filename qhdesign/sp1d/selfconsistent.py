@@ -177,8 +177,13 @@ class _Problem:
         """Half-cell widths counted classically: cell c's left half sits at node c, its right
         half at node c+1. Only the non-zero ones are evaluated (most of the grid is quantum)."""
         self.cl_left_w, self.cl_right_w = left_w, right_w
-        self.cl_l_idx = np.nonzero(left_w)[0]
-        self.cl_r_idx = np.nonzero(right_w)[0]
+        il = np.nonzero(left_w)[0]
+        ir = np.nonzero(right_w)[0]
+        cell = np.concatenate([il, ir])
+        self.cl_node = np.concatenate([il, ir + 1])
+        self.cl_w = np.concatenate([left_w[il], right_w[ir]])
+        self.cl_offset = self.dev.offset_J[cell]
+        self.cl_mass = self.dev.mass[cell]
 
     # ---- charges ------------------------------------------------------------------------
     def donors(self, phi):
@@ -207,19 +212,12 @@ class _Problem:
 
     def classical(self, phi):
         """Classical electron sheet density per control volume (m^-2) and d/dphi."""
-        dev = self.dev
-        il, ir = self.cl_l_idx, self.cl_r_idx
-        u_l = dev.offset_J[il] - E * phi[il]
-        u_r = dev.offset_J[ir] - E * phi[ir + 1]
-        n_l, dn_l = classical_density(u_l, dev.mass[il], self.kT)
-        n_r, dn_r = classical_density(u_r, dev.mass[ir], self.kT)
-        s = np.zeros_like(phi)
-        ds = np.zeros_like(phi)
-        wl, wr = self.cl_left_w[il], self.cl_right_w[ir]
-        np.add.at(s, il, n_l * wl)
-        np.add.at(s, ir + 1, n_r * wr)
-        np.add.at(ds, il, -E * dn_l * wl)  # d/dphi = dn/dU * (-e)
-        np.add.at(ds, ir + 1, -E * dn_r * wr)
+        # all classical half cells in one vectorised call: cell index, node index, width
+        u = self.cl_offset - E * phi[self.cl_node]
+        n, dn = classical_density(u, self.cl_mass, self.kT)
+        s = np.bincount(self.cl_node, weights=n * self.cl_w, minlength=len(phi))
+        # d/dphi = dn/dU * (-e)
+        ds = np.bincount(self.cl_node, weights=-E * dn * self.cl_w, minlength=len(phi))
         return s, ds
 
     def quantum_predictor(self, energies, psi2_dos, phi_k):
@@ -228,9 +226,15 @@ class _Problem:
         kT_reg = max(kT, _KT_REG)
         sl = slice(self.q0, self.q1 + 1)
 
+        e_over = -energies[:, None] / kT
+        ratio = kT / kT_reg
+        phik = phi_k[sl] * (E / kT)
+
         def n_of(phi):
-            arg = (-energies[:, None] + E * (phi[sl] - phi_k[sl])[None, :]) / kT
-            occ = kT * np.logaddexp(0.0, arg)
+            arg = e_over + (phi[sl] * (E / kT) - phik)[None, :]
+            # softplus and logistic from one exponential: t = exp(-|arg|)
+            t = np.exp(-np.abs(arg))
+            occ = kT * (np.maximum(arg, 0.0) + np.log1p(t))
             n = np.einsum("ij,ij->j", psi2_dos, occ)
             # Jacobian: the exact derivative expit(arg), floored for empty subbands by a small
             # multiple of the derivative at a regularising temperature. At mK an empty subband
@@ -238,7 +242,11 @@ class _Problem:
             # while the potential is still far from the solution; the floor only changes the
             # Newton direction (the residual stays exact), and is negligible once a subband is
             # occupied, so the fast final convergence is kept.
-            slope = np.maximum(expit(arg), _JAC_FLOOR * expit(arg * (kT / kT_reg)))
+            sig = np.where(arg >= 0.0, 1.0, t) / (1.0 + t)
+            if ratio < 1.0:
+                slope = np.maximum(sig, _JAC_FLOOR * expit(arg * ratio))
+            else:
+                slope = sig
             dn = E * np.einsum("ij,ij->j", psi2_dos, slope)
             return n, dn
 
