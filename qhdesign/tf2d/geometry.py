@@ -246,9 +246,9 @@ def build_mesh(grid: StructuredGrid, section: CrossSection, comm):
     dolfinx.io.gmsh.MeshData
         ``.mesh``, ``.cell_tags`` (layer index + 1), ``.facet_tags`` (see :data:`TAGS`).
     """
-    import dolfinx
-    import dolfinx.io.gmsh
-    from mpi4py import MPI  # noqa: F401  (must precede dolfinx)
+    from .backend import load
+
+    _, dolfinx = load()
 
     partitioner = dolfinx.mesh.create_cell_partitioner(dolfinx.mesh.GhostMode.shared_facet, 2)
     gmsh = None

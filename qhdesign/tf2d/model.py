@@ -297,9 +297,9 @@ def calibrate(
     -------
     dict
         ``energy_eV`` (E_w/e per sheet), ``line_charge_C_m2`` (frozen charge per level, without
-        sheets and without the surface charge), ``surface_charge_C_m2`` (after the neutrality
-        correction), ``neutrality_correction_C_m2``, ``phi_V`` (far-field potential per level),
-        ``sheet_level`` (level index of each sheet).
+        sheets and without the surface charge, with the neutrality correction on the bottom
+        level), ``surface_charge_C_m2``, ``neutrality_correction_C_m2``, ``phi_V`` (far-field
+        potential per level), ``sheet_level`` (level index of each sheet).
     """
     z = np.asarray(levels_m, dtype=float)
     kT = sc.k * section.temperature_K
@@ -319,9 +319,13 @@ def calibrate(
     correction = 0.0
     if exposed == "frozen" and section.bottom == "zero_field":
         # Both boundaries are zero-field: the column must be neutral. Whatever the sheet model
-        # leaves out (e.g. classical electrons outside the wells) is put on the surface.
+        # leaves out (classical electrons outside the wells, e.g. at the bottom of a deep
+        # substrate, and wavefunction tails outside the well layers) is frozen on the bottom
+        # level, far from the gates, and reported.
         correction = -(sigma + np.sum(q))
-        sigma += correction
+        q[-1] += correction
+        q_fixed = q_fixed.copy()
+        q_fixed[-1] += correction
     q[0] += sigma
     phi = solve_column(
         z,

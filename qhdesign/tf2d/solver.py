@@ -154,8 +154,9 @@ class CrossSectionSolver:
         outer_dirichlet: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
         sheet_metal: list[tuple[int, float]] | None = None,
     ):
-        import dolfinx  # noqa: F401
-        from mpi4py import MPI
+        from .backend import load
+
+        MPI, _ = load()
 
         self.section = section
         self.layout = layout
