@@ -28,6 +28,9 @@ venv: $(VENV)/.installed
 demo: $(VENV)/.installed
 	@mkdir -p $(OUT)
 	$(QH) check $(STACK) --plot $(OUT)/layers.png
+	$(QH) bands $(STACK) --json $(OUT)/bands.json --plot $(OUT)/bands.png
+	$(QH) gate $(STACK) --from 0.2 --to -1.0 --step 0.01 --csv $(OUT)/gate.csv \
+	  --json $(OUT)/gate.json --plot $(OUT)/gate.png
 	@echo "demo results in $(OUT)/"
 
 test: $(VENV)/.installed
