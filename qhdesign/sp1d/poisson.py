@@ -92,6 +92,7 @@ def newton_poisson(
     charge_scale: float,
     tol_V: float = 1e-11,
     max_iter: int = 200,
+    initial: tuple[np.ndarray, np.ndarray] | None = None,
 ) -> tuple[np.ndarray, int]:
     """Solve K phi + Q(phi) = 0 on the free nodes by damped Newton.
 
@@ -107,7 +108,11 @@ def newton_poisson(
     charge_scale
         Typical charge (C/m^2) to scale the residual.
     tol_V
-        Stop when the largest full Newton update is below this (V).
+        Stop when the largest full Newton update is below this (V), or when it is below
+        10 tol_V and a tenth of the previous update (quadratic convergence: the next update
+        would be below tol_V).
+    initial
+        ``charge(phi0)`` if the caller has it already.
 
     Returns
     -------
@@ -122,7 +127,7 @@ def newton_poisson(
     """
     phi = phi0.copy()
     free = op.free
-    q, dq = charge(phi)
+    q, dq = charge(phi) if initial is None else initial
     res = op.apply(phi) + q
     res[~free] = 0.0
     rnorm = np.linalg.norm(res) / charge_scale
@@ -135,7 +140,7 @@ def newton_poisson(
         delta = op.solve_step(dq, res)
         step = float(np.max(np.abs(delta)))
         history.append(step)
-        if step < tol_V:
+        if step < tol_V or (len(history) > 1 and step < 10 * tol_V and step < 0.1 * history[-2]):
             return phi + delta, it
         t = 1.0
         while True:

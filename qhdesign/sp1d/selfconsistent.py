@@ -372,7 +372,7 @@ def solve_device(
         psi2_dos = psi**2 * subband_dos(m_sub)[:, None]
         n_fn = prob.quantum_predictor(en, psi2_dos, phi.copy())
         # charge residual of the current potential with the density of this Schrödinger solve
-        q, _ = prob.total_charge(phi, n_fn)
+        q, dq = prob.total_charge(phi, n_fn)
         res = prob.op.apply(phi) + q
         res[prob.fixed] = 0.0
         rel_charge = float(np.abs(res).sum() / prob.charge_scale)
@@ -381,15 +381,17 @@ def solve_device(
             break
         # inexact inner solve: Newton needs only be a hundred times more accurate than the
         # current outer change (quadratic convergence makes the last digits nearly free)
-        tol_inner = opts.tol_potential_V * 1e-3
+        # (the first solve only to the outer tolerance: the next outer step corrects it)
+        tol_inner = opts.tol_potential_V
         if residuals:
-            tol_inner = max(tol_inner, min(1e-2 * residuals[-1], 1e-4))
+            tol_inner = max(opts.tol_potential_V * 1e-3, min(1e-2 * residuals[-1], 1e-4))
         phi_new, n_newton = newton_poisson(
             prob.op,
             phi,
             lambda p, f=n_fn: prob.total_charge(p, f),
             charge_scale=prob.charge_scale,
             tol_V=tol_inner,
+            initial=(q, dq),
         )
         newton_total += n_newton
         change = float(np.max(np.abs(phi_new - phi)))
