@@ -8,10 +8,12 @@ that need them, so importing this package is light. Entry points: :func:`solve_e
 from __future__ import annotations
 
 from .edge import (
+    ConstrictionResult,
     EdgeResult,
     EdgeSettings,
     PinchoffResult,
     section_from_stack,
+    solve_constriction,
     solve_edge,
     solve_pinchoff,
 )
@@ -20,6 +22,7 @@ from .model import CrossSection, SheetSpec, cross_section_from_sheet_model
 from .solver import CrossSectionSolver, SolverOptions
 
 __all__ = [
+    "ConstrictionResult",
     "CrossSection",
     "CrossSectionSolver",
     "EdgeResult",
@@ -31,6 +34,7 @@ __all__ = [
     "SolverOptions",
     "cross_section_from_sheet_model",
     "section_from_stack",
+    "solve_constriction",
     "solve_edge",
     "solve_pinchoff",
 ]

@@ -32,11 +32,13 @@ from .profile import (
 from .solver import CrossSectionSolver, FieldSolution, SolverOptions
 
 __all__ = [
+    "ConstrictionResult",
     "EdgeResult",
     "EdgeSettings",
     "PinchoffResult",
     "WellEdge",
     "analyse_edge",
+    "solve_constriction",
     "solve_edge",
     "solve_pinchoff",
 ]
@@ -146,6 +148,7 @@ class EdgeResult:
     edge_shift_m_per_V: float | None = None
     area_change_m2_per_V: float | None = None
     info: dict = field(default_factory=dict)
+    solver: object = field(default=None, repr=False)  # the pass-2 solver (for field output)
 
     def well(self, name: str) -> WellEdge:
         return next(w for w in self.wells if w.name == name)
@@ -341,6 +344,7 @@ def solve_edge(
         primary=prim.name,
         lithographic_edge_m=0.0,
         solution=sol,
+        solver=solver,
         edge_shift_m_per_V=shifted[ip].edge_shift_m_per_V,
         info={
             "dofs": solver.num_dofs,
@@ -470,14 +474,12 @@ def solve_pinchoff(
         raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
     for v in (v_start, v_stop):
         _check_gate_voltage(section, v)
-    mesh_options = mesh_options or MeshOptions()
-    solver = CrossSectionSolver(section, GateLayout.split(gap_m), mesh_options, options, comm=comm)
+    solver = _split_solver(section, gap_m, mesh_options, options, comm)
     names = [s.name for s in section.sheets]
     thr = np.array([EDGE_FRACTION * s.density_m2 for s in section.sheets])
 
     def centre(v: float) -> np.ndarray:
-        sol = solver.solve(v)
-        return np.array([interp_at(sol.x_m, d, 0.0) for d in sol.density_m2])
+        return _centre_density(solver.solve(v))
 
     n_steps = int(np.floor((v_stop - v_start) / v_step + 1e-9)) + 1
     volts = v_start + v_step * np.arange(n_steps)
@@ -511,6 +513,90 @@ def solve_pinchoff(
         pinchoff_V=pinch,
         tolerance_V=tolerance_V,
         info={"dofs": solver.num_dofs, "linear_solver": solver.linear_solver},
+    )
+
+
+def _split_solver(section, gap_m, mesh_options, options, comm) -> CrossSectionSolver:
+    mesh_options = mesh_options or MeshOptions()
+    # the constriction centre is a mesh node at the edge size
+    opts = replace(mesh_options, x_attractors_m=(*mesh_options.x_attractors_m, 0.0))
+    return CrossSectionSolver(section, GateLayout.split(gap_m), opts, options, comm=comm)
+
+
+def _centre_density(sol: FieldSolution) -> np.ndarray:
+    """Density of each sheet at x = 0 (m^-2), shape (S,)."""
+    i0 = int(np.argmin(np.abs(sol.x_m)))
+    return sol.density_m2[:, i0].copy()
+
+
+@dataclass(frozen=True, eq=False)
+class ConstrictionResult:
+    """A split gate of gap w at one gate voltage: the channel in the gap, per well."""
+
+    gap_m: float
+    gate_voltage_V: float
+    centre_density_m2: dict
+    bulk_density_m2: dict
+    channel_width_m: dict  # between the two points where n = EDGE_FRACTION of the bulk
+    pinched: dict
+    solution: FieldSolution
+    gates_m: tuple = ()
+    solver: object = field(default=None, repr=False)
+
+    def to_dict(self) -> dict:
+        return {
+            "gap_m": self.gap_m,
+            "gate_voltage_V": self.gate_voltage_V,
+            "edge_fraction_of_bulk": EDGE_FRACTION,
+            "wells": {
+                k: {
+                    "centre_density_m2": self.centre_density_m2[k],
+                    "bulk_density_m2": self.bulk_density_m2[k],
+                    "channel_width_m": self.channel_width_m[k],
+                    "pinched": self.pinched[k],
+                }
+                for k in self.centre_density_m2
+            },
+        }
+
+
+def solve_constriction(
+    section: CrossSection,
+    gap_m: float,
+    gate_voltage_V: float,
+    mesh_options: MeshOptions | None = None,
+    options: SolverOptions | None = None,
+    *,
+    comm=None,
+) -> ConstrictionResult:
+    """Solve a split gate of gap ``gap_m`` at one gate voltage (metal over |x| > gap/2)."""
+    if not gap_m > 0:
+        raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
+    _check_gate_voltage(section, gate_voltage_V)
+    solver = _split_solver(section, gap_m, mesh_options, options, comm)
+    sol = solver.solve(gate_voltage_V)
+    _check_electrons(sol, section, gate_voltage_V)
+    n0 = _centre_density(sol)
+    centre, width, pinched, bulk = {}, {}, {}, {}
+    x = sol.x_m
+    for i, s in enumerate(section.sheets):
+        thr = EDGE_FRACTION * s.density_m2
+        centre[s.name] = float(n0[i])
+        bulk[s.name] = s.density_m2
+        pinched[s.name] = bool(n0[i] < thr)
+        right = x >= 0
+        xr = crossing_from_bulk(x[right][::-1] * -1, sol.density_m2[i][right][::-1], thr)
+        width[s.name] = None if pinched[s.name] or xr is None else float(-2 * xr)
+    return ConstrictionResult(
+        gap_m,
+        gate_voltage_V,
+        centre,
+        bulk,
+        width,
+        pinched,
+        sol,
+        gates_m=solver.layout.gates_m,
+        solver=solver,
     )
 
 

@@ -135,8 +135,13 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
                 f"(at least 8 cells of {h_edge * 1e9:.2f} nm: >= {8 * h_edge * 1e9:.1f} nm)",
                 source="option --gap",
             )
+    # an attractor far enough from every breakpoint becomes a node too (a centre, an edge)
+    nodes_at = list(edges)
+    for m in marks:
+        if all(abs(m - b) > 4 * h_edge for b in [-X, *nodes_at, X]):
+            nodes_at.append(m)
     x = graded_nodes(
-        [-X, *edges, X],
+        [-X, *nodes_at, X],
         [(e, h_edge) for e in edges + marks],
         opts.growth,
         opts.h_max_x_m / r,

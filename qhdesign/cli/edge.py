@@ -1,0 +1,361 @@
+"""``qhdesign edge`` and ``qhdesign pinchoff``: the 2D Thomas–Fermi stage on the command line.
+
+The 1D stage runs first (donors frozen at their 1D state), then the cross-section is solved on
+DOLFINx. Everything is computed before anything is written; under ``mpiexec`` only rank 0
+writes (the XDMF field file is written collectively, as DOLFINx requires).
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+from pathlib import Path
+
+import typer
+
+from .common import guarded, option_quantity
+
+
+def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
+    from qhdesign.errors import InputError
+    from qhdesign.stack import load_stack
+    from qhdesign.tf2d import section_from_stack
+
+    stack = load_stack(stack_file)
+    barrier = option_quantity(gate_barrier, "energy", "--gate-barrier")
+    if barrier is not None and not 0.0 < barrier < 3.0 * 1.602176634e-19:
+        raise InputError("gate barrier must lie between 0 and 3 eV", source="option --gate-barrier")
+    if surface is not None and surface not in ("frozen", "pinned"):
+        raise InputError(
+            f"'{surface}' is not a surface model; allowed: frozen, pinned",
+            source="option --surface",
+        )
+    if surface is None:
+        surf = stack.surface
+        surface = "frozen" if surf.kind == "exposed" and surf.charge == "frozen" else "pinned"
+    if stack.surface.kind != "exposed":
+        surface = "pinned"  # a stack with a global top gate: its metal is a Dirichlet surface
+    return stack, section_from_stack(stack, gate_barrier_J=barrier), surface
+
+
+def _field(value: str | None) -> float | None:
+    if value is None:
+        return None
+    text = value.strip()
+    try:  # a bare number is read in tesla
+        return float(text)
+    except ValueError:
+        return option_quantity(text, "field", "--field")
+
+
+def _filling(value: str | None) -> float | None:
+    if value is None:
+        return None
+    from qhdesign.errors import InputError
+
+    try:
+        nu = float(Fraction(value.strip()))
+    except (ValueError, ZeroDivisionError):
+        raise InputError(
+            f"cannot read filling '{value}'; give a positive number or fraction (1, 2, 1/3)",
+            source="option --filling",
+        ) from None
+    if not 0 < nu <= 100:
+        raise InputError(
+            f"filling {value} out of range; allowed 0 < nu <= 100", source="option --filling"
+        )
+    return nu
+
+
+def _positive_length(value: str | None, option: str) -> float | None:
+    from qhdesign.errors import InputError
+
+    out = option_quantity(value, "length", option)
+    if out is not None and not 0 < out < 1e-3:
+        raise InputError(
+            f"{value} out of range; allowed 0 < length < 1 mm", source=f"option {option}"
+        )
+    return out
+
+
+def _is_root() -> bool:
+    from qhdesign.tf2d.backend import load
+
+    MPI, _ = load()
+    return MPI.COMM_WORLD.rank == 0
+
+
+def _csv_text(cols, rows) -> str:
+    lines = [",".join(cols)]
+    lines += [",".join(f"{v:.10g}" for v in row) for row in rows]
+    return "\n".join(lines) + "\n"
+
+
+def _print_edge(res, stack_name: str) -> None:
+    from rich.console import Console
+    from rich.table import Table
+
+    console = Console(width=120)
+    console.print(
+        f"[bold]{stack_name}[/bold]: gate edge at x = 0, "
+        f"V_g = {res.settings.gate_voltage_V:+.3f} V; "
+        f"{res.info['dofs']} dofs, {res.info['linear_solver']}"
+    )
+    t = Table(title="wells (top to bottom); edge = where n falls to 1 % of the bulk")
+    for col in (
+        "well",
+        "bulk (cm^-2)",
+        "depletion width (nm)",
+        "healing 10-90 % (nm)",
+        "cut under gate",
+        "edge shift (nm/V)",
+    ):
+        t.add_column(col, justify="left" if col == "well" else "right")
+
+    def nm(v):
+        return "-" if v is None else f"{v * 1e9:.1f}"
+
+    for w in res.wells:
+        t.add_row(
+            w.name,
+            f"{w.bulk_density_m2 * 1e-4:.3g}",
+            nm(w.depletion_width_m),
+            nm(w.healing_length_m),
+            "yes" if w.cut_under_gate else "no",
+            nm(w.edge_shift_m_per_V),
+        )
+    console.print(t)
+    if res.settings.field_T:
+        if res.edge_velocity_m_per_s is not None:
+            console.print(
+                f"B = {res.settings.field_T:g} T, bulk filling {res.bulk_filling:.3f}: the "
+                f"nu = {res.operating_filling:g} edge lies at {res.edge_channel_x_m * 1e9:.1f} nm, "
+                f"in-plane field {res.edge_field_V_per_m:.3g} V/m, drift velocity "
+                f"{res.edge_velocity_m_per_s:.3g} m/s"
+            )
+        else:
+            console.print(
+                f"B = {res.settings.field_T:g} T: bulk filling {res.bulk_filling:.3f} is below "
+                f"the operating filling {res.operating_filling:g}; no such edge channel"
+            )
+        for s in res.strips:
+            console.print(
+                f"  incompressible strip nu = {s['filling']:g}: "
+                f"centre {s['centre_m'] * 1e9:.1f} nm, "
+                f"width {s['width_m'] * 1e9:.1f} nm, field {s['field_V_per_m']:.3g} V/m, "
+                f"v = {s['velocity_m_per_s']:.3g} m/s ({s['gap_kind']})"
+            )
+    if res.area_change_m2_per_V is not None:
+        console.print(f"dA/dV = {res.area_change_m2_per_V * 1e12:.4g} um^2/V for the perimeter")
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("edge")
+    @guarded
+    def edge(
+        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        gate_voltage: str = typer.Option(
+            ..., "--gate-voltage", help="Depletion-gate bias, e.g. -0.8 or '-800 mV'."
+        ),
+        gap: str | None = typer.Option(
+            None, "--gap", help="Split gate of this gap (e.g. '300 nm') instead of one edge."
+        ),
+        field: str | None = typer.Option(
+            None, "--field", help="Perpendicular field (e.g. '4 T'; a bare number is tesla)."
+        ),
+        filling: str | None = typer.Option(
+            None, "--filling", help="Operating filling nu of the reported edge channel (1, 2, 1/3)."
+        ),
+        gap_energy: str | None = typer.Option(
+            None, "--gap-energy", help="Gap of a fractional filling, e.g. '0.5 meV' (adds a strip)."
+        ),
+        perimeter: str | None = typer.Option(
+            None, "--perimeter", help="Gate perimeter for dA/dV, e.g. '4 um'."
+        ),
+        surface: str | None = typer.Option(
+            None, "--surface", help="Exposed surface: frozen (charge) or pinned (Fermi level)."
+        ),
+        gate_barrier: str | None = typer.Option(
+            None,
+            "--gate-barrier",
+            help="Schottky barrier of the gate metal (default: the stack's).",
+        ),
+        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
+        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        csv_out: Path | None = typer.Option(None, "--csv", help="Write n(x) per well as CSV."),
+        plot: Path | None = typer.Option(None, "--plot", help="Write the edge figure (PNG/SVG)."),
+        fields: Path | None = typer.Option(
+            None, "--fields", help="Write the potential field for ParaView (XDMF, lengths in nm)."
+        ),
+    ) -> None:
+        """Depletion edge of STACK_FILE under a gate: width, healing, strips, lever arm."""
+        from qhdesign.errors import InputError
+        from qhdesign.tf2d import EdgeSettings, MeshOptions, SolverOptions
+
+        v = option_quantity(gate_voltage, "voltage", "--gate-voltage")
+        b = _field(field)
+        nu = _filling(filling)
+        if nu is not None and not b:
+            raise InputError(
+                "--filling needs a magnetic field: give --field B with B > 0 T",
+                source="option --field",
+            )
+        e_gap = option_quantity(gap_energy, "energy", "--gap-energy")
+        per = _positive_length(perimeter, "--perimeter")
+        w = _positive_length(gap, "--gap")
+        if not 0.1 <= refine <= 8:
+            raise InputError("refine must lie in [0.1, 8]", source="option --refine")
+        settings = EdgeSettings(v, field_T=b, filling=nu, gap_energy_J=e_gap, perimeter_m=per)
+        stack, section, surf = _load_section(stack_file, surface, gate_barrier)
+        mesh = MeshOptions(refine=refine)
+        opts = SolverOptions(exposed=surf)
+        if w is not None:
+            _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields)
+            return
+        from qhdesign.tf2d import solve_edge
+
+        res = solve_edge(section, settings, mesh, opts)
+        if fields is not None:  # collective: every rank writes its part
+            res.solver.solve(v)
+            res.solver.write_fields(fields)
+        root = _is_root()
+        if root:
+            _print_edge(res, stack.name)
+        if root and json_out is not None:
+            from qhdesign.io import atomic_write_json
+
+            data = {"stack": str(stack_file), "surface": surf, **res.to_dict()}
+            atomic_write_json(json_out, data)
+        if root and csv_out is not None:
+            from qhdesign.io import atomic_write_text
+
+            atomic_write_text(csv_out, _csv_text(*res.profile_table()))
+        if root and plot is not None:
+            from qhdesign.plotting import save_figure, use_agg
+
+            use_agg()
+            from qhdesign.plotting.edge import plot_edge
+
+            save_figure(plot_edge(res), plot)
+        if root:
+            for p in (json_out, csv_out, plot, fields):
+                if p is not None:
+                    typer.echo(f"wrote {p}")
+
+    @app.command("pinchoff")
+    @guarded
+    def pinchoff(
+        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        gap: str = typer.Option(..., "--gap", help="Split-gate gap, e.g. '300 nm'."),
+        v_start: str = typer.Option("0", "--from", help="First gate voltage of the sweep (V)."),
+        v_stop: str = typer.Option("-5", "--to", help="Last gate voltage of the sweep (V)."),
+        v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
+        surface: str | None = typer.Option(
+            None, "--surface", help="Exposed surface: frozen (charge) or pinned (Fermi level)."
+        ),
+        gate_barrier: str | None = typer.Option(
+            None,
+            "--gate-barrier",
+            help="Schottky barrier of the gate metal (default: the stack's).",
+        ),
+        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
+        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        csv_out: Path | None = typer.Option(None, "--csv", help="Write the sweep as CSV."),
+        plot: Path | None = typer.Option(None, "--plot", help="Write the pinch-off figure."),
+    ) -> None:
+        """Centre density of a split-gate constriction vs gate voltage; pinch-off per well."""
+        from qhdesign.errors import InputError
+        from qhdesign.tf2d import MeshOptions, SolverOptions, solve_pinchoff
+
+        w = _positive_length(gap, "--gap")
+        a = option_quantity(v_start, "voltage", "--from")
+        b = option_quantity(v_stop, "voltage", "--to")
+        step = option_quantity(v_step, "voltage", "--step")
+        if not 0.001 <= step <= 1.0:
+            raise InputError("step must lie in [1 mV, 1 V]", source="option --step")
+        if not b < a:
+            raise InputError("--to must be more negative than --from", source="option --to")
+        if not 0.1 <= refine <= 8:
+            raise InputError("refine must lie in [0.1, 8]", source="option --refine")
+        stack, section, surf = _load_section(stack_file, surface, gate_barrier)
+        res = solve_pinchoff(
+            section,
+            w,
+            v_start=a,
+            v_stop=b,
+            v_step=-step,
+            mesh_options=MeshOptions(refine=refine),
+            options=SolverOptions(exposed=surf),
+        )
+        if not _is_root():
+            return
+        typer.echo(f"{stack.name}: split gate, gap {w * 1e9:.0f} nm ({surf} surface)")
+        for name, vp in res.pinchoff_V.items():
+            text = "not pinched in the sweep" if vp is None else f"{vp:+.3f} V"
+            typer.echo(f"  {name}: pinch-off {text}")
+        if json_out is not None:
+            from qhdesign.io import atomic_write_json
+
+            atomic_write_json(
+                json_out, {"stack": str(stack_file), "surface": surf, **res.to_dict()}
+            )
+        if csv_out is not None:
+            import numpy as np
+
+            from qhdesign.io import atomic_write_text
+
+            cols = ["gate_voltage_V"] + [f"{k}_centre_density_cm^-2" for k in res.centre_density_m2]
+            rows = np.column_stack(
+                [res.voltages_V] + [v * 1e-4 for v in res.centre_density_m2.values()]
+            )
+            atomic_write_text(csv_out, _csv_text(cols, rows))
+        if plot is not None:
+            from qhdesign.plotting import save_figure, use_agg
+
+            use_agg()
+            from qhdesign.plotting.edge import plot_pinchoff
+
+            save_figure(plot_pinchoff(res), plot)
+        for p in (json_out, csv_out, plot):
+            if p is not None:
+                typer.echo(f"wrote {p}")
+
+
+def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields):
+    from qhdesign.tf2d import solve_constriction
+
+    res = solve_constriction(section, w, v, mesh, opts)
+    if fields is not None:  # collective: every rank writes its part
+        res.solver.write_fields(fields)
+    if not _is_root():
+        return
+    typer.echo(f"{stack.name}: split gate, gap {w * 1e9:.0f} nm, V_g = {v:+.3f} V")
+    for k in res.centre_density_m2:
+        width = res.channel_width_m[k]
+        typer.echo(
+            f"  {k}: centre density {res.centre_density_m2[k] * 1e-4:.3g} cm^-2, "
+            + ("pinched" if res.pinched[k] else f"channel width {width * 1e9:.1f} nm")
+        )
+    if json_out is not None:
+        from qhdesign.io import atomic_write_json
+
+        atomic_write_json(json_out, {"stack": str(stack.source), **res.to_dict()})
+    if csv_out is not None:
+        import numpy as np
+
+        from qhdesign.io import atomic_write_text
+
+        sol = res.solution
+        cols = ["x_nm"] + [f"{n}_density_cm^-2" for n in sol.sheet_names]
+        atomic_write_text(
+            csv_out, _csv_text(cols, np.column_stack([sol.x_m * 1e9, *(sol.density_m2 * 1e-4)]))
+        )
+    if plot is not None:
+        from qhdesign.plotting import save_figure, use_agg
+
+        use_agg()
+        from qhdesign.plotting.edge import plot_potential_map
+
+        save_figure(plot_potential_map(res.solution, gates_m=res.gates_m), plot)
+    for p in (json_out, csv_out, plot, fields):
+        if p is not None:
+            typer.echo(f"wrote {p}")
