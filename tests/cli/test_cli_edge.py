@@ -1,0 +1,125 @@
+"""CLI of the 2D stage: ``qhdesign edge`` and ``qhdesign pinchoff``.
+
+Checks: documented JSON keys in SI (docs/cli.md), files written, bad input -> one line on
+stderr and exit code 2 (issue 4), and the pinch-off definition (the centre density crosses 1 %
+of the bulk density between the sweep points around the reported voltage; docs/models.md).
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+
+def _one_line_error(result):
+    assert result.exit_code == 2, result.output
+    text = (result.stderr or "").strip()
+    assert text.startswith("error:"), text
+    assert "\n" not in text
+    assert "Traceback" not in text
+    return text
+
+
+def test_edge_writes_documented_outputs(cli_runner, app, screened_path, tmp_path):
+    out = tmp_path / "edge.json"
+    r = cli_runner.invoke(
+        app,
+        [
+            "edge",
+            str(screened_path),
+            "--gate-voltage",
+            "-1.0",
+            "--field",
+            "2 T",
+            "--filling",
+            "1",
+            "--perimeter",
+            "4 um",
+            "--json",
+            str(out),
+            "--csv",
+            str(tmp_path / "edge.csv"),
+            "--plot",
+            str(tmp_path / "edge.png"),
+            "--fields",
+            str(tmp_path / "edge.xdmf"),
+        ],
+    )
+    assert r.exit_code == 0, r.output
+    data = json.loads(out.read_text())
+    assert set(data["wells"]) == {"screen_upper", "primary", "screen_lower"}
+    for w in data["wells"].values():
+        for key in ("depletion_width_m", "healing_length_m", "cut_under_gate", "bulk_density_m2"):
+            assert key in w
+    prim = data["wells"]["primary"]
+    assert prim["cut_under_gate"] is True
+    assert 0 < prim["depletion_width_m"] < 1e-6  # SI: metres
+    for key in ("edge_field_V_per_m", "edge_velocity_m_per_s", "edge_shift_m_per_V"):
+        assert isinstance(data[key], float)
+    # v = E/B (definition, issue 4)
+    assert data["edge_velocity_m_per_s"] == pytest.approx(data["edge_field_V_per_m"] / 2.0)
+    # dA/dV = -P dx/dV (definition)
+    assert data["area_change_m2_per_V"] == pytest.approx(-4e-6 * data["edge_shift_m_per_V"])
+    header = (tmp_path / "edge.csv").read_text().splitlines()[0]
+    assert header.startswith("x_nm,") and "primary_filling" in header
+    assert (tmp_path / "edge.png").stat().st_size > 10_000
+    assert (tmp_path / "edge.xdmf").exists() and (tmp_path / "edge.h5").exists()
+
+
+@pytest.mark.parametrize(
+    ("args", "needle"),
+    [
+        (["--gate-voltage", "-5", "--gap", "200 nm"], "no electrons anywhere"),
+        (["--gate-voltage", "-0.5", "--gap", "5 nm"], "narrower than the mesh"),
+        (["--gate-voltage", "-0.5", "--field", "0", "--filling", "1"], "--field"),
+        (["--gate-voltage", "-25"], "allowed range"),
+    ],
+)
+def test_edge_bad_input_is_one_line_exit_2(cli_runner, app, screened_path, tmp_path, args, needle):
+    out = tmp_path / "never.json"
+    r = cli_runner.invoke(app, ["edge", str(screened_path), *args, "--json", str(out)])
+    assert needle in _one_line_error(r)
+    assert not out.exists()
+
+
+def test_pinchoff_json_and_definition(cli_runner, app, screened_path, tmp_path):
+    out = tmp_path / "pinch.json"
+    r = cli_runner.invoke(
+        app,
+        [
+            "pinchoff",
+            str(screened_path),
+            "--gap",
+            "300 nm",
+            "--from",
+            "0",
+            "--to",
+            "-2",
+            "--step",
+            "0.25",
+            "--refine",
+            "0.5",
+            "--json",
+            str(out),
+        ],
+    )
+    assert r.exit_code == 0, r.output
+    data = json.loads(out.read_text())
+    volts = data["sweep"]["gate_voltage_V"]
+    assert set(data["pinchoff_V"]) == {"screen_upper", "primary", "screen_lower"}
+    found = 0
+    for well, vp in data["pinchoff_V"].items():
+        if vp is None:
+            continue
+        found += 1
+        thr = data["pinchoff_fraction_of_bulk"] * data["bulk_density_m2"][well]
+        dens = data["sweep"]["centre_density_m2"][well]
+        above = max(i for i, v in enumerate(volts) if v >= vp)
+        assert dens[above] >= thr and dens[above + 1] < thr
+    assert found >= 1
+
+
+def test_pinchoff_bad_gap_exit_2(cli_runner, app, screened_path):
+    r = cli_runner.invoke(app, ["pinchoff", str(screened_path), "--gap", "-3 nm"])
+    assert "--gap" in _one_line_error(r)
