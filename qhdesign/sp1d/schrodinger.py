@@ -18,8 +18,9 @@ from __future__ import annotations
 import numpy as np
 from scipy import constants as sc
 from scipy.linalg import eigh_tridiagonal
+from scipy.linalg.lapack import dstebz
 
-__all__ = ["control_widths", "solve_subbands"]
+__all__ = ["control_widths", "count_below", "solve_subbands"]
 
 _HB2_2M0 = sc.hbar**2 / (2.0 * sc.m_e)  # J m^2
 
@@ -32,6 +33,26 @@ def control_widths(z: np.ndarray) -> np.ndarray:
     w[-1] = 0.5 * h[-1]
     w[1:-1] = 0.5 * (h[:-1] + h[1:])
     return w
+
+
+def _matrix(z, potential_J, mass_cell):
+    """Symmetric tridiagonal form (diagonal, off-diagonal, in eV) and the node weights."""
+    h = np.diff(z)
+    w = control_widths(z)[1:-1]
+    c = _HB2_2M0 / (mass_cell * h)  # J m (coupling per cell)
+    # work in eV so LAPACK's absolute tolerances see O(1e-3..1) numbers
+    scale = 1.0 / sc.e
+    diag = (c[:-1] + c[1:]) / w * scale + potential_J[1:-1] * scale
+    off = -c[1:-1] / np.sqrt(w[:-1] * w[1:]) * scale
+    return diag, off, w
+
+
+def count_below(z, potential_J, mass_cell, energy_J: float) -> int:
+    """Number of subbands at or below ``energy_J`` (Sturm count by LAPACK ``stebz``)."""
+    diag, off, _ = _matrix(z, potential_J, mass_cell)
+    lo = float(diag.min() - 2.0 * np.abs(off).max() - 1.0)
+    m, *_ = dstebz(diag, off, 1, lo, energy_J / sc.e, 0, 0, 1.0, "E")
+    return int(m)
 
 
 def solve_subbands(
@@ -63,15 +84,10 @@ def solve_subbands(
     psi : numpy.ndarray
         Shape (count, N+1), m^-1/2, zero at both ends, sum_j w_j psi_j^2 = 1.
     """
-    h = np.diff(z)
     n_int = len(z) - 2
     count = int(min(count, n_int))
-    w = control_widths(z)[1:-1]
-    c = _HB2_2M0 / (mass_cell * h)  # J m (coupling per cell)
-    # work in eV so LAPACK's absolute tolerances see O(1e-3..1) numbers
+    diag, off, w = _matrix(z, potential_J, mass_cell)
     scale = 1.0 / sc.e
-    diag = (c[:-1] + c[1:]) / w * scale + potential_J[1:-1] * scale
-    off = -c[1:-1] / np.sqrt(w[:-1] * w[1:]) * scale
     ev, vec = eigh_tridiagonal(
         diag, off, select="i", select_range=(0, count - 1), check_finite=False, tol=tol_eV
     )

@@ -32,7 +32,7 @@ from ..errors import ConvergenceError, InputError
 from .charge import classical_density, donor_ionized_fraction, subband_dos
 from .device import Device
 from .poisson import PoissonOperator, newton_poisson
-from .schrodinger import control_widths, solve_subbands
+from .schrodinger import control_widths, count_below, solve_subbands
 
 __all__ = ["SolveOptions", "State", "solve_device"]
 
@@ -268,9 +268,11 @@ class _Problem:
     def subbands(self, phi, opts: SolveOptions, count_hint: int):
         sl = slice(self.q0, self.q1 + 1)
         u = self.node_offset[sl] - E * phi[sl]
-        count = max(count_hint, opts.min_subbands)
         n_int = self.q1 - self.q0 - 1
         target = opts.cutoff_kT * self.kT + opts.cutoff_J
+        # how many levels lie below the cutoff (cheap Sturm count), plus one above it
+        needed = count_below(self.qz, u, self.q_mass, target) + 1
+        count = max(needed, opts.min_subbands)
         while True:
             count = min(count, n_int, opts.max_subbands)
             en, psi = solve_subbands(self.qz, u, self.q_mass, count, opts.eigen_tol_eV)
@@ -354,8 +356,13 @@ def solve_device(
         h = dev.h
         saved = prob.cl_left_w, prob.cl_right_w
         prob._set_classical(0.5 * h * semi, 0.5 * h * semi)
+        # (a starting guess only: 0.1 mV is plenty)
         phi, _ = newton_poisson(
-            prob.op, phi, lambda p: prob.total_charge(p, None), charge_scale=prob.charge_scale
+            prob.op,
+            phi,
+            lambda p: prob.total_charge(p, None),
+            charge_scale=prob.charge_scale,
+            tol_V=1e-4,
         )
         prob._set_classical(*saved)
 
