@@ -53,9 +53,10 @@ def fermi_half(eta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     gauss = np.exp(-0.17 * (et + 1.0) ** 2)
     v = et**4 + 50.0 + 33.6 * et * (1.0 - 0.68 * gauss)
     dv = 4.0 * et**3 + 33.6 * (1.0 - 0.68 * gauss) + 33.6 * et * 0.68 * gauss * 0.34 * (et + 1.0)
-    den = np.exp(-et) + c * v ** (-0.375)
-    f = 1.0 / den
-    df = (np.exp(-et) + c * 0.375 * v ** (-1.375) * dv) * f * f
+    x = np.exp(-et)
+    p = v ** (-0.375)
+    f = 1.0 / (x + c * p)
+    df = (x + c * 0.375 * (p / v) * dv) * f * f
     low = eta < -700.0
     if np.any(low):
         f = np.where(low, 0.0, f)

@@ -177,7 +177,7 @@ def gate_response(
     v_to: float,
     step: float,
     *,
-    cool_bias: float = 0.0,
+    cool_bias: float | None = None,
     temperature: float | None = None,
     options: BandsOptions | None = None,
     frozen=None,
@@ -191,7 +191,7 @@ def gate_response(
     v_from, v_to, step
         Sweep from ``v_from`` to ``v_to`` (inclusive when it falls on the step grid), V.
     cool_bias
-        Gate bias while the donors freeze (V).
+        Gate bias while the donors freeze (V); default ``options.cool_bias_V`` (0 V).
     temperature
         Solve temperature (K); default ``stack.temperature``.
     options
