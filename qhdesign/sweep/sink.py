@@ -83,6 +83,7 @@ class CsvSink:
         self._key_col = self.header.index("key")
         self._fh = None
         self._last_sync = 0.0
+        #: keys of the rows found in the file when it was opened (resume)
         self.done_keys: set[str] = set()
         self.torn_bytes = 0
 
@@ -162,7 +163,6 @@ class CsvSink:
         assert self._fh is not None
         self._fh.write(_line(values))
         self._fh.flush()
-        self.done_keys.add(str(values[self._key_col]))
         now = time.monotonic()
         if now - self._last_sync >= FSYNC_INTERVAL_S:
             self._sync()
