@@ -205,7 +205,9 @@ def solve_bands(
     if frozen is None:
         frozen = freeze_out(stack, opts)
     if t >= frozen.temperature_K:
-        st = frozen.state if v == frozen.cool_bias_V else None
+        # at or above the freeze-out temperature the donors stay in equilibrium
+        same = t == frozen.temperature_K and v == frozen.cool_bias_V
+        st = frozen.state if same else None
         if st is None:
             top = top_boundary(stack, v, pinned=True, gated=True)
             dev = frozen.layout.device.with_boundaries(top=top)
