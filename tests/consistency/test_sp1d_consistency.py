@@ -151,6 +151,9 @@ def test_all_temperatures_converge(temperature):
     st = stack(SCREENED)
     r = solve_bands(st, temperature=temperature)
     assert r.converged
+    assert (
+        r.temperature_K == temperature
+    )  # solved at the requested temperature, also above freeze-out
     if temperature <= 0.01:
         assert r.iterations <= 30
     assert abs(r.charge_balance_relative) < 1e-6
