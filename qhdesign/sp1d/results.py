@@ -206,6 +206,9 @@ class BandsResult:
                 "z_m": self.z_m.tolist(),
                 "conduction_band_eV": (self.conduction_band_J / sc.e).tolist(),
                 "electron_density_m3": self.electron_density_m3.tolist(),
+                # one list per subband, same order as "subbands"; normalised to
+                # sum_j w_j psi_j^2 = 1 with the control-volume widths w_j
+                "psi_m-1/2": self.psi.tolist(),
             }
         return out
 
