@@ -76,7 +76,8 @@ class GateLayout:
 
 @dataclass(frozen=True)
 class MeshOptions:
-    """Mesh resolution (all sizes in m; ``refine`` divides every size).
+    """Mesh resolution (all sizes in m; ``refine`` divides every size and the growth rate, so
+    ``refine=2`` halves every cell and gives about four times the dofs).
 
     The defaults are the "default resolution" of docs/performance.md.
     """
@@ -140,10 +141,11 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     for m in marks:
         if all(abs(m - b) > 4 * h_edge for b in [-X, *nodes_at, X]):
             nodes_at.append(m)
+    growth = opts.growth / r  # a refined mesh halves every cell, not only the finest ones
     x = graded_nodes(
         [-X, *nodes_at, X],
         [(e, h_edge) for e in edges + marks],
-        opts.growth,
+        growth,
         opts.h_max_x_m / r,
         min_cells=2,
     )
@@ -153,7 +155,7 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     z_attr = [(float(z_layers[0]), h_edge)] + [(zs, h_sheet) for zs in sheet_z]
     z_attr += [(float(zl), 4 * h_sheet) for zl in z_layers[1:-1]]
     z_attr += [(float(zp), h_sheet) for zp in section.extra_levels_m]
-    z = graded_nodes(fixed, z_attr, opts.growth, opts.h_max_z_m / r, min_cells=1)
+    z = graded_nodes(fixed, z_attr, growth, opts.h_max_z_m / r, min_cells=1)
     mid = 0.5 * (z[1:] + z[:-1])
     layer = np.clip(np.searchsorted(z_layers, mid) - 1, 0, z_layers.size - 2)
     sheet_level = np.array([int(np.argmin(np.abs(z - zs))) for zs in sheet_z], dtype=int)

@@ -319,7 +319,7 @@ class CrossSectionSolver:
             opts |= {
                 "ksp_type": "cg",
                 "pc_type": "gamg",
-                "ksp_rtol": 1e-12,
+                "ksp_rtol": 1e-9,
                 "ksp_atol": 1e-16,
                 "ksp_max_it": 500,
                 "pc_gamg_threshold": 0.02,
@@ -418,8 +418,20 @@ class CrossSectionSolver:
             ok, its = self._newton()
             started = ok
         if not started:
+            # cold start from the far-field column: Newton at the target temperature first
+            # (a backtracking line search usually suffices), the continuation only if it fails
             self._initial_guess(gate_voltage_V)
-            its += self._continuation()
+            self.kT.value = self.kT_target_eV
+            snes = self.problem.solver
+            snes.setTolerances(max_it=min(25, self.options.max_it))
+            try:
+                ok, n_direct = self._newton()
+            finally:
+                snes.setTolerances(max_it=self.options.max_it)
+            its += n_direct
+            if not ok:
+                self._initial_guess(gate_voltage_V)
+                its += self._continuation()
         self._solved = True
         self.gate_voltage_V = float(gate_voltage_V)
         self.timings["solve"] = time.perf_counter() - t0
