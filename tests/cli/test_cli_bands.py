@@ -162,3 +162,22 @@ def test_calibrate_bad_options(cli_runner, app, tmp_path):
     _one_line_error(res, ["--well", "not a well"])
     res = cli_runner.invoke(app, [*base, "--parameter", "surface.barrier", "--well", "well"])
     _one_line_error(res, ["exactly one of --density or --threshold"])
+
+
+def test_calibrate_threshold_round_trip(cli_runner, app, tmp_path):
+    out = tmp_path / "cal.toml"
+    res = cli_runner.invoke(
+        app,
+        [
+            "calibrate", str(GATED), "--parameter", "doping.delta_upper.sheet", "--well", "well",
+            "--threshold", "-0.4", "--out", str(out),
+        ],
+    )  # fmt: skip
+    assert res.exit_code == 0, res.output
+    from qhdesign.sp1d import gate_response
+    from qhdesign.stack import load_stack
+
+    g = gate_response(load_stack(out), -0.3, -0.5, -0.01)
+    # an independent route to the threshold (sweep + interpolation of E1 at E_F) agrees with
+    # the measurement to a small fraction of the 10 mV step (tolerance: 1 mV)
+    assert g.thresholds_V["well"] == pytest.approx(-0.4, abs=1e-3)
