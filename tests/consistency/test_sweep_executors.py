@@ -28,8 +28,12 @@ stage = "qhdesign.sweep.testing:flaky_stage"
 [options]
 not_converged_above = 3.55e-8
 invalid_above = 3.75e-8
-densities = {{ primary = "2e11 cm^-2", screen_upper = "0.6e11 cm^-2", screen_lower = "0.4e11 cm^-2" }}
 {extra}
+
+[options.densities]
+primary = "2e11 cm^-2"
+screen_upper = "0.6e11 cm^-2"
+screen_lower = "0.4e11 cm^-2"
 
 [space]
 kind = "grid"
@@ -159,3 +163,49 @@ def test_resume_into_a_different_sweep_is_refused(tmp_path):
     assert res.returncode == 2
     assert res.stderr.strip().count("\n") == 0
     assert "a.csv: holds rows of a different sweep" in res.stderr
+
+
+MC_SPEC = """
+[sweep]
+name = "QL-2417 tolerance executor check"
+stack = "{stack}"
+stage = "capacitor"
+
+[options.densities]
+primary = "2e11 cm^-2"
+screen_upper = "0.6e11 cm^-2"
+screen_lower = "0.4e11 cm^-2"
+
+[space]
+kind = "montecarlo"
+samples = 40
+seed = 3
+"""
+
+
+@pytest.mark.mpi
+def test_monte_carlo_rows_identical_serial_two_workers_and_mpi(tmp_path):
+    spec = tmp_path / "mc.toml"
+    spec.write_text(MC_SPEC.format(stack=STACK))
+    outs = {}
+    for name, cmd in {
+        "serial": [*QH, "sweep", str(spec), "--workers", "1"],
+        "local2": [*QH, "sweep", str(spec), "--workers", "2", "--chunk", "7"],
+        "mpi2": [
+            str(VENV_BIN / "mpiexec"),
+            "-n",
+            "2",
+            str(VENV_BIN / "qhdesign"),
+            "sweep",
+            str(spec),
+        ],
+    }.items():
+        out = tmp_path / f"{name}.csv"
+        res = run([*cmd, "--out", str(out), "-q"], cwd=tmp_path)
+        assert res.returncode == 0, res.stderr
+        outs[name] = read_rows(out)
+    header, rows = outs["serial"]
+    assert len(rows) == 40
+    assert "tol.ga_rate" in header
+    assert outs["local2"] == outs["serial"]
+    assert outs["mpi2"] == outs["serial"]
