@@ -333,7 +333,13 @@ def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot,
         width = res.channel_width_m[k]
         typer.echo(
             f"  {k}: centre density {res.centre_density_m2[k] * 1e-4:.3g} cm^-2, "
-            + ("pinched" if res.pinched[k] else f"channel width {width * 1e9:.1f} nm")
+            + (
+                "pinched"
+                if res.pinched[k]
+                else "not cut under the gates"
+                if width is None
+                else f"channel width {width * 1e9:.1f} nm"
+            )
         )
     if json_out is not None:
         from qhdesign.io import atomic_write_json

@@ -123,3 +123,30 @@ def test_pinchoff_json_and_definition(cli_runner, app, screened_path, tmp_path):
 def test_pinchoff_bad_gap_exit_2(cli_runner, app, screened_path):
     r = cli_runner.invoke(app, ["pinchoff", str(screened_path), "--gap", "-3 nm"])
     assert "--gap" in _one_line_error(r)
+
+
+def test_edge_split_gate_reports_constriction(cli_runner, app, screened_path, tmp_path):
+    out = tmp_path / "gap.json"
+    r = cli_runner.invoke(
+        app,
+        [
+            "edge",
+            str(screened_path),
+            "--gate-voltage",
+            "-0.8",
+            "--gap",
+            "250 nm",
+            "--refine",
+            "0.5",
+            "--json",
+            str(out),
+        ],
+    )
+    assert r.exit_code == 0, r.output
+    data = json.loads(out.read_text())
+    assert data["gap_m"] == pytest.approx(250e-9)
+    for w in data["wells"].values():
+        # definition (docs/cli.md): pinched <=> centre density below 1 % of the bulk
+        assert w["pinched"] == (w["centre_density_m2"] < 0.01 * w["bulk_density_m2"])
+        if w["channel_width_m"] is not None:
+            assert 0 < w["channel_width_m"] < 1e-6
