@@ -616,4 +616,20 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSe
     except ImportError as exc:  # the 1D stage is a separate issue
         raise InputError(f"the 1D stage is not available ({exc})") from None
     result = solve_bands(stack)
-    return cross_section_from_sheet_model(sheet_model(stack, result), gate_barrier_J=gate_barrier_J)
+    section = cross_section_from_sheet_model(
+        sheet_model(stack, result), gate_barrier_J=gate_barrier_J
+    )
+    # Potential convention: phi = -(U - E_c0(z) + E_c0(surface layer))/e, so that phi = V_g -
+    # Phi_B/e under a gate. The far-field surface potential is the 1D solution's own
+    # -U(0)/e (for a frozen surface it differs from the pinned level by the low-temperature
+    # redistribution); a back gate or a pinned substrate becomes a Dirichlet bottom.
+    z = np.asarray(result.z_m)
+    u = np.asarray(result.conduction_band_J)
+    changes: dict = {"surface_potential_V": float(-u[int(np.argmin(np.abs(z)))] / sc.e)}
+    prof = stack.profile()
+    sub = stack.substrate
+    if sub.kind in ("back_gate", "pinned"):
+        u_bottom = sub.barrier - (sc.e * sub.bias if sub.kind == "back_gate" else 0.0)
+        offset = prof[-1].band_offset - prof[0].band_offset
+        changes |= {"bottom": "gate", "bottom_potential_V": float((offset - u_bottom) / sc.e)}
+    return replace(section, **changes)
