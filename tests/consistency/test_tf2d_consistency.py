@@ -41,6 +41,17 @@ def test_far_field_equals_1d_densities(default_edge, stack_section):
         assert w.far_density_m2 == pytest.approx(w.bulk_density_m2, rel=0.01)  # issue: 1 %
 
 
+@pytest.mark.parametrize(
+    "name", sorted(p.name for p in (ROOT / "stacks").glob("*.toml") if "screened" not in p.name)
+)
+def test_far_field_equals_1d_densities_every_stack(name):
+    section = section_from_stack(load_stack(ROOT / "stacks" / name))
+    res = solve_edge(section, EdgeSettings(-0.6), MeshOptions(refine=0.7))
+    for w in res.wells:
+        if w.bulk_density_m2 > 0:
+            assert w.far_density_m2 == pytest.approx(w.bulk_density_m2, rel=0.01)  # issue: 1 %
+
+
 def test_far_field_equals_1d_densities_hand_built_section():
     res = solve_edge(screened_section(), EdgeSettings(-0.8))
     for w in res.wells:
