@@ -66,7 +66,7 @@ _SURFACE_KEYS: dict[str, Any] = {
     "dielectric_permittivity": "number",
 }
 _SUBSTRATE_KEYS: dict[str, Any] = {
-    "kind": ("deep", "back_gate"),
+    "kind": ("deep", "back_gate", "pinned"),
     "bias": "voltage",
     "barrier": "energy",
 }
@@ -171,7 +171,12 @@ class Surface:
 
 @dataclass(frozen=True)
 class Substrate:
-    """Bottom boundary: ``"deep"`` (zero field below the last layer) or ``"back_gate"``."""
+    """Bottom boundary below the last layer.
+
+    ``"deep"``: zero field. ``"back_gate"``: a conductor at ``bias`` (V) with E_c - E_F =
+    ``barrier`` at zero bias. ``"pinned"``: the Fermi level is pinned at ``barrier`` below E_c
+    (a semi-insulating substrate; the last layer's thickness is the distance to the pinning).
+    """
 
     kind: str = "deep"
     bias: float = 0.0

@@ -273,14 +273,21 @@ def _build_surface(tab: Any, src: str) -> Surface:
 def _build_substrate(tab: Any, src: str) -> Substrate:
     tab = _check_keys(tab, _SUBSTRATE_KEYS, (), "substrate", src)
     kind = _read(tab, "kind", _SUBSTRATE_KEYS["kind"], "substrate", src, "deep")
-    if kind == "deep":
-        for k in ("bias", "barrier"):
-            if k in tab:
-                raise StackError(
-                    'only a back gate has this key; set substrate.kind = "back_gate"',
-                    source=src,
-                    key=f"substrate.{k}",
-                )
+    allowed = {"deep": (), "back_gate": ("bias", "barrier"), "pinned": ("barrier",)}[kind]
+    for k in ("bias", "barrier"):
+        if k in tab and k not in allowed:
+            raise StackError(
+                f'a substrate of kind "{kind}" has no {k}; allowed for it: '
+                f"{', '.join(('kind', *allowed))}",
+                source=src,
+                key=f"substrate.{k}",
+            )
+    if kind == "pinned" and "barrier" not in tab:
+        raise StackError(
+            'a pinned substrate needs its barrier (E_c - E_F at the bottom, e.g. "0.7 eV")',
+            source=src,
+            key="substrate.barrier",
+        )
     bias = _in_range(
         _read(tab, "bias", "voltage", "substrate", src, 0.0), "bias", "substrate.bias", src
     )

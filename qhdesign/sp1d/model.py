@@ -216,6 +216,8 @@ def bottom_boundary(stack) -> Boundary:
     sub = stack.substrate
     if sub.kind == "back_gate":
         return Boundary("dirichlet", energy_J=sub.barrier - sc.e * sub.bias)
+    if sub.kind == "pinned":
+        return Boundary("dirichlet", energy_J=sub.barrier)
     return Boundary("neumann")
 
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 
 import pytest
 from conftest import ROOT, SCREENED
@@ -103,7 +104,10 @@ def test_gate_past_barrier_and_zero_step(cli_runner, app, tmp_path):
 
 def test_absurd_doping_is_refused(cli_runner, app, tmp_path):
     bad = tmp_path / "absurd.toml"
-    bad.write_text(SCREENED.read_text().replace('sheet = "1.6e12 cm^-2"', 'sheet = "1e16 cm^-2"'))
+    text = SCREENED.read_text()
+    absurd = re.sub(r'(\[doping\.delta_upper\]\nsheet = )"[^"]*"', r'\1"1e16 cm^-2"', text)
+    assert absurd != text
+    bad.write_text(absurd)
     res = cli_runner.invoke(app, ["bands", str(bad)])
     _one_line_error(res, ["doping.delta_upper.sheet", "out of range"])
 

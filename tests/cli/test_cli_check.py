@@ -126,7 +126,7 @@ def test_empty_binary_and_huge_files(cli_runner, app, tmp_path):
 
 def test_indirect_barrier_warning_is_printed(cli_runner, app, tmp_path):
     f = tmp_path / "indirect.toml"
-    f.write_text(GOOD.replace('x = 0.31\nthickness = "100 nm"', 'x = 0.6\nthickness = "100 nm"'))
+    f.write_text(GOOD.replace('x = 0.31\nthickness = "300 nm"', 'x = 0.6\nthickness = "300 nm"'))
     res = cli_runner.invoke(app, ["check", str(f)])
     assert res.exit_code == 0
     assert "warning:" in res.stderr and "indirect" in res.stderr

@@ -46,15 +46,17 @@ def test_sheet_doping_is_spread_over_its_layer():
 
 def test_get_and_with_value_paths():
     s = load_stack(SCREENED)
-    assert s.get("layers.primary.thickness") == pytest.approx(26e-9)
+    assert s.get("layers.primary.thickness") == pytest.approx(30e-9)
     assert s.get("surface.barrier") == pytest.approx(0.72 * sc.e)
     assert s.get("layers.barrier_upper.x") == 0.31
-    assert s.get("doping.delta_upper.sheet") == pytest.approx(1.6e16)
-    assert s.get("layers.delta_upper.doping.sheet") == pytest.approx(1.6e16)
+    assert s.get("doping.delta_upper.sheet") == pytest.approx(1.8e16)
+    assert s.get("layers.delta_upper.doping.sheet") == pytest.approx(1.8e16)
     assert s.get("wafer.temperature") == pytest.approx(0.3)
     s2 = s.with_value("layers.setback_upper.thickness", "30 nm")
     assert s2.layer("setback_upper").thickness == pytest.approx(30e-9)
-    assert s.layer("setback_upper").thickness == pytest.approx(28e-9)  # original untouched
+    assert s.layer("setback_upper").thickness == pytest.approx(
+        25e-9
+    )  # original untouched (file: 25 nm)
     s3 = s.with_value("surface.barrier", 0.65 * sc.e)  # SI float
     assert s3.surface.barrier == pytest.approx(0.65 * sc.e, rel=1e-14)
     s4 = s.with_value("doping.spacer_upper.sheet", "1e11 cm^-2")  # adds doping
@@ -84,7 +86,7 @@ def test_bad_paths_and_values_name_the_path(path, value, fragment):
 
 def test_indirect_barrier_warns():
     text = SCREENED.read_text().replace(
-        'x = 0.31\nthickness = "100 nm"', 'x = 0.6\nthickness = "100 nm"'
+        'x = 0.31\nthickness = "300 nm"', 'x = 0.6\nthickness = "300 nm"'
     )
     stack = loads_stack(text, source="w.toml")
     assert any("indirect" in w and "barrier_lower" in w for w in stack.warnings)
