@@ -251,16 +251,18 @@ def analyse_edge(sol: FieldSolution, section: CrossSection, edge_m: float = 0.0)
         # an empty well (bulk 0) counts as cut: there is nothing under the gate either
         cut = gated < EDGE_FRACTION * bulk or bulk <= 0
 
-        def x_at(level_m2: float, energy=energy, s=s, phi=phi) -> float | None:
+        def x_at(level_m2: float, sign: float = 1.0, energy=energy, s=s, phi=phi):
+            # sign -1: an accumulation edge, where n falls from the gate towards the bulk
             target = energy + _inverse_tf(level_m2, s.dos_J_m2, kT) / sc.e
-            return crossing_from_bulk(sol.x_m, phi, target)
+            return crossing_from_bulk(sol.x_m, sign * phi, sign * target)
 
         edge = x_at(EDGE_FRACTION * bulk) if cut and bulk > 0 else None
         heal = None
         base = 0.0 if cut else gated
-        if bulk > base:
-            x10 = x_at(base + 0.1 * (bulk - base))
-            x90 = x_at(base + 0.9 * (bulk - base))
+        if bulk > 0 and abs(bulk - base) > 1e-3 * bulk:
+            sign = 1.0 if bulk > base else -1.0
+            x10 = x_at(base + 0.1 * (bulk - base), sign)
+            x90 = x_at(base + 0.9 * (bulk - base), sign)
             if x10 is not None and x90 is not None:
                 heal = x90 - x10
         out.append(

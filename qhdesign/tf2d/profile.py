@@ -10,7 +10,8 @@ Definitions (docs/models.md, "2D Thomas–Fermi")
 * Depletion width: electronic edge minus the lithographic gate edge (positive when the electrons
   stop short of the gate).
 * Healing length: distance between the points where n - n_gate reaches 10 % and 90 % of
-  n_bulk - n_gate, with n_gate the density deep under the gate (0 for a cut well).
+  n_bulk - n_gate, with n_gate the density deep under the gate (0 for a cut well); for an
+  accumulating gate (n_gate > n_bulk) the same fractions of the fall.
 * Cut under the gate: the density deep under the gate (at the domain end) is below
   ``EDGE_FRACTION`` of the bulk.
 * Local filling nu(x) = n(x) h / (e B).
