@@ -164,7 +164,7 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     return StructuredGrid(x, z, layer, sheet_level, layout)
 
 
-def _gmsh_model(grid: StructuredGrid, section: CrossSection):
+def _gmsh_model(grid: StructuredGrid, section: CrossSection, charged_levels=None):
     """Create the discrete gmsh model of the grid (rank 0). Returns the gmsh module."""
     import gmsh
 
@@ -238,6 +238,9 @@ def _gmsh_model(grid: StructuredGrid, section: CrossSection):
     add_curve(sides, TAGS["sides"], "sides")
     sheet_levels = set(int(k) for k in grid.sheet_level)
     inner = [k for k in range(1, nz - 1) if k not in sheet_levels]
+    if charged_levels is not None:  # only levels that carry frozen charge need a tag
+        keep = {int(k) for k in charged_levels}
+        inner = [k for k in inner if k in keep]
     if inner:
         add_curve(np.concatenate([row_segments(k) for k in inner]), TAGS["levels"], "levels")
     for i, k in enumerate(grid.sheet_level):
@@ -245,8 +248,11 @@ def _gmsh_model(grid: StructuredGrid, section: CrossSection):
     return gmsh
 
 
-def build_mesh(grid: StructuredGrid, section: CrossSection, comm):
+def build_mesh(grid: StructuredGrid, section: CrossSection, comm, charged_levels=None):
     """Mesh the grid with gmsh on rank 0 and distribute it.
+
+    ``charged_levels`` (level indices) limits the ``levels`` facet tag to the levels that carry
+    frozen charge; by default every interior level is tagged.
 
     Returns
     -------
@@ -268,7 +274,7 @@ def build_mesh(grid: StructuredGrid, section: CrossSection, comm):
                 gmsh.initialize(interruptible=False)
                 started = True
             gmsh.option.setNumber("General.Terminal", 0)
-            _gmsh_model(grid, section)
+            _gmsh_model(grid, section, charged_levels)
             data = dolfinx.io.gmsh.model_to_mesh(
                 gmsh.model, comm, 0, gdim=2, partitioner=partitioner
             )

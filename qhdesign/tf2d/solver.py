@@ -173,7 +173,8 @@ class CrossSectionSolver:
         self.grid: StructuredGrid = build_grid(section, layout, self.mesh_options)
         eps_int = np.asarray(section.layer_permittivity)[self.grid.layer_of_interval]
         self.calibration = calibrate(section, self.grid.z_m, eps_int, exposed=self.options.exposed)
-        data = build_mesh(self.grid, section, self.comm)
+        charged = np.nonzero(self.calibration["line_charge_C_m2"])[0]
+        data = build_mesh(self.grid, section, self.comm, charged_levels=charged)
         self.timings["mesh"] = time.perf_counter() - t0
         self.mesh, self.cell_tags, self.facet_tags = data.mesh, data.cell_tags, data.facet_tags
 
