@@ -66,7 +66,7 @@ class SolverOptions:
 
     exposed: str = "frozen"
     linear_solver: str = "auto"
-    direct_max_dofs: int = 120_000
+    direct_max_dofs: int = 300_000
     kT_start_eV: float = 2.0e-3
     kT_factor: float = 10.0
     rtol: float = 1e-10
