@@ -32,6 +32,24 @@ def _mpi_rank() -> int:
     return 0
 
 
+def _workers_silent(func):
+    """Under mpiexec, only rank 0 reports a user error; other ranks exit 2 without a word."""
+    import functools
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        from qhdesign.errors import QHDesignError
+
+        try:
+            return func(*args, **kwargs)
+        except QHDesignError:
+            if _mpi_rank() > 0:
+                raise typer.Exit(2) from None
+            raise
+
+    return wrapper
+
+
 def _parse_option_pairs(pairs: list[str] | None, option: str) -> dict:
     from qhdesign.errors import InputError
 
@@ -177,6 +195,7 @@ def _finish(summary, plan, out: Path, quiet: bool) -> None:
 def register(app: typer.Typer) -> None:
     @app.command("sweep")
     @guarded
+    @_workers_silent
     def sweep(
         spec: Path = typer.Argument(
             ..., help="Sweep spec TOML (docs/sweeps.md), or a stack TOML with --param."
@@ -254,6 +273,7 @@ def register(app: typer.Typer) -> None:
 
     @app.command("tolerance")
     @guarded
+    @_workers_silent
     def tolerance(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file (the nominal design)."),
         samples: int = typer.Option(1000, "--samples", help="Monte Carlo samples (wafers)."),

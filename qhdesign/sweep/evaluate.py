@@ -104,6 +104,21 @@ def evaluate_chunk(
     return [(i, *evaluate_design(job, values)) for i, values in chunk]
 
 
+def warm_stage(name: str) -> bool:
+    """Import a stage's modules in a worker before the first design arrives (start-up overlap)."""
+    import importlib
+
+    from .stages import _PROBES, get_stage
+
+    get_stage(name)
+    if name in _PROBES:
+        try:
+            importlib.import_module(_PROBES[name][0])
+        except ImportError:
+            return False
+    return True
+
+
 def noop_chunk(job: Job, chunk: Sequence[tuple[int, Mapping[str, float]]]) -> list[tuple]:
     """Return at once (benchmarks measure executor overhead per task with it)."""
     return [(i, None, "ok", "", 0.0) for i, _ in chunk]

@@ -32,7 +32,7 @@ from pathlib import Path
 
 from qhdesign.errors import InputError
 
-from .evaluate import STATUSES, Job, design_key, evaluate_chunk, evaluate_design
+from .evaluate import STATUSES, Job, design_key, evaluate_chunk, evaluate_design, warm_stage
 from .sink import CsvSink
 
 __all__ = [
@@ -269,7 +269,12 @@ def run_sweep(
 
 def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> SweepSummary:
     t_start = time.perf_counter()
+    warming = []
+    if kind != "serial":  # workers import the stage while this process probes the nominal design
+        warming = [ex.submit(warm_stage, plan.stage) for _ in range(nworkers)]
     nominal, status, error, t_nominal = probe(plan)
+    for fut in warming:
+        fut.result()
     if plan.outputs is not None:
         outputs = list(plan.outputs)
         if nominal is not None:
