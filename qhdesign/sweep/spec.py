@@ -34,6 +34,7 @@ MAX_DESIGNS = 10_000_000
 _SWEEP_KEYS = ("name", "stack", "stage", "outputs")
 _TOP_KEYS = ("sweep", "options", "space", "criteria")
 _TOL_KEYS = (
+    "doping_cells",
     "thickness",
     "layer_jitter",
     "al_fraction",
@@ -322,9 +323,26 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
     if kind == "montecarlo":
         samples = _int(tab, "samples", "space", source, 1, MAX_DESIGNS)
         seed = _int(tab, "seed", "space", source, 0, 2**63 - 1)
-        plan = parse_tolerance(tab.get("tolerance", {}), source)
-        space = GrowthMonteCarlo.from_stack(stack, plan, samples, seed)
-        sig = {"kind": kind, "samples": samples, "seed": seed, "tolerance": plan.__dict__}
+        tol = tab.get("tolerance", {})
+        plan = parse_tolerance(tol, source)
+        cells = tol.get("doping_cells", {}) if isinstance(tol, dict) else {}
+        if not isinstance(cells, dict):
+            raise InputError(
+                'must be a table {layer = "cell"}',
+                source=source,
+                key="space.tolerance.doping_cells",
+            )
+        try:
+            space = GrowthMonteCarlo.from_stack(stack, plan, samples, seed, cells)
+        except InputError as exc:
+            raise InputError(exc.message, source=source, key=f"space.{exc.key}") from None
+        sig = {
+            "kind": kind,
+            "samples": samples,
+            "seed": seed,
+            "tolerance": plan.__dict__,
+            "doping_cells": cells,
+        }
         return space, sig
     params = tab.get("parameters")
     if not isinstance(params, dict) or not params:
@@ -398,6 +416,8 @@ def parse_tolerance(tab: Any, source: str) -> TolerancePlan:
     kw: dict[str, float] = {}
     for k, v in tab.items():
         key = f"space.tolerance.{k}"
+        if k == "doping_cells":
+            continue  # layer -> cell map, used by GrowthMonteCarlo.from_stack
         if k not in _TOL_KEYS:
             raise InputError(
                 f"unknown tolerance; allowed: {', '.join(_TOL_KEYS)}", source=source, key=key

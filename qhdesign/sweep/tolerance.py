@@ -9,9 +9,12 @@ Growth errors are modelled as they arise, not as independent noise on every numb
   and the Al fraction error follows from the two rates.
 * **Layer jitter.** A smaller independent relative thickness error per layer (shutter timing,
   rate drift within the run): thickness scales by ``1 + j_layer``.
-* **Doping cells.** One relative calibration error per dopant cell (one cell per donor species),
-  applied to every layer that cell dopes. A sheet (delta) doping is flux x time, so it scales by
-  ``1 + e_cell``; a volume doping is flux / growth rate, so it scales by ``(1 + e_cell) / g``.
+* **Doping cells.** One relative calibration error per dopant cell, applied to every layer that
+  cell dopes. By default every doped layer comes from one Si cell (the stack's ``donor`` key is
+  the ionisation model of the same Si, not a separate cell); ``doping_cells`` maps layers to
+  named cells when a machine has more than one. A sheet (delta) doping is flux x time, so it
+  scales by ``1 + e_cell``; a volume doping is flux / growth rate, so it scales by
+  ``(1 + e_cell) / g``.
 * **Surface barrier.** An additive spread of the pinned surface barrier (surface preparation).
 
 The user states the tolerances as the grower quotes them (1-sigma, "common practice" defaults):
@@ -140,14 +143,36 @@ class GrowthMonteCarlo:
     cells: tuple[str, ...] = field(default=())
 
     @classmethod
-    def from_stack(cls, stack, plan: TolerancePlan, samples: int, seed: int) -> GrowthMonteCarlo:
+    def from_stack(
+        cls,
+        stack,
+        plan: TolerancePlan,
+        samples: int,
+        seed: int,
+        doping_cells: Mapping[str, str] | None = None,
+    ) -> GrowthMonteCarlo:
+        """The Monte Carlo of ``stack``; ``doping_cells`` maps doped layer names to cell names
+        (default: every doped layer from one cell called ``si``)."""
+        doping_cells = dict(doping_cells or {})
+        names = [layer.name for layer in stack.layers]
+        for lname, cell in doping_cells.items():
+            if lname not in names or stack.layer(lname).doping is None:
+                raise InputError(
+                    f"'{lname}' is not a doped layer of the stack",
+                    key=f"tolerance.doping_cells.{lname}",
+                )
+            if not str(cell).isidentifier():
+                raise InputError(
+                    f"cell name {cell!r} must be a plain name (letters, digits, _)",
+                    key=f"tolerance.doping_cells.{lname}",
+                )
         infos = []
         cells: list[str] = []
         for layer in stack.layers:
             dop = layer.doping
             donor = None
             if dop is not None:
-                donor = str(getattr(dop, "donor", None) or "donor")
+                donor = str(doping_cells.get(layer.name, "si"))
                 if donor not in cells:
                     cells.append(donor)
             infos.append(

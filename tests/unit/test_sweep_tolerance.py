@@ -59,7 +59,7 @@ def test_gaas_layers_correlate_through_the_ga_rate(mc_data):
     rho = sg2 / (sg2 + sj2)
     assert math.isclose(rho, 1 - (0.5 / 1.5) ** 2, rel_tol=1e-12)
     assert abs(np.corrcoef(a, b)[0, 1] - rho) < _corr_tol(rho, N)
-    # 1-sigma of a GaAs layer thickness is the quoted 1.5 %; sample std within 5 SE (SE = s/sqrt(2n))
+    # 1-sigma of a GaAs layer is the quoted 1.5 %; sample std within 5 SE (SE = s/sqrt(2n))
     assert abs(a.std() - 0.015) < 5 * 0.015 / math.sqrt(2 * N)
 
 
@@ -90,9 +90,9 @@ def test_doping_cells_and_surface_barrier(mc_data):
     stack, _, mc, data = mc_data
     up = data["layers.delta_upper.doping.sheet"] / stack.layer("delta_upper").doping.density
     lo = data["layers.delta_lower.doping.sheet"] / stack.layer("delta_lower").doping.density
-    # both delta layers use the one "dx" cell: identical relative error (sheet = flux x time)
+    # both delta layers come from the one Si cell: identical relative error (sheet = flux x time)
     np.testing.assert_allclose(up, lo, rtol=1e-13)
-    assert mc.cells == ("dx",)
+    assert mc.cells == ("si",)
     assert abs((up - 1).std() - 0.07) < 5 * 0.07 / math.sqrt(2 * N)
     b = data["surface.barrier"] / electron_volt
     assert abs(b.std() - 0.1) < 5 * 0.1 / math.sqrt(2 * N)
@@ -102,18 +102,21 @@ def test_doping_cells_and_surface_barrier(mc_data):
 def test_volume_doping_scales_with_cell_over_growth_rate(mc_data):
     base = mc_data[0]
     stack = base.with_value("layers.barrier_lower.doping.volume", "1e17 cm^-3")
-    lay = stack.layer("barrier_lower")
-    mc = GrowthMonteCarlo.from_stack(stack, TolerancePlan(), 3, seed=5)
-    assert mc.cells == ("dx", "shallow")
+    mc = GrowthMonteCarlo.from_stack(
+        stack, TolerancePlan(), 3, seed=5, doping_cells={"barrier_lower": "si2"}
+    )
+    assert mc.cells == ("si", "si2")
     errs = next(iter(mc))
     out = mc.overrides(errs)
     g = 1 + 0.69 * errs["tol.ga_rate"] + 0.31 * errs["tol.al_rate"]
-    # analytic: volume density = flux / growth rate, own (shallow) cell
-    expect = 1e23 * (1 + errs["tol.doping.shallow"]) / g
+    # analytic: volume density = flux / growth rate, from its own cell
+    expect = 1e23 * (1 + errs["tol.doping.si2"]) / g
     assert math.isclose(out["layers.barrier_lower.doping.volume"], expect, rel_tol=1e-14)
-    # the sheet-doped delta layers keep the dx cell: flux x time, no growth-rate factor
+    # the sheet-doped delta layers keep the default cell: flux x time, no growth-rate factor
     up = out["layers.delta_upper.doping.sheet"] / stack.layer("delta_upper").doping.density
-    assert math.isclose(up, 1 + errs["tol.doping.dx"], rel_tol=1e-14)
+    assert math.isclose(up, 1 + errs["tol.doping.si"], rel_tol=1e-14)
+    with pytest.raises(InputError, match=r"tolerance\.doping_cells\.cap"):
+        GrowthMonteCarlo.from_stack(stack, TolerancePlan(), 3, 5, doping_cells={"cap": "x"})
 
 
 def test_each_sample_is_reproducible_alone(mc_data):
@@ -124,9 +127,9 @@ def test_each_sample_is_reproducible_alone(mc_data):
 
 
 def test_inconsistent_tolerances_name_the_key():
-    with pytest.raises(InputError, match="tolerance.layer_jitter"):
+    with pytest.raises(InputError, match=r"tolerance\.layer_jitter"):
         TolerancePlan(thickness=0.01, layer_jitter=0.02)
-    with pytest.raises(InputError, match="tolerance.al_fraction"):
+    with pytest.raises(InputError, match=r"tolerance\.al_fraction"):
         TolerancePlan(al_fraction=0.001)
 
 
