@@ -90,6 +90,13 @@ class CsvSink:
     # ------------------------------------------------------------------ open
     def open(self) -> CsvSink:
         side = sidecar_path(self.path)
+        if self.path.is_dir():
+            raise InputError("is a folder; --out needs a CSV file name", source=str(self.path))
+        if self.path.suffix.lower() not in (".csv", ".txt", ""):
+            raise InputError(
+                f"has suffix '{self.path.suffix}'; sweep results are CSV (use a .csv name)",
+                source=str(self.path),
+            )
         if self.path.exists() and self.path.stat().st_size > 0:
             if side.exists():
                 try:

@@ -1,0 +1,78 @@
+"""Design-window plots: the infeasible part is hatched, failed designs are marked."""
+
+from __future__ import annotations
+
+import matplotlib
+import pytest
+from conftest import SCREENED
+
+from qhdesign.errors import InputError
+from qhdesign.plotting.sweep import feasible_mask, plot_sweep_table
+from qhdesign.sweep.runner import run_sweep
+from qhdesign.sweep.spec import build_plan
+from qhdesign.sweep.table import read_sweep_csv
+
+matplotlib.use("Agg")
+
+
+@pytest.fixture(scope="module")
+def table(tmp_path_factory):
+    raw = {
+        "sweep": {"stack": str(SCREENED), "stage": "qhdesign.sweep.testing:flaky_stage"},
+        "options": {"not_converged_above": 3.75e-8},
+        "space": {
+            "kind": "grid",
+            "parameters": {
+                "layers.setback_upper.thickness": {"from": "20 nm", "to": "40 nm", "steps": 9},
+                "layers.spacer_upper.thickness": {"from": "16 nm", "to": "40 nm", "steps": 7},
+            },
+        },
+        "criteria": {"dn_dV_primary_cm^-2/V": {"min": 2.7e10}},
+    }
+    out = tmp_path_factory.mktemp("plot") / "flaky.csv"
+    run_sweep(build_plan(raw, source="t.toml"), out, executor="serial")
+    return read_sweep_csv(out)
+
+
+def _hatched(ax) -> list[str]:
+    """Hatch patterns of the filled contour sets drawn on ``ax``."""
+    return [h for c in ax.collections for h in (getattr(c, "hatches", None) or []) if h]
+
+
+def test_feasible_mask_combines_status_and_criteria(table):
+    ok = table.ok
+    v = table.data["dn_dV_primary_cm^-2/V"]
+    mask = feasible_mask(table, {"dn_dV_primary_cm^-2/V": (2.7e10, float("inf"))})
+    assert (mask == (ok & (v >= 2.7e10))).all()
+    assert mask.any() and (~mask & ok).any() and (~ok).any()
+
+
+def test_map_hatches_infeasible_and_failed(table):
+    fig = plot_sweep_table(
+        table,
+        "layers.setback_upper.thickness",
+        "layers.spacer_upper.thickness",
+        ["dn_dV_primary_cm^-2/V"],
+        contours=[("dn_dV_primary_cm^-2/V", 3e10)],
+    )
+    ax = fig.axes[0]
+    hatches = _hatched(ax)
+    assert "////" in hatches  # criterion violated somewhere
+    assert "xx" in hatches  # failed (not converged) designs
+    assert ax.get_xlabel() == "layers.setback_upper.thickness_nm"
+    assert fig.axes[1].get_ylabel() == "dn_dV_primary_cm^-2/V"  # colour bar
+    assert any(line.get_label() == "failed design" for line in ax.lines)
+
+
+def test_line_and_histograms(table):
+    fig = plot_sweep_table(table, "layers.setback_upper.thickness", None, ["primary_share"])
+    assert fig.axes[0].get_xlabel() == "layers.setback_upper.thickness_nm"
+    fig = plot_sweep_table(table, None, None, ["depth_primary_nm", "primary_share"])
+    assert len([a for a in fig.axes if a.get_visible()]) == 2
+
+
+def test_bad_plot_requests(table):
+    with pytest.raises(InputError, match="--y needs --x"):
+        plot_sweep_table(table, None, "layers.spacer_upper.thickness")
+    with pytest.raises(InputError, match=r"no parameter 'layers\.nope'"):
+        plot_sweep_table(table, "layers.nope", "layers.spacer_upper.thickness")
