@@ -119,12 +119,18 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
     stage = sweep.get("stage")
     if not isinstance(stage, str) or not stage:
         raise err('missing or not a string; e.g. stage = "capacitor"', key="sweep.stage")
-    from .stages import get_stage
+    from .stages import STAGES, available_stages, get_stage
 
     try:
         get_stage(stage)
     except InputError as exc:
         raise err(exc.message, key="sweep.stage") from None
+    if stage in STAGES and stage not in available_stages():
+        raise err(
+            f"stage '{stage}' is not available in this installation yet; available: "
+            f"{', '.join(available_stages())}",
+            key="sweep.stage",
+        )
     if stack is None:
         stack_path = sweep.get("stack")
         if not isinstance(stack_path, str):

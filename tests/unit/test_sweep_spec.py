@@ -172,6 +172,7 @@ def test_joint_corner_is_checked_before_evaluation():
     [
         ({"stage": "nonsense"}, "key 'sweep.stage': unknown stage 'nonsense'; allowed: capacitor"),
         ({"stage": "no.such.module:fn"}, "key 'sweep.stage': cannot import plug-in stage"),
+        ({"stage": "qhdesign.sweep.testing:nothing"}, "cannot import plug-in stage"),
         ({"outputs": []}, "key 'sweep.outputs'"),
         ({"stack": "missing.toml"}, "missing.toml: file not found"),
     ],
@@ -188,7 +189,7 @@ def test_unknown_top_table_and_criteria():
     raw = spec({"kind": "grid", "parameters": {"layers.primary.thickness": ["20 nm"]}})
     with pytest.raises(InputError, match="key 'sweeps': unknown table"):
         build_plan({**raw, "sweeps": {}}, source="bad.toml")
-    with pytest.raises(InputError, match="key 'criteria.x': min 2 exceeds max 1"):
+    with pytest.raises(InputError, match=r"key 'criteria\.x': min 2 exceeds max 1"):
         build_plan({**raw, "criteria": {"x": {"min": 2, "max": 1}}}, source="bad.toml")
 
 
