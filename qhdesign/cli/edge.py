@@ -29,12 +29,12 @@ def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | Non
             f"'{surface}' is not a surface model; allowed: frozen, pinned",
             source="option --surface",
         )
+    section = section_from_stack(stack, gate_barrier_J=barrier)
     if surface is None:
-        surf = stack.surface
-        surface = "frozen" if surf.kind == "exposed" and surf.charge == "frozen" else "pinned"
+        surface = section.surface_mode  # frozen for an exposed surface with frozen charge
     if stack.surface.kind != "exposed":
         surface = "pinned"  # a stack with a global top gate: its metal is a Dirichlet surface
-    return stack, section_from_stack(stack, gate_barrier_J=barrier), surface
+    return stack, section, surface
 
 
 def _field(value: str | None) -> float | None:

@@ -355,6 +355,9 @@ def solve_edge(
             "mesh_s": solver.timings.get("mesh"),
             "half_width_m": float(sol.x_m[-1]),
             "neutrality_correction_C_m2": float(solver.calibration["neutrality_correction_C_m2"]),
+            "surface_charge_correction_C_m2": float(
+                solver.calibration["surface_charge_correction_C_m2"]
+            ),
         },
     )
     if settings.perimeter_m is not None and result["edge_shift_m_per_V"] is not None:
@@ -628,6 +631,15 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSe
     z = np.asarray(result.z_m)
     u = np.asarray(result.conduction_band_J)
     changes: dict = {"surface_potential_V": float(-u[int(np.argmin(np.abs(z)))] / sc.e)}
+    # Electrons outside the well layers (wavefunction tails, classical electrons) are not in any
+    # sheet: freeze them where the 1D solution has them, so the column carries every charge.
+    n_node = np.asarray(getattr(result, "electron_density_m3", np.zeros(0)), dtype=float)
+    zc = np.asarray(section.charge_z_m)
+    if n_node.size == z.size and z.size == zc.size + 1:
+        n_cell = 0.5 * (n_node[1:] + n_node[:-1])
+        for w in result.wells:
+            n_cell[(zc >= w.z_top_m) & (zc <= w.z_bottom_m)] = 0.0
+        changes["charge_C_m3"] = np.asarray(section.charge_C_m3) - sc.e * n_cell
     prof = stack.profile()
     sub = stack.substrate
     if sub.kind in ("back_gate", "pinned"):

@@ -96,6 +96,8 @@ class CrossSection:
         Schottky barrier Phi_B of the gate metal (J): phi = V_g - Phi_B/e under a gate.
     bottom
         ``"zero_field"`` or ``"gate"`` (Dirichlet at ``bottom_potential_V``).
+    surface_mode
+        Default treatment of the exposed surface: ``"frozen"`` or ``"pinned"``.
     extra_levels_m
         Depths that must be mesh lines (probe lines for tests), m.
     """
@@ -112,6 +114,7 @@ class CrossSection:
     bottom: str = "zero_field"
     bottom_potential_V: float = 0.0
     extra_levels_m: tuple[float, ...] = ()
+    surface_mode: str = "frozen"
 
     def __post_init__(self):
         z = np.asarray(self.layer_z_m, dtype=float)
@@ -120,6 +123,8 @@ class CrossSection:
             raise InputError("layer boundaries must increase", key="layer_z_m")
         if eps.shape != (z.size - 1,) or np.any(eps <= 0):
             raise InputError("need one positive permittivity per layer", key="layer_permittivity")
+        if self.surface_mode not in ("frozen", "pinned"):
+            raise InputError("surface_mode must be 'frozen' or 'pinned'", key="surface_mode")
         if self.bottom not in ("zero_field", "gate"):
             raise InputError("bottom must be 'zero_field' or 'gate'", key="bottom")
         if not self.temperature_K > 0:
@@ -154,7 +159,11 @@ def cross_section_from_sheet_model(model, *, gate_barrier_J: float | None = None
         for s in model.sheets
     )
     barrier = float(model.surface_barrier_J)
+    frozen = (
+        model.surface_kind == "exposed" and getattr(model, "surface_charge_mode", "") == "frozen"
+    )
     return CrossSection(
+        surface_mode="frozen" if frozen else "pinned",
         layer_z_m=np.asarray(model.layer_z_m, dtype=float),
         layer_permittivity=np.asarray(model.layer_permittivity, dtype=float),
         sheets=sheets,
@@ -298,8 +307,9 @@ def calibrate(
     dict
         ``energy_eV`` (E_w/e per sheet), ``line_charge_C_m2`` (frozen charge per level, without
         sheets and without the surface charge, with the neutrality correction on the bottom
-        level), ``surface_charge_C_m2``, ``neutrality_correction_C_m2``, ``phi_V`` (far-field
-        potential per level), ``sheet_level`` (level index of each sheet).
+        level), ``surface_charge_C_m2``, ``neutrality_correction_C_m2``,
+        ``surface_charge_correction_C_m2`` (frozen surface over a bottom contact), ``phi_V``
+        (far-field potential per level), ``sheet_level`` (level index of each sheet).
     """
     z = np.asarray(levels_m, dtype=float)
     kT = sc.k * section.temperature_K
@@ -326,6 +336,27 @@ def calibrate(
         q[-1] += correction
         q_fixed = q_fixed.copy()
         q_fixed[-1] += correction
+    surface_correction = 0.0
+    if exposed == "frozen" and section.bottom == "gate":
+        # Both boundary potentials are known from the 1D solution (the far-field surface
+        # potential and the bottom contact), so the frozen surface charge is fixed by them; the
+        # difference from the sheet model's value (charge-model and discretisation differences
+        # between the stages) is reported. Without it the whole mismatch would shift the far-field
+        # surface potential against the gate.
+        phi_d = solve_column(
+            z,
+            eps_intervals,
+            q,
+            top="dirichlet",
+            top_potential_V=section.surface_potential_V,
+            bottom="gate",
+            bottom_potential_V=section.bottom_potential_V,
+        )
+        # Gauss at the surface with zero field above: displacement below = charge on level 0
+        d0 = -sc.epsilon_0 * eps_intervals[0] * (phi_d[1] - phi_d[0]) / (z[1] - z[0])
+        needed = d0 - q[0]
+        surface_correction = needed - sigma
+        sigma = needed
     q[0] += sigma
     phi = solve_column(
         z,
@@ -352,6 +383,7 @@ def calibrate(
         "line_charge_C_m2": q_fixed,
         "surface_charge_C_m2": sigma,
         "neutrality_correction_C_m2": correction,
+        "surface_charge_correction_C_m2": surface_correction,
         "phi_V": phi,
         "sheet_level": np.array(idx, dtype=int),
     }

@@ -53,7 +53,8 @@ class SolverOptions:
     Attributes
     ----------
     exposed
-        ``"frozen"`` (frozen surface charge on the exposed surface) or ``"pinned"``.
+        ``"frozen"`` (frozen surface charge on the exposed surface), ``"pinned"``, or None for
+        the cross-section's own ``surface_mode``.
     linear_solver
         ``"auto"`` (MUMPS LU below ``direct_max_dofs``, CG + GAMG above), ``"lu"``, ``"gamg"``.
     kT_start_eV, kT_factor
@@ -64,7 +65,7 @@ class SolverOptions:
         Residual (e/nm) below which a stalled line search still counts as converged (round-off).
     """
 
-    exposed: str = "frozen"
+    exposed: str | None = None
     linear_solver: str = "auto"
     direct_max_dofs: int = 300_000
     kT_start_eV: float = 2.0e-3
@@ -162,6 +163,10 @@ class CrossSectionSolver:
         self.layout = layout
         self.mesh_options = mesh_options or MeshOptions()
         self.options = options or SolverOptions()
+        if self.options.exposed is None:
+            from dataclasses import replace
+
+            self.options = replace(self.options, exposed=section.surface_mode)
         if self.options.exposed not in ("frozen", "pinned"):
             raise InputError("exposed surface must be 'frozen' or 'pinned'", key="exposed")
         self.comm = comm if comm is not None else MPI.COMM_WORLD
