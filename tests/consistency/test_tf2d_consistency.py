@@ -69,6 +69,21 @@ def test_edge_moves_less_than_a_nanometre_on_a_twice_finer_mesh(default_edge, st
     assert checked >= 1
 
 
+def test_under_a_wide_gate_at_zero_bias_the_column_equals_the_1d_gated_solve(stack_section):
+    # The 1D gate sweep (frozen donors, a metal gate with the surface barrier on the surface) is
+    # the reference for the column deep under the gate; at 0 V the Thomas–Fermi sheets need no
+    # response model, so the two must agree like the far field (issue 4: 1 %).
+    from qhdesign.sp1d import gate_response
+    from qhdesign.tf2d import CrossSectionSolver, GateLayout
+
+    stack = load_stack(ROOT / "stacks" / "ql2417_screened.toml")
+    ref = gate_response(stack, 0.0, -0.1, 0.1)
+    assert ref.voltages_V[0] == 0.0
+    sol = CrossSectionSolver(stack_section, GateLayout.single_edge()).solve(0.0)
+    for i, name in enumerate(sol.sheet_names):
+        assert sol.density_m2[i, 0] == pytest.approx(ref.density(name)[0], rel=0.01), name
+
+
 MPI_SCRIPT = textwrap.dedent(
     """
     import sys
