@@ -134,7 +134,11 @@ def _crit_text(name: str, bounds: tuple[float, float]) -> str:
 
 
 def line_plot(table, x: str, outputs: Sequence[str], criteria=None, ax=None):
-    """Outputs against one swept parameter; infeasible designs marked, failed ones crossed."""
+    """Outputs against one swept parameter; infeasible designs circled, failed ones dashed.
+
+    When other parameters vary too (a grid), one line is drawn per combination of their values
+    (up to 10; beyond that the designs are shown as points).
+    """
     plt = _plt()
     if ax is None:
         fig, ax = plt.subplots(figsize=(6.4, 4.2), layout="constrained")
@@ -142,28 +146,43 @@ def line_plot(table, x: str, outputs: Sequence[str], criteria=None, ax=None):
         fig = ax.figure
     xc = table.resolve(x, "parameter")
     xs = table.data[xc]
-    order = np.argsort(xs, kind="stable")
+    others = [
+        p
+        for p in table.parameters
+        if p != xc and table.data[p].dtype != object and len(set(table.data[p])) > 1
+    ]
+    groups: dict[tuple, np.ndarray] = {}
+    keys = list(zip(*(table.data[p] for p in others), strict=True)) if others else [()] * len(xs)
+    for i, k in enumerate(keys):
+        groups.setdefault(k, []).append(i)
+    as_points = len(groups) > 10
     crit = _criteria(table, criteria)
     bad = ~feasible_mask(table, crit)
     for name in outputs:
         col = table.resolve(name, "output")
         v = table.data[col].astype(float)
-        sel = order[table.ok[order]]
-        ax.plot(xs[sel], v[sel], "o-", ms=3, label=col)
-        nb = sel[bad[sel]]
-        if nb.size:
-            ax.plot(xs[nb], v[nb], "o", mfc="none", mec="k", ms=7)
-    if bad.any():
-        lo, hi = ax.get_ylim()
-        for xv in xs[bad]:
-            ax.axvline(xv, color="0.6", lw=0.5, ls=":")
-        ax.set_ylim(lo, hi)
+        for gi, (k, idx) in enumerate(groups.items()):
+            idx = np.asarray(idx)
+            idx = idx[np.argsort(xs[idx], kind="stable")]
+            sel = idx[table.ok[idx]]
+            label = col if gi == 0 or not k else None
+            if k and not as_points:
+                label = f"{col}: " + ", ".join(
+                    f"{p}={val:g}" for p, val in zip(others, k, strict=True)
+                )
+            style = "o" if as_points else "o-"
+            ax.plot(
+                xs[sel], v[sel], style, ms=3, label=label, color=None if not as_points else "C0"
+            )
+            nb = sel[bad[sel]]
+            if nb.size:
+                ax.plot(xs[nb], v[nb], "o", mfc="none", mec="k", ms=7)
     failed = ~table.ok
-    for xv in xs[failed]:
+    for xv in np.unique(xs[failed]):
         ax.axvline(xv, color="r", lw=0.8, ls="--")
     ax.set_xlabel(xc)
-    ax.legend(fontsize=8)
-    ax.set_title("circled/dotted: infeasible; red dashed: failed design", fontsize=8)
+    ax.legend(fontsize=7)
+    ax.set_title("circled: infeasible; red dashed: failed design", fontsize=8)
     return fig
 
 

@@ -120,6 +120,8 @@ def flatten(d: dict, prefix: str = "") -> dict[str, float]:
 def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, perimeter=None):
     """2D edge cross-section: 1D solve -> sheets -> DOLFINx Thomas-Fermi, one process per design."""
     solve_edge = _import("qhdesign.tf2d", "solve_edge", "edge")
+    # Each design is one serial 2D solve: COMM_SELF, never the world of an MPI sweep (whose
+    # other ranks are busy with their own designs). The 2D stage has loaded mpi4py already.
     from mpi4py import MPI
 
     from qhdesign.tf2d import EdgeSettings, section_from_stack
