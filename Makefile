@@ -31,6 +31,7 @@ demo: $(VENV)/.installed
 	$(QH) bands $(STACK) --json $(OUT)/bands.json --plot $(OUT)/bands.png
 	$(QH) gate $(STACK) --from 0.2 --to -1.0 --step 0.01 --csv $(OUT)/gate.csv \
 	  --json $(OUT)/gate.json --plot $(OUT)/gate.png
+	@rm -f $(OUT)/setback.csv $(OUT)/setback.csv.sweep.json  # a fresh sweep, not a resume
 	$(QH) sweep sweeps/ql2417_setback_bands.toml --out $(OUT)/setback.csv
 	$(QH) plot-sweep $(OUT)/setback.csv --x layers.setback_upper.thickness \
 	  --y layers.setback_lower.thickness --color "primary_density_cm^-2" \
