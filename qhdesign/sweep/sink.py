@@ -17,6 +17,7 @@ holds the fingerprint of the sweep; resuming into a CSV of a different sweep is 
 from __future__ import annotations
 
 import csv
+import fcntl
 import io
 import json
 import math
@@ -97,7 +98,29 @@ class CsvSink:
                 f"has suffix '{self.path.suffix}'; sweep results are CSV (use a .csv name)",
                 source=str(self.path),
             )
-        if self.path.exists() and self.path.stat().st_size > 0:
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        fh = open(self.path, "a", encoding="utf-8", newline="")  # closed in close()
+        try:
+            # one writer per CSV: a second sweep on the same file would duplicate rows
+            fcntl.flock(fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except OSError:
+            fh.close()
+            raise InputError(
+                "is being written by another running sweep; wait for it to finish or choose "
+                "another --out",
+                source=str(self.path),
+            ) from None
+        self._fh = fh
+        try:
+            self._open_locked(side)
+        except BaseException:
+            self._fh = None
+            fh.close()
+            raise
+        return self
+
+    def _open_locked(self, side: Path) -> None:
+        if self.path.stat().st_size > 0:
             if side.exists():
                 try:
                     stored = json.loads(side.read_text()).get("fingerprint")
@@ -112,13 +135,10 @@ class CsvSink:
             self._read_existing()
             if not side.exists():
                 self._write_sidecar()
-            self._fh = open(self.path, "a", encoding="utf-8", newline="")
         else:
             self._write_sidecar()
-            self._fh = open(self.path, "w", encoding="utf-8", newline="")
             self._fh.write(_line(self.header))
             self._sync()
-        return self
 
     def _write_sidecar(self) -> None:
         atomic_write_json(

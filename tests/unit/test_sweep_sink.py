@@ -80,3 +80,14 @@ def test_bulk_application_equals_chained_with_value():
         assert bulk.get(k) == pytest.approx(v, rel=1e-14)
     with pytest.raises(InputError, match=r"layers\.setback_upper\.thickness"):
         apply_values(stack, {"layers.setback_upper.thickness": -1e-9})
+
+
+def test_a_second_writer_on_the_same_csv_is_refused(tmp_path):
+    path = tmp_path / "s.csv"
+    first = CsvSink(path, HEADER, "fp").open()
+    try:
+        with pytest.raises(InputError, match="being written by another running sweep"):
+            CsvSink(path, HEADER, "fp").open()
+    finally:
+        first.close()
+    CsvSink(path, HEADER, "fp").open().close()  # free again once the first has finished
