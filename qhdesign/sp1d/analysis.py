@@ -11,7 +11,7 @@ from scipy import constants as sc
 from .charge import subband_dos, subband_sheet_density
 from .model import DeviceLayout
 from .results import DopingResult, Flags, SubbandResult, WellResult
-from .schrodinger import solve_subbands
+from .schrodinger import subband_energies
 from .selfconsistent import State
 
 __all__ = [
@@ -84,14 +84,19 @@ def tunnel_splitting(
     step = (zz > mid).astype(float)
     del names
 
+    seen: dict[float, float] = {}
+
     def gap2(delta: float) -> float:
-        en, _ = solve_subbands(zz, u + delta * step, mass, 2)
-        return float((en[1] - en[0]) ** 2)
+        # the zoom revisits its centre (resonance check, next fit, final value): solve once
+        if delta not in seen:
+            en = subband_energies(zz, u + delta * step, mass, 2)
+            seen[delta] = float((en[1] - en[0]) ** 2)
+        return seen[delta]
 
     # isolated ground states give the starting detuning
     im = int(np.searchsorted(zz, mid))
-    ea, _ = solve_subbands(zz[: im + 1], u[: im + 1], mass[:im], 1)
-    eb, _ = solve_subbands(zz[im:], u[im:], mass[im:], 1)
+    ea = subband_energies(zz[: im + 1], u[: im + 1], mass[:im], 1)
+    eb = subband_energies(zz[im:], u[im:], mass[im:], 1)
     d0 = float(ea[0] - eb[0])
     s = 2e-3 * sc.e
     split = math.nan

@@ -50,13 +50,18 @@ def fermi_half(eta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     eta = np.asarray(eta, dtype=float)
     et = np.maximum(eta, -700.0)
     c = 0.75 * np.sqrt(np.pi)
-    gauss = np.exp(-0.17 * (et + 1.0) ** 2)
-    v = et**4 + 50.0 + 33.6 * et * (1.0 - 0.68 * gauss)
-    dv = 4.0 * et**3 + 33.6 * (1.0 - 0.68 * gauss) + 33.6 * et * 0.68 * gauss * 0.34 * (et + 1.0)
+    # integer powers by products and v^(-3/8) as exp(-3/8 ln v): same formula, several times
+    # faster than numpy's general power (v >= 50 - 33.6*0.7 > 0, so the logarithm is safe)
+    e1 = et + 1.0
+    gauss = np.exp(-0.17 * e1 * e1)
+    g = 1.0 - 0.68 * gauss
+    et2 = et * et
+    v = et2 * et2 + 50.0 + 33.6 * et * g
+    dv = 4.0 * et2 * et + 33.6 * g + (33.6 * 0.68 * 0.34) * et * gauss * e1
     x = np.exp(-et)
-    p = v ** (-0.375)
+    p = np.exp(-0.375 * np.log(v))
     f = 1.0 / (x + c * p)
-    df = (x + c * 0.375 * (p / v) * dv) * f * f
+    df = (x + (c * 0.375) * (p / v) * dv) * f * f
     low = eta < -700.0
     if np.any(low):
         f = np.where(low, 0.0, f)

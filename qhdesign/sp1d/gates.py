@@ -229,6 +229,7 @@ def gate_response(
     dop = np.zeros((len(dnames), m))
     iters = np.zeros(m, dtype=int)
     prev: list[np.ndarray] = []
+    last_psi = None  # previous point's subbands start the next eigen-solve
     count = 0
     for j, v in enumerate(volts):
         guess = None
@@ -237,9 +238,18 @@ def gate_response(
         elif prev:
             guess = prev[-1]
         st = solve_at(
-            stack, frozen, float(v), t, opts, phi_guess=guess, count_hint=count, gated=gated
+            stack,
+            frozen,
+            float(v),
+            t,
+            opts,
+            phi_guess=guess,
+            count_hint=count,
+            gated=gated,
+            warm_psi=last_psi,
         )
         count = len(st.energies_J)
+        last_psi = st.psi
         prev = [*prev[-1:], st.phi_V]
         iters[j] = st.iterations
         e_layer = per_layer(layout, cell_electrons(layout, st))

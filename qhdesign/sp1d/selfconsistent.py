@@ -32,7 +32,7 @@ from ..errors import ConvergenceError, InputError
 from .charge import classical_density, donor_ionized_fraction, subband_dos
 from .device import Device
 from .poisson import PoissonOperator, newton_poisson
-from .schrodinger import control_widths, count_below, solve_subbands
+from .schrodinger import control_widths, count_below, refine_subbands, solve_subbands
 
 __all__ = ["SolveOptions", "State", "solve_device"]
 
@@ -265,11 +265,22 @@ class _Problem:
         return q, dq
 
     # ---- Schrödinger -------------------------------------------------------------------
-    def subbands(self, phi, opts: SolveOptions, count_hint: int):
+    def subbands(self, phi, opts: SolveOptions, count_hint: int, warm: np.ndarray | None = None):
+        """Subbands at ``phi``: as many as lie below the cutoff plus one (at least
+        ``opts.min_subbands``). ``warm``: the previous iteration's wavefunctions on the
+        quantum grid, shape (S, Nq); tried first (certified warm-started solve)."""
         sl = slice(self.q0, self.q1 + 1)
         u = self.node_offset[sl] - E * phi[sl]
         n_int = self.q1 - self.q0 - 1
         target = opts.cutoff_kT * self.kT + opts.cutoff_J
+        got = None if warm is None else refine_subbands(self.qz, u, self.q_mass, warm)
+        if got is not None:
+            en, psi = got
+            # the certified pairs are the lowest len(en) levels; the count rule is then
+            # decided by them alone exactly as by the Sturm count below
+            needed = max(int(np.count_nonzero(en <= target)) + 1, opts.min_subbands)
+            if needed <= len(en):
+                return self._with_mass(en[:needed], psi[:needed])
         # how many levels lie below the cutoff (cheap Sturm count), plus one above it
         needed = count_below(self.qz, u, self.q_mass, target) + 1
         count = max(needed, opts.min_subbands)
@@ -279,6 +290,9 @@ class _Problem:
             if en[-1] > target or count >= min(n_int, opts.max_subbands):
                 break
             count = int(count * 1.6) + 2
+        return self._with_mass(en, psi)
+
+    def _with_mass(self, en, psi):
         mass_cell = self.q_mass
         # subband mass <m>: weight each cell by the mean |psi|^2 of its two nodes
         hq = np.diff(self.qz)
@@ -318,6 +332,7 @@ def solve_device(
     phi_guess: np.ndarray | None = None,
     options: SolveOptions | None = None,
     count_hint: int = 0,
+    warm_psi: np.ndarray | None = None,
 ) -> State:
     """Self-consistent Schrödinger–Poisson solve of ``dev`` at ``temperature``.
 
@@ -334,6 +349,12 @@ def solve_device(
         Warm start potential (V), shape (N+1,).
     options
         Numerical options.
+    count_hint
+        Subband count of a previous solve (unused by the count rule; kept for callers).
+    warm_psi
+        Wavefunctions of a previous solve on the quantum grid, shape (S, Nq), as the start of
+        the first warm-started eigen-solve (later iterations start from their predecessor).
+        Only the speed depends on it: the subbands are certified or solved cold.
 
     Returns
     -------
@@ -370,11 +391,13 @@ def solve_device(
     residuals: list[float] = []
     charge_res: list[float] = []
     count = count_hint
+    warm = warm_psi
     newton_total = 0
     hist_x: list[np.ndarray] = []
     hist_g: list[np.ndarray] = []
     for it in range(1, opts.max_iterations + 1):
-        en, psi, m_sub = prob.subbands(phi, opts, count)
+        en, psi, m_sub = prob.subbands(phi, opts, count, warm=warm)
+        warm = psi
         count = len(en)
         psi2_dos = psi**2 * subband_dos(m_sub)[:, None]
         n_fn = prob.quantum_predictor(en, psi2_dos, phi.copy())

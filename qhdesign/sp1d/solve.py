@@ -132,10 +132,14 @@ def solve_at(
     phi_guess: np.ndarray | None = None,
     count_hint: int = 0,
     gated: bool = False,
+    warm_psi: np.ndarray | None = None,
 ) -> State:
     """One solve with the frozen charge at ``gate_voltage`` and ``temperature``.
 
-    ``gated=True`` on an exposed surface lays a metal gate (same barrier) on it.
+    ``gated=True`` on an exposed surface lays a metal gate (same barrier) on it. The first
+    eigen-solve starts from ``warm_psi`` (full-grid wavefunctions, shape (S, N+1)) or the
+    freeze-out subbands; this changes only the speed (see
+    :func:`~qhdesign.sp1d.schrodinger.refine_subbands`).
     """
     surf = stack.surface
     layout = frozen.layout
@@ -147,6 +151,7 @@ def solve_at(
         top = top_boundary(stack, gate_voltage, pinned=True)
     dev = layout.device.with_boundaries(top=top)
     guess = frozen.state.phi_V if phi_guess is None else phi_guess
+    q0, q1 = layout.device.quantum
     return solve_device(
         dev,
         temperature,
@@ -154,6 +159,7 @@ def solve_at(
         phi_guess=guess,
         options=options.solve,
         count_hint=count_hint,
+        warm_psi=(frozen.state.psi if warm_psi is None else warm_psi)[:, q0 : q1 + 1],
     )
 
 
