@@ -35,7 +35,7 @@ demo: $(VENV)/.installed
 	$(QH) sweep sweeps/ql2417_setback_bands.toml --out $(OUT)/setback.csv
 	$(QH) plot-sweep $(OUT)/setback.csv --x layers.setback_upper.thickness \
 	  --y layers.setback_lower.thickness --color "primary_density_cm^-2" \
-	  --contour "primary_density_cm^-2=7e10" --out $(OUT)/setback_window.png
+	  --contour "primary_density_cm^-2=1.1e11" --out $(OUT)/setback_window.png
 	$(QH) edge $(STACK) --gate-voltage -1.0 --field 2 --filling 1 --perimeter "4 um" \
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
 	@echo "demo results in $(OUT)/"

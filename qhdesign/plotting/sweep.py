@@ -119,7 +119,10 @@ def design_window(
     ax.set_ylabel(yc)
     title = "hatched: infeasible"
     if crit:
-        title += "\nfeasible: " + ", ".join(_crit_text(k, v) for k, v in crit.items())
+        import textwrap
+
+        text = "feasible: " + ", ".join(_crit_text(k, v) for k, v in crit.items())
+        title += "\n" + textwrap.fill(text, width=70)
     ax.set_title(title, fontsize=8)
     return fig
 

@@ -56,7 +56,8 @@ def ladder_slopes(
     c_q : sequence, shape (k,)
         Quantum capacitance of each well, F/m^2; 0 for an empty well.
     c_bottom
-        Last well to a grounded back gate, F/m^2 (0 for a deep substrate).
+        Last well to an equipotential bottom boundary (back gate or pinned substrate), F/m^2;
+        0 for a deep substrate (zero field below the stack).
 
     Returns
     -------
@@ -146,7 +147,8 @@ def capacitor_stage(stack, densities: Mapping[str, str] | None = None) -> dict[s
     c_gate = 1.0 / (gate_extra + _inverse_capacitance(profile, 0.0, z[0]))
     c_between = [1.0 / _inverse_capacitance(profile, z[i], z[i + 1]) for i in range(len(z) - 1)]
     c_bottom = 0.0
-    if getattr(stack.substrate, "kind", "deep") == "back_gate":
+    if getattr(stack.substrate, "kind", "deep") in ("back_gate", "pinned"):
+        # an equipotential bottom boundary (back gate, or a pinned semi-insulating substrate)
         c_bottom = 1.0 / _inverse_capacitance(profile, z[-1], profile[-1].z_bottom)
     c_q_full = np.array([quantum_capacitance(stack.resolved_mass(stack.layer(n))) for n in names])
 

@@ -117,7 +117,27 @@ def test_depletion_voltages_follow_the_piecewise_linear_sequence():
 
 def test_missing_density_is_a_one_line_error_naming_the_option():
     stack = loads_stack(_TWO_WELLS, source="two_wells")
-    with pytest.raises(InputError, match="stage.options.densities.*screen"):
+    with pytest.raises(InputError, match=r"stage\.options\.densities.*screen"):
         capacitor_stage(stack, densities={"main": "2e11 cm^-2"})
     with pytest.raises(InputError, match="'nope' is not a well"):
         capacitor_stage(stack, densities={"nope": "2e11 cm^-2"})
+
+
+def test_equipotential_bottom_adds_a_capacitor_below_the_last_well():
+    c1, cb = EPS / 60e-9, EPS / 40e-9
+    (s,) = ladder_slopes(c1, [], [CQ], c_bottom=cb)
+    # analytic: node charge balance C1 (phi - V) + C_b phi + C_q phi = 0
+    assert s == pytest.approx(c1 * CQ / (c1 + CQ + cb) / e, rel=1e-12)
+    deep = loads_stack(_TWO_WELLS, source="two_wells")
+    pinned = loads_stack(
+        _TWO_WELLS + '[substrate]\nkind = "pinned"\nbarrier = "0.7 eV"\n', source="pinned"
+    )
+    # primary centre at 90 nm, stack bottom at 95 + 100 + 500 = 695 nm: C_b = eps / 605 nm
+    c2 = EPS / 30e-9
+    cbot = EPS / 605e-9
+    a = [[c1 + c2 + CQ, -c2], [-c2, c2 + CQ + cbot]]
+    det = a[0][0] * a[1][1] - a[0][1] * a[1][0]
+    phi_p = c2 * c1 / det  # Cramer's rule for the 2x2 ladder, gate at 1 V
+    out_p = capacitor_stage(pinned)
+    assert out_p["dn_dV_main_cm^-2/V"] == pytest.approx(CQ * phi_p / e / 1e4, rel=1e-12)
+    assert capacitor_stage(deep)["dn_dV_main_cm^-2/V"] > out_p["dn_dV_main_cm^-2/V"]
