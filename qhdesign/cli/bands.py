@@ -190,9 +190,14 @@ def register(app: typer.Typer) -> None:
             "  window (top screening well empty to primary empty): "
             + ("n/a" if math.isnan(g.window_V) else f"{g.window_V:.4f} V")
         )
+        if g.segments:
+            typer.echo(
+                f"  (slopes below {SLOPE_FLOOR_CM2_V:g} cm^-2/V in magnitude shown as 0; "
+                "the JSON keeps the raw values)"
+            )
         for seg in g.segments:
             slopes = ", ".join(
-                f"{k} {v * 1e-4:.3g}" for k, v in seg["slope_m2_V"].items() if not math.isnan(v)
+                f"{k} {_slope_text(v)}" for k, v in seg["slope_m2_V"].items() if not math.isnan(v)
             )
             typer.echo(
                 f"  dn/dV (cm^-2/V) from {seg['from_V']:+.3f} to {seg['to_V']:+.3f} V: {slopes}"
@@ -268,6 +273,17 @@ def register(app: typer.Typer) -> None:
         if json_out is not None:
             atomic_write_json(json_out, res.to_dict())
             typer.echo(f"wrote {json_out}")
+
+
+#: Display floor of the printed gate slopes (cm^-2/V): an empty well's slope is round-off
+#: (e.g. 8e-173); 1e3 cm^-2/V is ~1e-8 of a typical 1e11 cm^-2/V slope.
+SLOPE_FLOOR_CM2_V = 1e3
+
+
+def _slope_text(slope_m2_V: float) -> str:
+    """A slope in cm^-2/V for the terminal; magnitudes below the floor print as 0."""
+    v = slope_m2_V * 1e-4
+    return "0" if abs(v) < SLOPE_FLOOR_CM2_V else f"{v:.3g}"
 
 
 def _parse_range(text: str, stack, parameter: str) -> tuple[float, float]:
