@@ -7,16 +7,9 @@ that need them, so importing this package is light. Entry points: :func:`solve_e
 
 from __future__ import annotations
 
-from .edge import (
-    ConstrictionResult,
-    EdgeResult,
-    EdgeSettings,
-    PinchoffResult,
-    section_from_stack,
-    solve_constriction,
-    solve_edge,
-    solve_pinchoff,
-)
+from .constriction import ConstrictionResult, PinchoffResult, solve_constriction, solve_pinchoff
+from .edge import EdgeResult, EdgeSettings, solve_edge
+from .from_stack import section_from_stack
 from .geometry import GateLayout, MeshOptions
 from .model import CrossSection, SheetSpec, cross_section_from_sheet_model
 from .solver import CrossSectionSolver, SolverOptions

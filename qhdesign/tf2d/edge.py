@@ -1,11 +1,10 @@
-"""Edge and constriction analysis: what a fab engineer asks of a depletion gate.
+"""Edge analysis: what a fab engineer asks of a depletion gate.
 
 ``solve_edge`` answers, for one gate edge (metal over x < 0): where is the electronic edge of each
 well relative to the lithographic edge, how sharp is it, is the well cut under the gate, how
 strong is the in-plane field and how fast is the edge state at the operating filling, where are
 the incompressible strips, and how far does the edge move per gate volt (hence dA/dV for a
-perimeter). ``solve_pinchoff`` finds, for a split gate of gap w, the density at the constriction
-centre against gate voltage and the pinch-off voltage of each well by bisection.
+perimeter). Split gates and pinch-off: :mod:`qhdesign.tf2d.constriction`.
 
 Definitions of edge, healing length, cut and strips: :mod:`qhdesign.tf2d.profile`.
 """
@@ -32,21 +31,15 @@ from .profile import (
 from .solver import CrossSectionSolver, FieldSolution, SolverOptions
 
 __all__ = [
-    "ConstrictionResult",
     "EdgeResult",
     "EdgeSettings",
-    "PinchoffResult",
     "WellEdge",
     "analyse_edge",
-    "solve_constriction",
     "solve_edge",
-    "solve_pinchoff",
 ]
 
 #: Gate-voltage step of the finite difference for the edge shift per volt (V).
 VOLTAGE_STEP_V = 0.02
-#: Bisection tolerance of the pinch-off voltage (V).
-PINCHOFF_TOL_V = 1e-3
 #: |g*| of GaAs for the spin gap of odd integer strips (bare Zeeman, exchange enhancement
 #: ignored). From memory: g* = -0.44 for GaAs conduction electrons.
 G_FACTOR_GAAS = 0.44
@@ -186,33 +179,6 @@ class EdgeResult:
             cols.append(f"{self.primary}_filling")
             data.append(local_filling(sol.density_m2[i], self.settings.field_T))
         return cols, np.column_stack(data)
-
-
-@dataclass(frozen=True, eq=False)
-class PinchoffResult:
-    """Result of :func:`solve_pinchoff`."""
-
-    gap_m: float
-    voltages_V: np.ndarray  # (M,)
-    centre_density_m2: dict  # well -> (M,)
-    bulk_density_m2: dict  # well -> float
-    pinchoff_V: dict  # well -> float | None
-    tolerance_V: float = PINCHOFF_TOL_V
-    info: dict = field(default_factory=dict)
-
-    def to_dict(self) -> dict:
-        return {
-            "gap_m": self.gap_m,
-            "pinchoff_V": dict(self.pinchoff_V),
-            "pinchoff_tolerance_V": self.tolerance_V,
-            "pinchoff_fraction_of_bulk": EDGE_FRACTION,
-            "bulk_density_m2": dict(self.bulk_density_m2),
-            "sweep": {
-                "gate_voltage_V": self.voltages_V.tolist(),
-                "centre_density_m2": {k: v.tolist() for k, v in self.centre_density_m2.items()},
-            },
-            "solver": dict(self.info),
-        }
 
 
 def _check_gate_voltage(section: CrossSection, v: float) -> None:
@@ -454,196 +420,3 @@ def _permittivity_at(section: CrossSection, z: float) -> float:
     lz = np.asarray(section.layer_z_m)
     i = int(np.clip(np.searchsorted(lz, z) - 1, 0, lz.size - 2))
     return float(np.asarray(section.layer_permittivity)[i])
-
-
-def solve_pinchoff(
-    section: CrossSection,
-    gap_m: float,
-    *,
-    v_start: float = 0.0,
-    v_stop: float = -5.0,
-    v_step: float = -0.1,
-    tolerance_V: float = PINCHOFF_TOL_V,
-    mesh_options: MeshOptions | None = None,
-    options: SolverOptions | None = None,
-    comm=None,
-) -> PinchoffResult:
-    """Density at the constriction centre vs gate voltage, and each well's pinch-off voltage.
-
-    A well is pinched off when its density at x = 0 falls below ``EDGE_FRACTION`` of its bulk
-    density. The sweep from ``v_start`` to ``v_stop`` brackets each pinch-off; bisection then
-    narrows it to ``tolerance_V``. A well already below the threshold at ``v_start`` or never
-    pinched within the sweep gets None.
-    """
-    if not gap_m > 0:
-        raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
-    for v in (v_start, v_stop):
-        _check_gate_voltage(section, v)
-    solver = _split_solver(section, gap_m, mesh_options, options, comm)
-    names = [s.name for s in section.sheets]
-    thr = np.array([EDGE_FRACTION * s.density_m2 for s in section.sheets])
-
-    def centre(v: float) -> np.ndarray:
-        return _centre_density(solver.solve(v))
-
-    n_steps = int(np.floor((v_stop - v_start) / v_step + 1e-9)) + 1
-    volts = v_start + v_step * np.arange(n_steps)
-    dens = []
-    for v in volts:
-        dens.append(centre(float(v)))
-        if np.all(dens[-1] < thr):
-            break
-    volts = volts[: len(dens)]
-    dens_arr = np.array(dens)  # (M, S)
-    pinch: dict[str, float | None] = {}
-    for i, name in enumerate(names):
-        open_ = dens_arr[:, i] >= thr[i]
-        if not open_[0] or open_.all():
-            pinch[name] = None
-            continue
-        j = int(np.argmin(open_))  # first closed point
-        hi, lo = float(volts[j - 1]), float(volts[j])  # hi open, lo closed
-        while hi - lo > tolerance_V:
-            mid = 0.5 * (hi + lo)
-            if centre(mid)[i] >= thr[i]:
-                hi = mid
-            else:
-                lo = mid
-        pinch[name] = 0.5 * (hi + lo)
-    return PinchoffResult(
-        gap_m=gap_m,
-        voltages_V=volts,
-        centre_density_m2={n: dens_arr[:, i] for i, n in enumerate(names)},
-        bulk_density_m2={s.name: s.density_m2 for s in section.sheets},
-        pinchoff_V=pinch,
-        tolerance_V=tolerance_V,
-        info={"dofs": solver.num_dofs, "linear_solver": solver.linear_solver},
-    )
-
-
-def _split_solver(section, gap_m, mesh_options, options, comm) -> CrossSectionSolver:
-    mesh_options = mesh_options or MeshOptions()
-    # the constriction centre is a mesh node at the edge size
-    opts = replace(mesh_options, x_attractors_m=(*mesh_options.x_attractors_m, 0.0))
-    return CrossSectionSolver(section, GateLayout.split(gap_m), opts, options, comm=comm)
-
-
-def _centre_density(sol: FieldSolution) -> np.ndarray:
-    """Density of each sheet at x = 0 (m^-2), shape (S,)."""
-    i0 = int(np.argmin(np.abs(sol.x_m)))
-    return sol.density_m2[:, i0].copy()
-
-
-@dataclass(frozen=True, eq=False)
-class ConstrictionResult:
-    """A split gate of gap w at one gate voltage: the channel in the gap, per well."""
-
-    gap_m: float
-    gate_voltage_V: float
-    centre_density_m2: dict
-    bulk_density_m2: dict
-    channel_width_m: dict  # between the two points where n = EDGE_FRACTION of the bulk
-    pinched: dict
-    solution: FieldSolution
-    gates_m: tuple = ()
-    solver: object = field(default=None, repr=False)
-
-    def to_dict(self) -> dict:
-        return {
-            "gap_m": self.gap_m,
-            "gate_voltage_V": self.gate_voltage_V,
-            "edge_fraction_of_bulk": EDGE_FRACTION,
-            "wells": {
-                k: {
-                    "centre_density_m2": self.centre_density_m2[k],
-                    "bulk_density_m2": self.bulk_density_m2[k],
-                    "channel_width_m": self.channel_width_m[k],
-                    "pinched": self.pinched[k],
-                }
-                for k in self.centre_density_m2
-            },
-        }
-
-
-def solve_constriction(
-    section: CrossSection,
-    gap_m: float,
-    gate_voltage_V: float,
-    mesh_options: MeshOptions | None = None,
-    options: SolverOptions | None = None,
-    *,
-    comm=None,
-) -> ConstrictionResult:
-    """Solve a split gate of gap ``gap_m`` at one gate voltage (metal over |x| > gap/2)."""
-    if not gap_m > 0:
-        raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
-    _check_gate_voltage(section, gate_voltage_V)
-    solver = _split_solver(section, gap_m, mesh_options, options, comm)
-    sol = solver.solve(gate_voltage_V)
-    _check_electrons(sol, section, gate_voltage_V)
-    n0 = _centre_density(sol)
-    centre, width, pinched, bulk = {}, {}, {}, {}
-    x = sol.x_m
-    for i, s in enumerate(section.sheets):
-        thr = EDGE_FRACTION * s.density_m2
-        centre[s.name] = float(n0[i])
-        bulk[s.name] = s.density_m2
-        pinched[s.name] = bool(n0[i] < thr)
-        right = x >= 0
-        xr = crossing_from_bulk(x[right][::-1] * -1, sol.density_m2[i][right][::-1], thr)
-        width[s.name] = None if pinched[s.name] or xr is None else float(-2 * xr)
-    return ConstrictionResult(
-        gap_m,
-        gate_voltage_V,
-        centre,
-        bulk,
-        width,
-        pinched,
-        sol,
-        gates_m=solver.layout.gates_m,
-        solver=solver,
-    )
-
-
-def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSection:
-    """Run the 1D stage on a stack and build the cross-section (donors frozen at their 1D state).
-
-    Raises
-    ------
-    InputError
-        If the 1D stage is not available or the stack is invalid.
-    """
-    from .model import cross_section_from_sheet_model
-
-    try:
-        from qhdesign.sp1d import solve_bands
-        from qhdesign.sp1d.sheets import sheet_model
-    except ImportError as exc:  # the 1D stage is a separate issue
-        raise InputError(f"the 1D stage is not available ({exc})") from None
-    result = solve_bands(stack)
-    section = cross_section_from_sheet_model(
-        sheet_model(stack, result), gate_barrier_J=gate_barrier_J
-    )
-    # Potential convention: phi = -(U - E_c0(z) + E_c0(surface layer))/e, so that phi = V_g -
-    # Phi_B/e under a gate. The far-field surface potential is the 1D solution's own
-    # -U(0)/e (for a frozen surface it differs from the pinned level by the low-temperature
-    # redistribution); a back gate or a pinned substrate becomes a Dirichlet bottom.
-    z = np.asarray(result.z_m)
-    u = np.asarray(result.conduction_band_J)
-    changes: dict = {"surface_potential_V": float(-u[int(np.argmin(np.abs(z)))] / sc.e)}
-    # Electrons outside the well layers (wavefunction tails, classical electrons) are not in any
-    # sheet: freeze them where the 1D solution has them, so the column carries every charge.
-    n_node = np.asarray(getattr(result, "electron_density_m3", np.zeros(0)), dtype=float)
-    zc = np.asarray(section.charge_z_m)
-    if n_node.size == z.size and z.size == zc.size + 1:
-        n_cell = 0.5 * (n_node[1:] + n_node[:-1])
-        for w in result.wells:
-            n_cell[(zc >= w.z_top_m) & (zc <= w.z_bottom_m)] = 0.0
-        changes["charge_C_m3"] = np.asarray(section.charge_C_m3) - sc.e * n_cell
-    prof = stack.profile()
-    sub = stack.substrate
-    if sub.kind in ("back_gate", "pinned"):
-        u_bottom = sub.barrier - (sc.e * sub.bias if sub.kind == "back_gate" else 0.0)
-        offset = prof[-1].band_offset - prof[0].band_offset
-        changes |= {"bottom": "gate", "bottom_potential_V": float((offset - u_bottom) / sc.e)}
-    return replace(section, **changes)
