@@ -29,6 +29,13 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSe
         from qhdesign.sp1d.sheets import sheet_model
     except ImportError as exc:  # the 1D stage is a separate issue
         raise InputError(f"the 1D stage is not available ({exc})") from None
+    if float(getattr(stack.surface, "dielectric_thickness", 0.0) or 0.0) > 0.0:
+        raise InputError(
+            "the 2D stage puts gate metal directly on the semiconductor; a gate dielectric is "
+            "not modelled yet (allowed: surface.dielectric_thickness = 0)",
+            source=str(getattr(stack, "source", "") or "stack"),
+            key="surface.dielectric_thickness",
+        )
     result = solve_bands(stack)
     section = cross_section_from_sheet_model(
         sheet_model(stack, result), gate_barrier_J=gate_barrier_J
