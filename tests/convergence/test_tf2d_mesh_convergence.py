@@ -50,3 +50,15 @@ def test_edge_field_and_strips_converged(pair):
     for s, sf in zip(a.strips, b.strips, strict=True):
         assert s["width_m"] == pytest.approx(sf["width_m"], rel=0.05)
         assert abs(s["centre_m"] - sf["centre_m"]) < 1e-9  # < 1 nm
+
+
+def test_edge_independent_of_domain_width():
+    # the heterojunction has no lower screening plane, so its tail is the slowest to heal;
+    # doubling the half width must not move the edge by 1 nm (issue 4's edge criterion)
+    section = section_from_stack(load_stack(ROOT / "stacks" / "ql2403_heterojunction.toml"))
+    a = solve_edge(section, EdgeSettings(-1.0))
+    wide = MeshOptions(half_width_m=2 * a.info["half_width_m"])
+    b = solve_edge(section, EdgeSettings(-1.0), wide)
+    for w, wb in zip(a.wells, b.wells, strict=True):
+        assert w.edge_x_m is not None
+        assert abs(w.edge_x_m - wb.edge_x_m) < 1e-9
