@@ -12,6 +12,15 @@ __all__ = ["plot_edge", "plot_edge_profiles", "plot_pinchoff", "plot_potential_m
 _WINDOW_NM = (-300.0, 600.0)
 
 
+def _window(x_nm: np.ndarray, window_nm) -> np.ndarray:
+    """Nodes inside the window plus one beyond each end, so curves and maps fill it."""
+    i0 = max(int(np.searchsorted(x_nm, window_nm[0])) - 1, 0)
+    i1 = min(int(np.searchsorted(x_nm, window_nm[1])) + 1, x_nm.size)
+    sel = np.zeros(x_nm.size, dtype=bool)
+    sel[i0:i1] = True
+    return sel
+
+
 def _ax(ax, **fig_kw):
     import matplotlib.pyplot as plt
 
@@ -31,7 +40,7 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
     fig, ax = _ax(ax, figsize=(7.5, 4.0))
     sol = result.solution
     x_nm = sol.x_m * 1e9
-    sel = (x_nm >= window_nm[0]) & (x_nm <= window_nm[1])
+    sel = _window(x_nm, window_nm)
     colours = {}
     for name, n in zip(sol.sheet_names, sol.density_m2, strict=True):
         (line,) = ax.plot(x_nm[sel], n[sel] * 1e-15, lw=1.6, label=f"{name}")
@@ -67,7 +76,7 @@ def plot_potential_map(solution, ax=None, window_nm=_WINDOW_NM, gates_m=((-np.in
     fig, ax = _ax(ax, figsize=(7.5, 3.5))
     x_nm = solution.x_m * 1e9
     z_nm = solution.z_m * 1e9
-    sel = (x_nm >= window_nm[0]) & (x_nm <= window_nm[1])
+    sel = _window(x_nm, window_nm)
     zmax = min(z_nm[-1], 2.0 * z_nm[solution.sheet_level].max() + 50.0)
     zsel = z_nm <= zmax
     mesh = ax.pcolormesh(
@@ -80,12 +89,13 @@ def plot_potential_map(solution, ax=None, window_nm=_WINDOW_NM, gates_m=((-np.in
     fig.colorbar(mesh, ax=ax, label="potential (V)")
     for k, name in zip(solution.sheet_level, solution.sheet_names, strict=True):
         ax.axhline(z_nm[k], color="w", lw=0.8, ls="--")
-        ax.text(window_nm[1] - 5, z_nm[k] - 2, name, color="w", fontsize=7, ha="right")
+        ax.text(window_nm[0] + 8, z_nm[k] - 3, name, color="w", fontsize=7, ha="left")
     for a, b in gates_m:
         lo, hi = max(a * 1e9, window_nm[0]), min(b * 1e9, window_nm[1])
         if hi > lo:
             ax.plot([lo, hi], [0, 0], color="goldenrod", lw=5, solid_capstyle="butt")
     ax.set_ylim(zmax, 0)
+    ax.set_xlim(*window_nm)
     ax.set_xlabel("x (nm)")
     ax.set_ylabel("depth (nm)")
     return fig
