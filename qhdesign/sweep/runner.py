@@ -154,8 +154,14 @@ class _SerialExecutor:
 
 
 @contextmanager
-def open_executor(kind: str, workers: int | None) -> Iterator[tuple[object | None, str, int]]:
-    """Yield ``(executor, kind, workers)``; under MPI, non-root ranks get ``executor=None``."""
+def open_executor(
+    kind: str, workers: int | None, preload: tuple[str, ...] = ()
+) -> Iterator[tuple[object | None, str, int]]:
+    """Yield ``(executor, kind, workers)``; under MPI, non-root ranks get ``executor=None``.
+
+    ``preload``: modules the local forkserver imports once, so that every worker forked from it
+    starts with them (the stage's solver) instead of importing them itself.
+    """
     if kind == "auto":
         kind = "mpi" if mpi_world_size() > 1 else ("serial" if workers == 1 else "local")
     if kind not in EXECUTORS:
@@ -171,7 +177,7 @@ def open_executor(kind: str, workers: int | None) -> Iterator[tuple[object | Non
 
         n = workers or os.cpu_count() or 1
         ctx = multiprocessing.get_context("forkserver")
-        ctx.set_forkserver_preload(["qhdesign.sweep.evaluate", "qhdesign.stack", "numpy"])
+        ctx.set_forkserver_preload(["qhdesign.sweep.evaluate", "qhdesign.stack", "numpy", *preload])
         # one BLAS/OpenMP thread per worker: n workers x n BLAS threads oversubscribe the cores
         saved = {v: os.environ.get(v) for v in _THREAD_VARS}
         for v in _THREAD_VARS:
@@ -214,6 +220,17 @@ def _row(index, key, params, param_cols, outputs, columns_out, status, error, se
         row.append(None if outputs is None else outputs.get(c, math.nan))
     row += [status, error, round(seconds, 6)]
     return row
+
+
+def stage_modules(stage: str) -> tuple[str, ...]:
+    """Modules a stage needs (for the forkserver preload); unknown names give none."""
+    from .stages import _PROBES
+
+    if stage in _PROBES:
+        return (_PROBES[stage][0],)
+    if ":" in stage:
+        return (stage.partition(":")[0],)
+    return ()
 
 
 def probe(plan) -> tuple[dict | None, str, str, float]:
@@ -261,7 +278,7 @@ def run_sweep(
         raise InputError(f"must be >= 1, got {workers}", source="option --workers")
     if chunk is not None and chunk < 1:
         raise InputError(f"must be >= 1, got {chunk}", source="option --chunk")
-    with open_executor(executor, workers) as (ex, kind, nworkers):
+    with open_executor(executor, workers, stage_modules(plan.stage)) as (ex, kind, nworkers):
         if ex is None:
             return None
         return _run(plan, Path(out), ex, kind, nworkers, chunk, progress, started)
