@@ -102,11 +102,18 @@ def test_pinchoff_json_and_definition(cli_runner, app, screened_path, tmp_path):
             "0.5",
             "--json",
             str(out),
+            "--csv",
+            str(tmp_path / "pinch.csv"),
+            "--plot",
+            str(tmp_path / "pinch.png"),
         ],
     )
     assert r.exit_code == 0, r.output
     data = json.loads(out.read_text())
     volts = data["sweep"]["gate_voltage_V"]
+    csv_lines = (tmp_path / "pinch.csv").read_text().splitlines()
+    assert csv_lines[0].startswith("gate_voltage_V,") and len(csv_lines) == len(volts) + 1
+    assert (tmp_path / "pinch.png").stat().st_size > 10_000
     assert set(data["pinchoff_V"]) == {"screen_upper", "primary", "screen_lower"}
     found = 0
     for well, vp in data["pinchoff_V"].items():
