@@ -90,6 +90,14 @@ class EdgeSettings:
             )
         if self.gap_energy_J is not None and not self.gap_energy_J > 0:
             raise InputError("gap energy must be > 0", source="option --gap-energy")
+        if self.gap_energy_J is not None and (
+            self.filling is None or abs(self.filling - round(self.filling)) < 1e-9
+        ):
+            raise InputError(
+                "--gap-energy is the gap of a fractional --filling (e.g. --filling 1/3); "
+                "integer strips use the Landau or spin gap",
+                source="option --gap-energy",
+            )
         if self.perimeter_m is not None and not self.perimeter_m > 0:
             raise InputError("perimeter must be > 0", source="option --perimeter")
 

@@ -103,6 +103,7 @@ def test_strip_width_equals_csg_gaussian_form():
         ({"filling": 1.0}, "--field"),
         ({"field_T": -2.0}, "--field"),
         ({"field_T": 2.0, "filling": -1.0}, "--filling"),
+        ({"field_T": 2.0, "filling": 1.0, "gap_energy_J": 1e-23}, "--gap-energy"),
     ],
 )
 def test_settings_reject_bad_field_and_filling(kwargs, option):
