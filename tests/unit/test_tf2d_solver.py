@@ -23,3 +23,21 @@ def test_newton_failure_raises_with_residual_history():
     assert err.residuals and err.residuals[0] > 1e-12
     assert err.residual_unit == "e/nm"
     assert "\n" not in str(err)
+
+
+def test_multigrid_and_direct_solvers_give_the_same_solution():
+    # the same discrete problem: CG + GAMG (large meshes) must reproduce LU (small meshes)
+    import numpy as np
+
+    sols = []
+    for kind in ("lu", "gamg"):
+        solver = CrossSectionSolver(
+            screened_section(),
+            GateLayout.single_edge(),
+            MeshOptions(refine=0.5),
+            SolverOptions(linear_solver=kind),
+        )
+        assert solver.linear_solver == kind
+        sols.append(solver.solve(-0.8).density_m2)
+    scale = np.max(np.abs(sols[0]))
+    assert np.max(np.abs(sols[0] - sols[1])) < 1e-8 * scale
