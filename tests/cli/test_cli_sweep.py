@@ -241,3 +241,33 @@ def test_bad_spec_file_and_plot_options(cli_runner, app, tmp_path):
         ],
     )
     _one_line_error(res, "space.tolerance.layer_jitter", "exceeds the total thickness tolerance")
+
+
+def test_monte_carlo_spec_prints_tolerance_statistics(cli_runner, app, tmp_path):
+    spec = ROOT / "sweeps" / "ql2417_tolerance.toml"
+    out = tmp_path / "mc.csv"
+    res = cli_runner.invoke(app, ["sweep", str(spec), "--out", str(out), "--workers", "1"])
+    assert res.exit_code == 0, res.output
+    assert "400 of 400 samples solved" in res.stdout
+    assert "P5" in res.stdout and "P95" in res.stdout
+    v = [float(r["v_screening_empty_V"]) for r in _rows(out)]
+    # the spec's criterion v_screening_empty_V >= -0.33, counted from the CSV
+    frac = sum(x >= -0.33 for x in v) / len(v)
+    assert f"meeting all criteria (-0.33 <= v_screening_empty_V <= inf): {100 * frac:.1f} %" in (
+        res.stdout
+    )
+    png = tmp_path / "scatter.png"
+    res = cli_runner.invoke(
+        app,
+        [
+            "plot-sweep",
+            str(out),
+            "--x",
+            "tol.ga_rate",
+            "--color",
+            "depth_primary_nm",
+            "--out",
+            str(png),
+        ],
+    )
+    assert res.exit_code == 0, res.output
