@@ -225,6 +225,9 @@ def register(app: typer.Typer) -> None:
             None, "--option", help="Shorthand: stage option KEY=VALUE (VALUE may be JSON)."
         ),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar, no summary."),
+        check: bool = typer.Option(
+            False, "--check", help="Validate the spec against the stack and stop (no evaluation)."
+        ),
     ) -> None:
         """Evaluate every design of a sweep and stream one CSV row per design (resumable)."""
         from qhdesign.errors import InputError
@@ -267,6 +270,14 @@ def register(app: typer.Typer) -> None:
                     source=str(spec),
                 )
             plan = load_spec(spec)
+        if check:
+            if _mpi_rank() == 0:
+                typer.echo(
+                    f"{plan.source}: valid; {len(plan)} designs ({plan.kind}) of stage "
+                    f"'{plan.stage}' over {', '.join(plan.parameters[:6])}"
+                    f"{' ...' if len(plan.parameters) > 6 else ''}"
+                )
+            return
         out = out or Path(f"{spec.stem}.csv")
         summary = _run_with_progress(plan, out, executor, workers, chunk, quiet)
         _finish(summary, plan, out, quiet)

@@ -271,3 +271,11 @@ def test_monte_carlo_spec_prints_tolerance_statistics(cli_runner, app, tmp_path)
         ],
     )
     assert res.exit_code == 0, res.output
+
+
+def test_check_validates_without_evaluating(cli_runner, app, tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    res = cli_runner.invoke(app, ["sweep", str(SETBACK_SPEC), "--check"])
+    assert res.exit_code == 0, res.output
+    assert "valid; 182 designs (grid) of stage 'capacitor'" in res.stdout
+    assert not list(tmp_path.iterdir())  # nothing written
