@@ -137,3 +137,14 @@ def test_version(cli_runner, app):
 
     res = cli_runner.invoke(app, ["--version"])
     assert res.exit_code == 0 and __version__ in res.stdout
+
+
+def test_python_dash_m_runs_the_cli():
+    import subprocess
+    import sys
+
+    res = subprocess.run(
+        [sys.executable, "-m", "qhdesign", "check", str(SCREENED)], capture_output=True, text=True
+    )
+    assert res.returncode == 0, res.stderr
+    assert "primary" in res.stdout
