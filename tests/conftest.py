@@ -36,3 +36,18 @@ def app():
     from qhdesign.cli.app import build_app
 
     return build_app()
+
+
+def assert_one_line_error(result, *fragments) -> str:
+    """A CLI result failed cleanly: exit 2, one line on stderr starting 'error: ', no traceback,
+    and every fragment (strings, or one list of strings) present. Returns the line."""
+    if len(fragments) == 1 and isinstance(fragments[0], list | tuple):
+        fragments = tuple(fragments[0])
+    assert result.exit_code == 2, result.output
+    err = (result.stderr or "").strip()
+    assert err.startswith("error: "), err
+    assert "\n" not in err, err
+    assert "Traceback" not in result.output
+    for frag in fragments:
+        assert frag in err, (frag, err)
+    return err

@@ -9,18 +9,9 @@ import re
 
 import pytest
 from conftest import ROOT, SCREENED
+from conftest import assert_one_line_error as _one_line_error
 
 GATED = ROOT / "stacks" / "ql2409_doped_well.toml"
-
-
-def _one_line_error(res, fragments):
-    assert res.exit_code == 2, res.output
-    err = res.stderr.strip()
-    assert err.count("\n") == 0, err
-    assert err.startswith("error: ")
-    assert "Traceback" not in res.output
-    for frag in fragments:
-        assert frag in err, (frag, err)
 
 
 def test_bands_json_keys_and_plot(cli_runner, app, tmp_path):

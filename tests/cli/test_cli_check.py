@@ -6,6 +6,7 @@ import re
 
 import pytest
 from conftest import SCREENED, STACKS
+from conftest import assert_one_line_error as _assert_one_line_error
 
 GOOD = SCREENED.read_text()
 
@@ -88,16 +89,6 @@ def test_good_stack_exit_0(cli_runner, app, path, tmp_path):
     for lay in ("primary", "channel", "well"):
         if f'name = "{lay}"' in path.read_text():
             assert lay in res.stdout
-
-
-def _assert_one_line_error(res, fragments):
-    assert res.exit_code == 2, res.output
-    err = res.stderr.strip()
-    assert err.count("\n") == 0, err
-    assert err.startswith("error: ")
-    assert "Traceback" not in res.output
-    for frag in fragments:
-        assert frag in err, (frag, err)
 
 
 @pytest.mark.parametrize("case", sorted(BAD))

@@ -10,15 +10,7 @@ from __future__ import annotations
 import json
 
 import pytest
-
-
-def _one_line_error(result):
-    assert result.exit_code == 2, result.output
-    text = (result.stderr or "").strip()
-    assert text.startswith("error:"), text
-    assert "\n" not in text
-    assert "Traceback" not in text
-    return text
+from conftest import assert_one_line_error as _one_line_error
 
 
 def test_edge_writes_documented_outputs(cli_runner, app, screened_path, tmp_path):

@@ -8,6 +8,7 @@ import math
 
 import pytest
 from conftest import ROOT, SCREENED
+from conftest import assert_one_line_error as _one_line_error
 
 SETBACK_SPEC = ROOT / "sweeps" / "ql2417_setback.toml"
 
@@ -15,16 +16,6 @@ SETBACK_SPEC = ROOT / "sweeps" / "ql2417_setback.toml"
 def _rows(path):
     with open(path, newline="") as fh:
         return list(csv.DictReader(fh))
-
-
-def _one_line_error(result, *fragments):
-    assert result.exit_code == 2, result.output
-    err = result.stderr.strip()
-    assert err.startswith("error: ")
-    assert "\n" not in err
-    for f in fragments:
-        assert f in err, err
-    assert "Traceback" not in result.output
 
 
 def test_sweep_spec_then_plot(cli_runner, app, tmp_path):

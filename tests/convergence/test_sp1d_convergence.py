@@ -41,7 +41,7 @@ def test_second_order_decay():
     err = np.array([d[1] for d in data])
     for level in range(3):
         slope = np.polyfit(np.log(h), np.log(err[:, level]), 1)[0]
-        assert 1.8 < slope < 2.2, (level, slope, err[:, level])
+        assert slope > 1.8 and slope < 2.2, (level, slope, err[:, level])
 
 
 def test_predictor_corrector_beats_under_relaxation():
