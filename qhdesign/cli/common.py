@@ -17,9 +17,21 @@ __all__ = ["fail", "guarded", "option_quantity"]
 EXIT_USER_ERROR = 2
 
 
+def _is_lead_rank() -> bool:
+    """True unless this process is a non-zero MPI rank (read from the launcher's environment,
+    so that no MPI library is imported just to print an error)."""
+    import os
+
+    for var in ("PMI_RANK", "OMPI_COMM_WORLD_RANK", "MPI_LOCALRANKID"):
+        if var in os.environ:
+            return os.environ[var] == "0"
+    return True
+
+
 def fail(message: str) -> None:
-    """Print one line to stderr and exit with code 2."""
-    typer.echo(f"error: {' '.join(str(message).split())}", err=True)
+    """Print one line to stderr (rank 0 only under MPI) and exit with code 2."""
+    if _is_lead_rank():
+        typer.echo(f"error: {' '.join(str(message).split())}", err=True)
     raise typer.Exit(EXIT_USER_ERROR)
 
 
@@ -35,7 +47,8 @@ def guarded(func: Callable[..., Any]) -> Callable[..., Any]:
             return func(*args, **kwargs)
         except QHDesignError as exc:
             one = exc.one_line() if hasattr(exc, "one_line") else str(exc)
-            typer.echo(f"error: {' '.join(one.split())}", err=True)
+            if _is_lead_rank():  # under mpiexec every rank fails; one line is enough
+                typer.echo(f"error: {' '.join(one.split())}", err=True)
             raise typer.Exit(EXIT_USER_ERROR) from None
         except KeyboardInterrupt:
             typer.echo("interrupted", err=True)

@@ -139,3 +139,24 @@ def test_python_dash_m_runs_the_cli():
     )
     assert res.returncode == 0, res.stderr
     assert "primary" in res.stdout
+
+
+@pytest.mark.mpi
+def test_error_printed_once_under_mpiexec(tmp_path):
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    bad = tmp_path / "bad.toml"
+    bad.write_text("[wafer]\n")
+    bindir = Path(sys.executable).parent
+    res = subprocess.run(
+        [str(bindir / "mpiexec"), "-n", "2", str(bindir / "qhdesign"), "check", str(bad)],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert res.returncode == 2
+    lines = [ln for ln in res.stderr.splitlines() if ln.startswith("error: ")]
+    assert len(lines) == 1, res.stderr
+    assert "surface" in lines[0]
