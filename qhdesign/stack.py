@@ -355,23 +355,30 @@ class Stack:
         ``value`` is what the file would hold (``"30 nm"``, ``0.31``, ``"dx"``) or an SI float
         for a quantity (written back in the display unit: nm, cm^-2, eV, V, K).
         """
-        doc_path, kind = _resolve_path(self, path)
+        return self.with_values({path: value})
+
+    def with_values(self, values: dict[str, Any]) -> Stack:
+        """A new stack with every ``path -> value`` of ``values`` set, validated once at the end.
+
+        Each value is given as in :meth:`with_value`. Paths are checked against this stack
+        before anything changes; errors name the path.
+        """
         doc = copy.deepcopy(self.document)
-        node: Any = doc
-        for part in doc_path[:-1]:
-            if isinstance(node, dict) and part not in node:
-                node[part] = {}
-            node = node[part]
-        if isinstance(kind, str) and kind in _WRITE_UNITS and not isinstance(value, str):
-            value = _format_si(float(value), kind)
-        elif kind == "number" and isinstance(value, str):
-            try:
-                value = float(value)
-            except ValueError:
-                raise StackError(
-                    f"expected a number, got '{value}'", source=self.source, key=path
-                ) from None
-        node[doc_path[-1]] = value
+        for path, value in values.items():
+            doc_path, kind = _resolve_path(self, path)
+            node: Any = doc
+            for part in doc_path[:-1]:
+                node = node.setdefault(part, {})
+            if isinstance(kind, str) and kind in _WRITE_UNITS and not isinstance(value, str):
+                value = _format_si(float(value), kind)
+            elif kind == "number" and isinstance(value, str):
+                try:
+                    value = float(value)
+                except ValueError:
+                    raise StackError(
+                        f"expected a number, got '{value}'", source=self.source, key=path
+                    ) from None
+            node[doc_path[-1]] = value
         return _build(_denormalize(doc), self.source)
 
     # ----------------------------------------------------------------- output

@@ -10,7 +10,6 @@ summary reports the count.
 
 from __future__ import annotations
 
-import copy
 import hashlib
 import time
 from collections.abc import Mapping, Sequence
@@ -41,39 +40,10 @@ def design_key(params: Mapping[str, float]) -> str:
 
 
 def apply_values(stack, values: Mapping[str, float]):
-    """The stack with every ``path -> SI value`` of ``values`` set, validated once at the end.
-
-    Uses ``Stack.with_values`` when the stack offers it; otherwise edits a copy of the stack
-    document and rebuilds it once (one validation instead of one per path), falling back to
-    chained ``with_value`` calls if the stack module's internals differ.
-    """
+    """The stack with every ``path -> SI value`` of ``values`` set, validated once at the end."""
     if not values:
         return stack
-    bulk = getattr(stack, "with_values", None)
-    if bulk is not None:
-        return bulk(dict(values))
-    try:
-        from qhdesign import stack as stack_mod
-
-        resolve = stack_mod._resolve_path
-        fmt = stack_mod._format_si
-        units = stack_mod._WRITE_UNITS
-        build = stack_mod._build
-        denorm = stack_mod._denormalize
-    except AttributeError:  # pragma: no cover - internals changed: slow but correct
-        for path, v in values.items():
-            stack = stack.with_value(path, v)
-        return stack
-    doc = copy.deepcopy(stack.document)
-    for path, v in values.items():
-        doc_path, kind = resolve(stack, path)
-        node = doc
-        for part in doc_path[:-1]:
-            node = node.setdefault(part, {})
-        if isinstance(kind, str) and kind in units and not isinstance(v, str):
-            v = fmt(float(v), kind)
-        node[doc_path[-1]] = v
-    return build(denorm(doc), stack.source)
+    return stack.with_values(dict(values))
 
 
 def evaluate_design(job: Job, values: Mapping[str, float]) -> tuple[dict | None, str, str, float]:

@@ -90,3 +90,15 @@ def test_indirect_barrier_warns():
     )
     stack = loads_stack(text, source="w.toml")
     assert any("indirect" in w and "barrier_lower" in w for w in stack.warnings)
+
+
+def test_with_values_equals_chained_with_value():
+    s = load_stack(SCREENED)
+    vals = {"layers.setback_upper.thickness": 27e-9, "layers.barrier_upper.x": 0.3}
+    bulk = s.with_values(vals)
+    chained = s.with_value("layers.setback_upper.thickness", 27e-9).with_value(
+        "layers.barrier_upper.x", 0.3
+    )
+    assert bulk == chained
+    with pytest.raises(StackError, match="layers.nope.thickness"):
+        s.with_values({"layers.nope.thickness": 1e-9})
