@@ -94,13 +94,12 @@ def test_failed_designs_are_recorded_and_the_sweep_goes_on(tmp_path):
     assert "test stage refuses" in rows2[-1][h2.index("error")]
 
 
-@pytest.mark.mpi
-def test_serial_two_workers_and_mpi_write_identical_csvs(tmp_path):
-    spec = write_spec(tmp_path)
+def _run_three_ways(spec, tmp_path, chunk):
+    """The same sweep serially, on 2 local workers and under mpiexec -n 2: rows by executor."""
     outs = {}
     for name, cmd in {
         "serial": [*QH, "sweep", str(spec), "--workers", "1"],
-        "local2": [*QH, "sweep", str(spec), "--workers", "2", "--chunk", "3"],
+        "local2": [*QH, "sweep", str(spec), "--workers", "2", "--chunk", str(chunk)],
         "mpi2": [
             str(VENV_BIN / "mpiexec"),
             "-n",
@@ -114,6 +113,13 @@ def test_serial_two_workers_and_mpi_write_identical_csvs(tmp_path):
         res = run([*cmd, "--out", str(out), "-q"], cwd=tmp_path)
         assert res.returncode == 0, res.stderr
         outs[name] = read_rows(out)
+    return outs
+
+
+@pytest.mark.mpi
+def test_serial_two_workers_and_mpi_write_identical_csvs(tmp_path):
+    spec = write_spec(tmp_path)
+    outs = _run_three_ways(spec, tmp_path, chunk=3)
     header, rows = outs["serial"]
     assert len(rows) == 45
     assert {r[header.index("status")] for r in rows} == {"ok", "not_converged", "invalid"}
@@ -187,23 +193,7 @@ seed = 3
 def test_monte_carlo_rows_identical_serial_two_workers_and_mpi(tmp_path):
     spec = tmp_path / "mc.toml"
     spec.write_text(MC_SPEC.format(stack=STACK))
-    outs = {}
-    for name, cmd in {
-        "serial": [*QH, "sweep", str(spec), "--workers", "1"],
-        "local2": [*QH, "sweep", str(spec), "--workers", "2", "--chunk", "7"],
-        "mpi2": [
-            str(VENV_BIN / "mpiexec"),
-            "-n",
-            "2",
-            str(VENV_BIN / "qhdesign"),
-            "sweep",
-            str(spec),
-        ],
-    }.items():
-        out = tmp_path / f"{name}.csv"
-        res = run([*cmd, "--out", str(out), "-q"], cwd=tmp_path)
-        assert res.returncode == 0, res.stderr
-        outs[name] = read_rows(out)
+    outs = _run_three_ways(spec, tmp_path, chunk=7)
     header, rows = outs["serial"]
     assert len(rows) == 40
     assert "tol.ga_rate" in header
