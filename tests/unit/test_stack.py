@@ -100,5 +100,5 @@ def test_with_values_equals_chained_with_value():
         "layers.barrier_upper.x", 0.3
     )
     assert bulk == chained
-    with pytest.raises(StackError, match="layers.nope.thickness"):
+    with pytest.raises(StackError, match=r"layers\.nope\.thickness"):
         s.with_values({"layers.nope.thickness": 1e-9})
