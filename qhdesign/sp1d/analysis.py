@@ -96,7 +96,15 @@ def tunnel_splitting(
     zz = z[i0 : i1 + 1]
     u = state.U_J[i0 : i1 + 1]
     mass = dev.mass[i0:i1]
-    return anticrossing_gap(zz, u, mass, mid, tol_J=tol_J)
+    # start from the converged subbands: the lowest one living in each of the two wells
+    start = None
+    weights = subband_wells(layout, state.psi)
+    wells_of = [wells[int(np.argmax(weights[s, list(wells)]))] for s in range(len(weights))]
+    if upper in wells_of and lower in wells_of:
+        pair = [wells_of.index(upper), wells_of.index(lower)]
+        start = state.psi[pair, i0 : i1 + 1].copy()
+        start[:, [0, -1]] = 0.0
+    return anticrossing_gap(zz, u, mass, mid, tol_J=tol_J, psi_start=start)
 
 
 def anticrossing_gap(
@@ -106,13 +114,15 @@ def anticrossing_gap(
     z_split: float,
     *,
     tol_J: float = 1e-15 * sc.e,
+    psi_start: np.ndarray | None = None,
 ) -> float:
     """Minimum over a step detuning of the gap between the two lowest states (J).
 
     The region ``z`` (hard walls at both ends) holds two wells separated by a barrier whose
     middle is ``z_split``; the detuning delta is added to the potential below ``z_split``.
     Returns the anticrossing gap 2t, or 0 when it is below ``TUNNEL_RESOLUTION_J``. The method
-    is described in :func:`tunnel_splitting`.
+    is described in :func:`tunnel_splitting`. ``psi_start`` (shape (2, len(z))): approximate
+    lowest pair at zero detuning to start from (only the speed depends on it).
     """
     zz, u, mass, mid = z, potential_J, mass_cell, z_split
     step = (zz > mid).astype(float)
@@ -120,7 +130,7 @@ def anticrossing_gap(
 
     # start at zero detuning: the first two-level step already lands near the resonance
     delta = 0.0
-    psi = None
+    psi = psi_start
     best = math.inf
     split = math.inf
     for _ in range(_TUNNEL_MAX_STEPS):

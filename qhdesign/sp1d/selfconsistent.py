@@ -154,9 +154,13 @@ class _Problem:
         qmask = np.zeros(n_nodes, dtype=bool)
         qmask[q0 + 1 : q1] = True
         self.qmask = qmask
-        # classical electrons: half cells of semiconductor cells whose node is not quantum
+        # classical electrons: both halves of every semiconductor cell outside the quantum
+        # region [z_q0, z_q1] (the cells inside belong to the subbands alone, including the
+        # half cells at its end nodes, where psi = 0)
         semi = dev.semiconductor.astype(float)
-        self._set_classical(0.5 * h * semi * (~qmask[:-1]), 0.5 * h * semi * (~qmask[1:]))
+        cells = np.arange(len(h))
+        outside = (cells < q0) | (cells >= q1)
+        self._set_classical(0.5 * h * semi * outside, 0.5 * h * semi * outside)
         # donors
         self.frozen = frozen_donors
         self.don_half = 0.5 * h * dev.donors_m3  # m^-2 in each half cell
