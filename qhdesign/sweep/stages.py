@@ -144,7 +144,10 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
 
 
 def _island(stack, **options):
-    return _summary(_import("qhdesign.tf2d", "solve_island", "island")(stack, **options))
+    solve_island = _import("qhdesign.tf2d", "solve_island", "island")
+    from mpi4py import MPI  # one serial solve per design, as in _edge
+
+    return _summary(solve_island(stack, comm=MPI.COMM_SELF, **options))
 
 
 #: Built-in stages: name -> (callable, one-line description).

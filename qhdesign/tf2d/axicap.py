@@ -1,0 +1,573 @@
+"""Axisymmetric (r, z) capacitance matrices of thin conductors in layered dielectrics (DOLFINx).
+
+A linear electrostatics engine for :mod:`qhdesign.tf2d.island` and its validation problems
+(isolated disk, coaxial disks, disk between grounded planes). Every object is a horizontal line
+``z = const, r0 < r < r1`` (a disk or a ring in 3D):
+
+- ``conductor`` lines are ideal conductors whose Maxwell capacitance matrix is computed;
+- ``ground`` lines are grounded equipotentials (Dirichlet 0);
+- ``sheet`` lines are compressible electron sheets held at the Fermi level through their contacts
+  and treated in linear Thomas–Fermi response: a potential u on the sheet changes its charge by
+  -e^2 D u (D: 2D density of states). This adds the quantum-capacitance term e^2 D u v on the
+  sheet's interior facets to the weak form and e^2 D u^2 to the energy.
+
+The outer boundary (top, bottom, side r = R_out) is split into parts that are ``ground``
+(Dirichlet 0), ``free`` (zero normal field) or ``far`` (Robin monopole condition
+du/dn = -u (n . rho_hat)/rho, rho measured from a centre on the axis, which makes a monopole
+far field exact and adds the exterior field energy of that monopole to the form). The axis
+r = 0 needs no condition: every form carries the factor r.
+
+Capacitance by energy: with u_i the solution for conductor i at 1 V and every other conductor at
+0 V, C_ij = a(u_i, u_j), where a is the full symmetric bilinear form (field energy, sheet terms,
+Robin term). This is the Galerkin reaction charge, which converges at twice the rate of the
+energy-norm error; flux integrals over a conductor converge slowly at the edge singularity
+(DOLFINX-NOTES.md).
+
+Mesh: the tensor product of a graded r-node list and a graded z-level list (fine at every line
+end and every boundary-kind change, where the field is singular; coarse far away), each
+rectangle cut into two triangles, handed to gmsh as discrete entities with physical groups and
+distributed with ghosted shared facets (needed by interior-facet sheet integrals under MPI).
+Mesh coordinates are nm, (r, y = -z).
+
+References
+----------
+J. D. Jackson, Classical Electrodynamics, 3rd ed. (Wiley, 1999), sec. 1.11 (energy and
+capacitance coefficients) and sec. 3.12 (the charged disk).
+"""
+
+from __future__ import annotations
+
+import itertools
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import constants as sc
+
+from qhdesign.errors import InputError
+
+from .grid import size_function
+
+__all__ = [
+    "AxiLine",
+    "AxiMeshOptions",
+    "AxiProblem",
+    "CapacitanceSolution",
+    "solve_capacitance",
+]
+
+NM = 1e-9
+#: Boundary facet tags by kind; line i has tag LINE0 + i.
+BOUNDARY_TAGS = {"ground": 1, "free": 2, "far": 3}
+LINE0 = 100
+LINE_KINDS = ("conductor", "ground", "sheet")
+
+
+@dataclass(frozen=True)
+class AxiLine:
+    """A horizontal line z = z_m, r_from_m <= r <= r_to_m (a disk if r_from_m = 0, else a ring).
+
+    Attributes
+    ----------
+    z_m
+        Depth (m); must lie strictly inside the domain.
+    r_from_m, r_to_m
+        Radial extent (m).
+    kind
+        ``"conductor"``, ``"ground"`` or ``"sheet"``.
+    name
+        Conductor or sheet name.
+    dos_J_m2
+        2D density of states of a ``sheet`` (J^-1 m^-2).
+    """
+
+    z_m: float
+    r_from_m: float
+    r_to_m: float
+    kind: str
+    name: str = ""
+    dos_J_m2: float = 0.0
+
+
+@dataclass(frozen=True)
+class AxiProblem:
+    """Layers, lines and boundary conditions of an axisymmetric capacitance problem (SI).
+
+    Attributes
+    ----------
+    layer_z_m
+        Layer boundaries, increasing, shape (L+1,); the domain is layer_z_m[0] <= z <= [-1].
+    layer_permittivity
+        Relative permittivities, shape (L,).
+    lines
+        Conductors, grounded lines and sheets.
+    outer_radius_m
+        Domain radius R_out (m).
+    top
+        Parts of the top boundary: ``((r_from_m, r_to_m, kind), ...)`` covering [0, R_out];
+        kind in ``ground``, ``free``, ``far``.
+    bottom, side
+        Kind of the bottom boundary and of the side r = R_out.
+    far_centre_z_m
+        Depth of the monopole centre of the Robin condition (on the axis).
+    """
+
+    layer_z_m: tuple[float, ...]
+    layer_permittivity: tuple[float, ...]
+    lines: tuple[AxiLine, ...]
+    outer_radius_m: float
+    top: tuple[tuple[float, float, str], ...]
+    bottom: str = "far"
+    side: str = "far"
+    far_centre_z_m: float = 0.0
+
+    def __post_init__(self):
+        z = np.asarray(self.layer_z_m, dtype=float)
+        if z.ndim != 1 or z.size < 2 or np.any(np.diff(z) <= 0):
+            raise InputError("layer boundaries must increase", key="layer_z_m")
+        if len(self.layer_permittivity) != z.size - 1:
+            raise InputError("one permittivity per layer", key="layer_permittivity")
+        if min(self.layer_permittivity) <= 0:
+            raise InputError("permittivities must be > 0", key="layer_permittivity")
+        if not self.outer_radius_m > 0:
+            raise InputError("outer radius must be > 0", key="outer_radius_m")
+        for kind in (self.bottom, self.side, *(p[2] for p in self.top)):
+            if kind not in BOUNDARY_TAGS:
+                raise InputError(f"boundary kind '{kind}'; allowed: ground, free, far")
+        ends = sorted((float(a), float(b)) for a, b, _ in self.top)
+        if (
+            not ends
+            or ends[0][0] != 0.0
+            or ends[-1][1] != self.outer_radius_m
+            or any(b != a2 for (_, b), (a2, _) in itertools.pairwise(ends))
+        ):
+            raise InputError("top boundary parts must tile [0, R_out]", key="top")
+        for ln in self.lines:
+            if ln.kind not in LINE_KINDS:
+                raise InputError(f"line kind '{ln.kind}'; allowed: {', '.join(LINE_KINDS)}")
+            if not (z[0] < ln.z_m < z[-1]):
+                raise InputError(f"line '{ln.name}' at z = {ln.z_m:g} m is not inside the domain")
+            if not (0.0 <= ln.r_from_m < ln.r_to_m <= self.outer_radius_m):
+                raise InputError(f"line '{ln.name}' needs 0 <= r_from < r_to <= R_out")
+            if ln.kind == "sheet" and not ln.dos_J_m2 > 0:
+                raise InputError(f"sheet '{ln.name}' needs a density of states > 0")
+        # lines at different potentials must not touch (the capacitance would diverge)
+        for i, a in enumerate(self.lines):
+            for b in self.lines[i + 1 :]:
+                if abs(a.z_m - b.z_m) < 1e-15 and a.r_from_m <= b.r_to_m and b.r_from_m <= a.r_to_m:
+                    same = a.kind == b.kind == "ground" or (
+                        a.kind == b.kind == "conductor" and a.name == b.name
+                    )
+                    if not same:
+                        raise InputError(
+                            f"lines '{a.name}' and '{b.name}' touch or overlap; "
+                            "leave a gap between them"
+                        )
+
+    @property
+    def conductors(self) -> tuple[str, ...]:
+        """Conductor names in order of first appearance."""
+        out: list[str] = []
+        for ln in self.lines:
+            if ln.kind == "conductor" and ln.name not in out:
+                out.append(ln.name)
+        return tuple(out)
+
+
+@dataclass(frozen=True)
+class AxiMeshOptions:
+    """Graded tensor mesh and element (sizes in m; ``refine`` divides every size and the growth).
+
+    Attributes
+    ----------
+    h_edge_m
+        Cell size at every line end and every boundary-kind change (field singularities).
+    h_line_m
+        z-size at every line (conductors and sheets).
+    growth
+        Linear growth rate of the size away from those points.
+    h_max_m
+        Largest cell size.
+    degree
+        Lagrange degree (1 or 2).
+    refine
+        Refinement factor (2 halves every cell).
+    """
+
+    h_edge_m: float = 0.2e-9
+    h_line_m: float = 0.2e-9
+    growth: float = 0.5
+    h_max_m: float = 400e-9
+    degree: int = 2
+    refine: float = 1.0
+
+    def __post_init__(self):
+        if self.degree not in (1, 2):
+            raise InputError("element degree must be 1 or 2", key="degree")
+        if not (self.refine > 0 and self.h_edge_m > 0 and self.h_line_m > 0 and self.growth > 0):
+            raise InputError("mesh sizes, growth and refine must be > 0")
+
+
+@dataclass(frozen=True, eq=False)
+class CapacitanceSolution:
+    """Maxwell capacitance matrix and the solver record.
+
+    Attributes
+    ----------
+    names
+        Conductor names, shape (N,).
+    matrix_F
+        Maxwell capacitance matrix (F), shape (N, N); Q_i = sum_j C_ij V_j.
+    r_m, z_m
+        Grid nodes (m), shapes (nr,), (nz,).
+    potentials
+        u_i on the grid nodes, shape (N, nz, nr) (only if requested, else None).
+    info
+        dofs, cells, degree, timings (s).
+    """
+
+    names: tuple[str, ...]
+    matrix_F: np.ndarray
+    r_m: np.ndarray
+    z_m: np.ndarray
+    potentials: np.ndarray | None = None
+    info: dict = field(default_factory=dict)
+
+
+# ---------------------------------------------------------------------------- grid
+def graded_nodes_geometric(
+    breakpoints, attractors, growth: float, h_max: float, min_cells: int = 2
+) -> np.ndarray:
+    """Like :func:`qhdesign.tf2d.grid.graded_nodes`, for sizes down to 1e-6 of the interval.
+
+    The size h(s) = min(h_i + g |s - s_i|, h_max) near an attractor makes a geometric grading
+    (cell k has size ~ h_i (1 + g)^k), whose node count grows only like ln(1/h_i)/g. The
+    cumulative integral of 1/h is taken on sample points that are themselves geometric around
+    every attractor, so it stays exact for tiny h_i.
+    """
+    bps = np.unique(np.asarray(breakpoints, dtype=float))
+    nodes = [bps[:1]]
+    for a, b in itertools.pairwise(bps):
+        L = b - a
+        s = [np.linspace(a, b, 2001)]
+        for s0, h0 in attractors:
+            d = np.geomspace(max(h0, 1e-9 * L) * 1e-2, 2 * L + abs(s0 - a) + abs(s0 - b), 600)
+            s.append(np.concatenate((s0 - d, s0 + d)))
+        s = np.unique(np.clip(np.concatenate(s), a, b))
+        inv_h = 1.0 / size_function(s, attractors, growth, h_max)
+        cum = np.concatenate(([0.0], np.cumsum(0.5 * (inv_h[1:] + inv_h[:-1]) * np.diff(s))))
+        n = max(int(min_cells), int(np.ceil(cum[-1] - 1e-9)))
+        seg = np.interp(np.linspace(0.0, cum[-1], n + 1), cum, s)
+        seg[0], seg[-1] = a, b
+        nodes.append(seg[1:])
+    return np.concatenate(nodes)
+
+
+def build_axi_grid(problem: AxiProblem, opts: AxiMeshOptions) -> tuple[np.ndarray, np.ndarray]:
+    """Graded r-nodes and z-levels (m) containing every line end, line and layer boundary."""
+    f = float(opts.refine)
+    h_edge, h_line = opts.h_edge_m / f, opts.h_line_m / f
+    growth, h_max = opts.growth / f, opts.h_max_m / f
+    R = problem.outer_radius_m
+    r_breaks = {0.0, R}
+    for ln in problem.lines:
+        r_breaks |= {ln.r_from_m, ln.r_to_m}
+    for a, b, _ in problem.top:
+        r_breaks |= {float(a), float(b)}
+    # singular points: line ends away from the axis and the outer edge, boundary-kind changes
+    r_attr = sorted(r for r in r_breaks if 0.0 < r < R)
+    r = graded_nodes_geometric(
+        sorted(r_breaks), [(x, h_edge) for x in r_attr], growth, h_max, min_cells=2
+    )
+    zl = np.asarray(problem.layer_z_m, dtype=float)
+    line_z = sorted({ln.z_m for ln in problem.lines})
+    z_breaks = sorted(set(zl.tolist()) | set(line_z))
+    z_attr = [(zz, h_line) for zz in line_z]
+    if any(k != "far" for _, _, k in problem.top):  # a gate edge or surface on top
+        z_attr.append((float(zl[0]), h_edge))
+    z_attr += [(float(zz), 4 * h_line) for zz in zl[1:-1]]
+    z = graded_nodes_geometric(z_breaks, z_attr, growth, h_max, min_cells=2)
+    for zz in line_z:  # exact line depths (graded_nodes keeps breakpoints; remove fp noise)
+        z[int(np.argmin(np.abs(z - zz)))] = zz
+    return r, z
+
+
+def _gmsh_model(problem: AxiProblem, r_m: np.ndarray, z_m: np.ndarray) -> None:
+    """Discrete gmsh model of the tensor grid (rank 0): one surface per layer, tagged lines."""
+    import gmsh
+
+    x = r_m / NM
+    y = -z_m / NM
+    nr, nz = x.size, y.size
+    X, Y = np.meshgrid(x, y)  # (nz, nr), row = level
+    coords = np.column_stack((X.ravel(), Y.ravel(), np.zeros(X.size))).ravel()
+    node = np.arange(1, nr * nz + 1, dtype=np.int64).reshape(nz, nr)
+    gmsh.model.add("qhdesign_axisymmetric")
+    a, b, c, d = node[:-1, :-1], node[:-1, 1:], node[1:, 1:], node[1:, :-1]
+    t1 = np.stack((a, b, c), -1)
+    t2 = np.stack((a, c, d), -1)
+    zl = np.asarray(problem.layer_z_m, dtype=float)
+    mid = 0.5 * (z_m[1:] + z_m[:-1])
+    layer = np.clip(np.searchsorted(zl, mid) - 1, 0, zl.size - 2)
+    next_elem = 1
+    first = True
+    for li in range(zl.size - 1):
+        rows = np.nonzero(layer == li)[0]
+        if rows.size == 0:
+            continue
+        tag = li + 1
+        gmsh.model.addDiscreteEntity(2, tag)
+        if first:
+            gmsh.model.mesh.addNodes(2, tag, node.ravel(), coords)
+            first = False
+        tri = np.concatenate((t1[rows].reshape(-1, 3), t2[rows].reshape(-1, 3)))
+        ne = tri.shape[0]
+        gmsh.model.mesh.addElementsByType(tag, 2, np.arange(next_elem, next_elem + ne), tri.ravel())
+        next_elem += ne
+        gmsh.model.addPhysicalGroup(2, [tag], tag, name=f"layer{li}")
+
+    curves: dict[int, list[np.ndarray]] = {}
+
+    def row_segments(k: int, r0: float, r1: float) -> np.ndarray:
+        xc = 0.5 * (r_m[1:] + r_m[:-1])
+        keep = (xc > r0) & (xc < r1)
+        return np.column_stack((node[k, :-1][keep], node[k, 1:][keep]))
+
+    for a0, b0, kind in problem.top:
+        curves.setdefault(BOUNDARY_TAGS[kind], []).append(row_segments(0, a0, b0))
+    curves.setdefault(BOUNDARY_TAGS[problem.bottom], []).append(row_segments(nz - 1, 0.0, r_m[-1]))
+    curves.setdefault(BOUNDARY_TAGS[problem.side], []).append(
+        np.column_stack((node[:-1, -1], node[1:, -1]))
+    )
+    for i, ln in enumerate(problem.lines):
+        k = int(np.argmin(np.abs(z_m - ln.z_m)))
+        curves[LINE0 + i] = [row_segments(k, ln.r_from_m, ln.r_to_m)]
+    for n, (tag, parts) in enumerate(sorted(curves.items())):
+        seg = np.concatenate(parts)
+        if seg.size == 0:
+            continue
+        gmsh.model.addDiscreteEntity(1, n + 1)
+        ne = seg.shape[0]
+        gmsh.model.mesh.addElementsByType(
+            n + 1, 1, np.arange(next_elem, next_elem + ne), seg.ravel()
+        )
+        next_elem += ne
+        gmsh.model.addPhysicalGroup(1, [n + 1], tag)
+
+
+def _build_mesh(problem: AxiProblem, r_m: np.ndarray, z_m: np.ndarray, comm):
+    from .backend import load
+
+    _, dolfinx = load()
+    partitioner = dolfinx.mesh.create_cell_partitioner(dolfinx.mesh.GhostMode.shared_facet, 2)
+    gmsh = None
+    started = False
+    try:
+        if comm.rank == 0:
+            import gmsh
+
+            if not gmsh.isInitialized():
+                gmsh.initialize(interruptible=False)
+                started = True
+            gmsh.option.setNumber("General.Terminal", 0)
+            _gmsh_model(problem, r_m, z_m)
+            data = dolfinx.io.gmsh.model_to_mesh(
+                gmsh.model, comm, 0, gdim=2, partitioner=partitioner
+            )
+            gmsh.model.remove()
+        else:
+            data = dolfinx.io.gmsh.model_to_mesh(None, comm, 0, gdim=2, partitioner=partitioner)
+    finally:
+        if started and gmsh is not None:
+            gmsh.finalize()
+    return data
+
+
+# ---------------------------------------------------------------------------- solve
+def solve_capacitance(
+    problem: AxiProblem,
+    mesh_options: AxiMeshOptions | None = None,
+    *,
+    comm=None,
+    keep_potentials: bool = False,
+) -> CapacitanceSolution:
+    """Maxwell capacitance matrix of the conductors of ``problem`` (F).
+
+    Parameters
+    ----------
+    problem
+        Geometry, materials and boundary conditions.
+    mesh_options
+        Mesh and element (defaults: :class:`AxiMeshOptions`).
+    comm
+        MPI communicator (default ``MPI.COMM_WORLD``); the result is the same on every rank.
+    keep_potentials
+        Also return u_i on the grid nodes (for plots), shape (N, nz, nr).
+
+    Returns
+    -------
+    CapacitanceSolution
+
+    Notes
+    -----
+    One LU factorisation (MUMPS) serves every conductor: the Dirichlet dofs are the same for all
+    right-hand sides, only their values change.
+    """
+    from .backend import load
+
+    MPI, _dolfinx = load()
+    import ufl
+    from dolfinx import default_scalar_type, fem
+    from dolfinx.fem import petsc as fpetsc
+    from petsc4py import PETSc
+
+    opts = mesh_options or AxiMeshOptions()
+    comm = comm if comm is not None else MPI.COMM_WORLD
+    names = problem.conductors
+    if not names:
+        raise InputError("the problem has no conductor")
+    timings: dict[str, float] = {}
+    t0 = time.perf_counter()
+    r_m, z_m = build_axi_grid(problem, opts)
+    data = _build_mesh(problem, r_m, z_m, comm)
+    msh, ct, ft = data.mesh, data.cell_tags, data.facet_tags
+    timings["mesh_s"] = time.perf_counter() - t0
+
+    t0 = time.perf_counter()
+    V = fem.functionspace(msh, ("Lagrange", opts.degree))
+    Q = fem.functionspace(msh, ("DG", 0))
+    eps = fem.Function(Q)
+    eps.x.array[ct.indices] = np.asarray(problem.layer_permittivity, dtype=float)[ct.values - 1]
+    eps.x.scatter_forward()
+
+    xs = ufl.SpatialCoordinate(msh)
+    r = xs[0]
+    n = ufl.FacetNormal(msh)
+    centre = ufl.as_vector((0.0, -problem.far_centre_z_m / NM))
+    rho = xs - centre
+    beta = ufl.dot(n, rho) / ufl.dot(rho, rho)  # Robin coefficient (nm^-1)
+    dx = ufl.Measure("dx", domain=msh)
+    ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
+    dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
+
+    def energy(u, v):
+        """The bilinear form in units of eps_0 * nm (times 2 pi): C = 2 pi eps_0 nm * a."""
+        a = eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * r * dx
+        a += eps * beta * u * v * r * ds(BOUNDARY_TAGS["far"])
+        for i, ln in enumerate(problem.lines):
+            if ln.kind == "sheet":
+                # linear Thomas–Fermi sheet: e^2 D / eps_0 in nm^-1 (the quantum capacitance)
+                q = default_scalar_type(sc.e**2 * ln.dos_J_m2 / sc.epsilon_0 * NM)
+                a += fem.Constant(msh, q) * u("+") * v("+") * r("+") * dS(LINE0 + i)
+        return a
+
+    u_t, v_t = ufl.TrialFunction(V), ufl.TestFunction(V)
+    a_form = fem.form(energy(u_t, v_t))
+    L_form = fem.form(fem.Constant(msh, default_scalar_type(0.0)) * v_t * r * dx)
+
+    def dofs_of(tags) -> np.ndarray:
+        found = [fem.locate_dofs_topological(V, 1, ft.find(t)) for t in tags]
+        return np.unique(np.concatenate(found)).astype(np.int32)
+
+    ground_tags = [BOUNDARY_TAGS["ground"]] + [
+        LINE0 + i for i, ln in enumerate(problem.lines) if ln.kind == "ground"
+    ]
+    cond_dofs = [
+        dofs_of([LINE0 + i for i, ln in enumerate(problem.lines) if ln.name == nm_])
+        for nm_ in names
+    ]
+    all_dofs = np.unique(np.concatenate([dofs_of(ground_tags), *cond_dofs])).astype(np.int32)
+    g = fem.Function(V)
+    bc = fem.dirichletbc(g, all_dofs)
+    A = fpetsc.assemble_matrix(a_form, bcs=[bc])
+    A.assemble()
+    ksp = PETSc.KSP().create(comm)
+    ksp.setOperators(A)
+    ksp.setType("preonly")
+    pc = ksp.getPC()
+    pc.setType("lu")
+    pc.setFactorSolverType("mumps")
+    ksp.setFromOptions()
+    timings["assemble_s"] = time.perf_counter() - t0
+
+    t0 = time.perf_counter()
+    sols = []
+    for dofs in cond_dofs:
+        g.x.array[:] = 0.0
+        g.x.array[dofs] = 1.0
+        b = fpetsc.assemble_vector(L_form)
+        fpetsc.apply_lifting(b, [a_form], bcs=[[bc]])
+        b.ghostUpdate(addv=PETSc.InsertMode.ADD, mode=PETSc.ScatterMode.REVERSE)
+        fpetsc.set_bc(b, [bc])
+        u = fem.Function(V)
+        ksp.solve(b, u.x.petsc_vec)
+        if ksp.getConvergedReason() <= 0:  # pragma: no cover - LU does not fail quietly
+            from qhdesign.errors import ConvergenceError
+
+            raise ConvergenceError("axisymmetric capacitance LU", 1, [], "", reason="MUMPS")
+        u.x.scatter_forward()
+        sols.append(u)
+        b.destroy()
+    timings["solve_s"] = time.perf_counter() - t0
+
+    t0 = time.perf_counter()
+    ua, ub = fem.Function(V), fem.Function(V)
+    c_form = fem.form(energy(ua, ub))
+    N = len(names)
+    C = np.zeros((N, N))
+    scale = 2.0 * np.pi * sc.epsilon_0 * NM  # F per unit of the nm-form
+    for i in range(N):
+        for j in range(i, N):
+            ua.x.array[:] = sols[i].x.array
+            ub.x.array[:] = sols[j].x.array
+            val = comm.allreduce(fem.assemble_scalar(c_form), op=MPI.SUM)
+            C[i, j] = C[j, i] = scale * val
+    # the raw (i, j) and (j, i) values: symmetry of the computed matrix before symmetrising
+    asym = 0.0
+    for i in range(N):
+        for j in range(i + 1, N):
+            ua.x.array[:] = sols[j].x.array
+            ub.x.array[:] = sols[i].x.array
+            val = scale * comm.allreduce(fem.assemble_scalar(c_form), op=MPI.SUM)
+            asym = max(asym, abs(val - C[i, j]) / max(abs(C[i, i]), abs(C[j, j])))
+    timings["energy_s"] = time.perf_counter() - t0
+
+    pots = None
+    if keep_potentials:
+        pots = np.stack([_on_grid(u, V, r_m, z_m, comm) for u in sols])
+    ksp.destroy()
+    A.destroy()
+    info = {
+        "dofs": int(V.dofmap.index_map.size_global),
+        "cells": int(msh.topology.index_map(2).size_global),
+        "grid_nodes_r": int(r_m.size),
+        "grid_levels_z": int(z_m.size),
+        "element_degree": int(opts.degree),
+        "smallest_cell_m": float(min(np.diff(r_m).min(), np.diff(z_m).min())),
+        "ranks": int(comm.size),
+        "linear_solver": "LU (MUMPS)",
+        "raw_asymmetry": float(asym),
+        "timings_s": timings,
+    }
+    return CapacitanceSolution(tuple(names), C, r_m, z_m, pots, info)
+
+
+def _on_grid(u, V, r_m, z_m, comm) -> np.ndarray:
+    """Nodal values of u on the tensor grid, gathered on every rank, shape (nz, nr)."""
+    coords = V.tabulate_dof_coordinates()
+    n_own = V.dofmap.index_map.size_local
+    rr = coords[:n_own, 0] * NM
+    zz = -coords[:n_own, 1] * NM
+    ir = np.searchsorted(r_m, rr - 1e-6 * NM)
+    iz = np.searchsorted(z_m, zz - 1e-6 * NM)
+    ok = (
+        (ir < r_m.size)
+        & (iz < z_m.size)
+        & np.isclose(r_m[np.minimum(ir, r_m.size - 1)], rr, rtol=0, atol=1e-6 * NM)
+        & np.isclose(z_m[np.minimum(iz, z_m.size - 1)], zz, rtol=0, atol=1e-6 * NM)
+    )
+    parts = comm.allgather((iz[ok], ir[ok], u.x.array[:n_own][ok].copy()))
+    out = np.full((z_m.size, r_m.size), np.nan)
+    for a, b, v in parts:
+        out[a, b] = v
+    return out
