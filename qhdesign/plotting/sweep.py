@@ -45,7 +45,15 @@ def feasible_mask(table, criteria: Mapping[str, tuple[float, float]] | None) -> 
 def _criteria(table, criteria):
     if criteria is None:
         criteria = table.meta.get("criteria", {}) or {}
-    return {table.resolve(k, "output"): (float(v[0]), float(v[1])) for k, v in criteria.items()}
+
+    # an open bound is stored as null in the (strict JSON) sidecar
+    def bound(x, default):
+        return default if x is None else float(x)
+
+    return {
+        table.resolve(k, "output"): (bound(v[0], -np.inf), bound(v[1], np.inf))
+        for k, v in criteria.items()
+    }
 
 
 def design_window(

@@ -201,8 +201,11 @@ def build_results(
     ncl = state.n_classical_m3
     par_cell = 0.5 * (ncl[:-1] + ncl[1:]) * dev.h
     p2 = state.psi**2
+    # a subband shared by two degenerate wells (fraction_in_well ~ 0.5 in each) is still a 2DEG:
+    # the test is the weight in all wells together
+    in_wells = weights[:, list(well_idx)].sum(axis=1)
     for s in range(len(en)):
-        if sub_results[s].fraction_in_well < 0.5:
+        if in_wells[s] < 0.5:
             par_cell = par_cell + n_sub[s] * 0.5 * (p2[s, :-1] + p2[s, 1:]) * dev.h
     par_layer = per_layer(layout, par_cell)
     centres = dev.centres

@@ -5,9 +5,10 @@ with the gate at the cool-down bias; the gate voltage is then swept at the solve
 each point warm-started from a linear extrapolation of the two previous potentials.
 
 A well's depletion threshold is the gate voltage where its lowest subband crosses the Fermi
-level (linear interpolation between sweep points); unlike a density criterion this does not
-depend on the thermal tail. Slopes dn/dV are least-squares fits inside each segment between
-thresholds.
+level, found by Brent's method between the two sweep points around it (so it does not depend on
+the step); unlike a density criterion this does not depend on the thermal tail. Slopes dn/dV
+are least-squares fits inside each segment between thresholds; a segment is named by the wells
+that hold electrons in it, so a sweep column means the same regime in every row.
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import constants as sc
+from scipy.optimize import brentq
 
 from ..errors import InputError
 from .analysis import cell_electrons, per_layer, subband_wells
@@ -89,6 +91,7 @@ class GateResult:
                 {
                     "from_V": s["from_V"],
                     "to_V": s["to_V"],
+                    "filled_wells": list(s.get("filled", ())),
                     "slope_m2_V": {k: _num(v) for k, v in s["slope_m2_V"].items()},
                 }
                 for s in self.segments
@@ -112,9 +115,13 @@ class GateResult:
             out[f"{name}_density_at_{self.voltages_V[i0]:+.3f}V_cm^-2"] = (
                 self.density_m2[i, i0] / _CM2
             )
-        for k, seg in enumerate(self.segments):
+        # one column per (well, regime): the regime is the set of wells holding electrons, so
+        # a column means the same thing in every row of a sweep, whichever thresholds fall
+        # inside that row's voltage range
+        for seg in self.segments:
+            regime = "+".join(seg.get("filled", ())) or "none"
             for name, s in seg["slope_m2_V"].items():
-                out[f"segment{k}_{name}_slope_cm^-2_per_V"] = s / _CM2
+                out[f"{name}_slope_while_{regime}_filled_cm^-2_per_V"] = s / _CM2
         return out
 
     def to_csv(self) -> str:
@@ -231,6 +238,10 @@ def gate_response(
     prev: list[np.ndarray] = []
     last_psi = None  # previous point's subbands start the next eigen-solve
     count = 0
+    # every change of a well's state (filled <-> empty) between neighbouring points, with the
+    # potentials and subbands at both ends: the thresholds are refined inside these brackets
+    brackets: list[list[tuple]] = [[] for _ in wells]
+    last = None
     for j, v in enumerate(volts):
         guess = None
         if len(prev) >= 2:
@@ -261,15 +272,45 @@ def gate_response(
             mine = np.nonzero(owner == k)[0]
             if len(mine):
                 e1[k, j] = st.energies_J[mine[0]]
+        if last is not None:
+            for k in range(len(wells)):
+                if (last[0][k] < 0.0) != (e1[k, j] < 0.0):
+                    brackets[k].append((last[1], float(v), last[2], st.phi_V, st.psi))
+        last = (e1[:, j].copy(), float(v), st.phi_V)
 
-    thresholds = {name: _threshold(volts, e1[k], dens[k]) for k, name in enumerate(names)}
+    def lowest_in_well(k: int, v: float, bracket) -> float:
+        """E_1 - E_F (J) of well k at gate voltage v, warm-started inside a bracket; a well
+        whose subband lies above every computed one returns the computed ceiling (> 0)."""
+        va, vb, pa, pb, psi = bracket
+        f = (v - va) / (vb - va)
+        st = solve_at(
+            stack,
+            frozen,
+            float(v),
+            t,
+            opts,
+            phi_guess=(1.0 - f) * pa + f * pb,
+            count_hint=count,
+            gated=gated,
+            warm_psi=psi,
+        )
+        weights = subband_wells(layout, st.psi)[:, list(wells)]
+        mine = np.nonzero(np.argmax(weights, axis=1) == k)[0]
+        return float(st.energies_J[mine[0]]) if len(mine) else float(st.energies_J[-1])
+
+    thresholds = {
+        name: _threshold(
+            volts, e1[k], dens[k], brackets[k], lambda v, b, k=k: lowest_in_well(k, v, b)
+        )
+        for k, name in enumerate(names)
+    }
     order = tuple(
         sorted(
             (n for n in names if not math.isnan(thresholds[n])),
             key=lambda n: -thresholds[n],
         )
     )
-    segments = _segments(volts, dens, names, thresholds)
+    segments = _segments(volts, dens, names, thresholds, e1)
     prim = names[roles.index("primary")]
     ip = names.index(prim)
     upper = [n for k, n in enumerate(names[:ip]) if roles[k] == "screening"]
@@ -321,8 +362,17 @@ def gate_response(
     )
 
 
-def _threshold(volts: np.ndarray, e1: np.ndarray, dens: np.ndarray) -> float:
-    """Voltage where the well's lowest subband crosses E_F (NaN if not inside the sweep)."""
+def _threshold(volts, e1, dens, brackets=(), e1_at=None, xtol_V: float = 1e-6) -> float:
+    """Voltage where the well's lowest subband crosses E_F (NaN if not inside the sweep).
+
+    The crossing at the highest voltage where the well empties (filled above, empty below) is
+    taken. With ``brackets`` (the states at the two sweep points around each change) and
+    ``e1_at(v, bracket)`` it is found by Brent's method on E_1(V) - E_F to ``xtol_V``: the
+    subband energy has a kink there (pinned near E_F by the well's own quantum capacitance
+    while filled, moving with the gate once empty), so interpolating between sweep points would
+    pull the threshold towards the filled side by up to a third of a step. Without them the
+    linear interpolation between the two points is returned.
+    """
     order = np.argsort(volts)
     v = volts[order]
     e = np.where(np.isnan(e1[order]), np.inf, e1[order])
@@ -331,6 +381,19 @@ def _threshold(volts: np.ndarray, e1: np.ndarray, dens: np.ndarray) -> float:
     # scan from high voltage down: the first filled -> empty transition
     for j in range(len(v) - 1, 0, -1):
         if filled[j] and not filled[j - 1]:
+            lo, hi = float(v[j - 1]), float(v[j])
+            if e1_at is not None:
+                for b in brackets:
+                    if {b[0], b[1]} == {lo, hi}:
+                        # the two ends are known (an uncomputed empty-side subband is replaced
+                        # by the computed ceiling, which is above E_F as well)
+                        ends = {hi: float(e[j])}
+                        ends[lo] = float(e[j - 1]) if np.isfinite(e[j - 1]) else e1_at(lo, b)
+
+                        def g(x, b=b, ends=ends):
+                            return ends[x] if x in ends else e1_at(x, b)
+
+                        return float(brentq(g, lo, hi, xtol=xtol_V))
             if np.isfinite(e[j - 1]):
                 return float(v[j] + (v[j - 1] - v[j]) * e[j] / (e[j] - e[j - 1]))
             # the empty side's subband was not computed: extrapolate the density linearly
@@ -341,8 +404,9 @@ def _threshold(volts: np.ndarray, e1: np.ndarray, dens: np.ndarray) -> float:
     return math.nan
 
 
-def _segments(volts, dens, names, thresholds) -> tuple[dict, ...]:
-    """Least-squares dn/dV of every well inside each segment between thresholds."""
+def _segments(volts, dens, names, thresholds, e1=None) -> tuple[dict, ...]:
+    """Least-squares dn/dV of every well inside each segment between thresholds, with the wells
+    that hold electrons there (lowest subband below E_F at most of the segment's points)."""
     lo, hi = float(volts.min()), float(volts.max())
     step = float(np.min(np.abs(np.diff(volts)))) if len(volts) > 1 else 0.0
     cuts = sorted(t for t in thresholds.values() if not math.isnan(t) and lo < t < hi)
@@ -362,5 +426,9 @@ def _segments(volts, dens, names, thresholds) -> tuple[dict, ...]:
                 slopes[name] = float(np.polyfit(volts[inside], dens[k, inside], 1)[0])
             else:
                 slopes[name] = math.nan
-        out.append({"from_V": a, "to_V": b, "slope_m2_V": slopes})
+        filled: tuple[str, ...] = ()
+        if e1 is not None and inside.any():
+            below = np.where(np.isnan(e1[:, inside]), np.inf, e1[:, inside]) < 0.0
+            filled = tuple(n for k, n in enumerate(names) if below[k].mean() > 0.5)
+        out.append({"from_V": a, "to_V": b, "filled": filled, "slope_m2_V": slopes})
     return tuple(out)

@@ -67,6 +67,13 @@ def analyze_tolerance(
         if tol_cols:
             ranking[name] = sensitivity(x[ok], col[ok], tol_cols)
     crit = dict(criteria if criteria is not None else table.meta.get("criteria", {}))
-    crit = {table.resolve(k, "output"): (float(v[0]), float(v[1])) for k, v in crit.items()}
+    # an open bound is stored as null in the (strict JSON) sidecar
+    crit = {
+        table.resolve(k, "output"): (
+            -np.inf if v[0] is None else float(v[0]),
+            np.inf if v[1] is None else float(v[1]),
+        )
+        for k, v in crit.items()
+    }
     frac = criteria_fraction(table.data, ok, crit) if crit else None
     return ToleranceReport(len(ok), int(ok.sum()), stats, ranking, crit, frac)

@@ -176,3 +176,20 @@ def test_calibrate_threshold_round_trip(cli_runner, app, tmp_path):
     # an independent route to the threshold (sweep + interpolation of E1 at E_F) agrees with
     # the measurement to a small fraction of the 10 mV step (tolerance: 1 mV)
     assert g.thresholds_V["well"] == pytest.approx(-0.4, abs=1e-3)
+
+
+def test_output_piped_into_head_still_writes_the_json(tmp_path):
+    # `qhdesign bands ... --json out.json | head -1`: the reader leaves after one line; the
+    # command must still finish, write its file, and exit 0 (not 1 from a BrokenPipeError)
+    import subprocess
+    import sys
+
+    out = tmp_path / "out.json"
+    cmd = (
+        f"{sys.executable} -m qhdesign bands {SCREENED} --json {out} | head -1 >/dev/null; "
+        "exit ${PIPESTATUS[0]}"
+    )
+    proc = subprocess.run(["bash", "-c", cmd], capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "Traceback" not in proc.stderr
+    assert json.loads(out.read_text())["converged"] is True
