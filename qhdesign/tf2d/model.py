@@ -87,6 +87,9 @@ class CrossSection:
         Solve temperature (K).
     charge_z_m, charge_C_m3
         Frozen volume charge: cell centres, shape (N,), and density (C/m^3) on the 1D grid.
+    charge_edges_m
+        The cells' edges, shape (N+1,) (the 1D nodes); empty: midpoints between the centres,
+        exact only on a uniform grid.
     surface_charge_C_m2
         Frozen charge of an exposed surface (C/m^2).
     surface_potential_V
@@ -108,6 +111,7 @@ class CrossSection:
     temperature_K: float
     charge_z_m: np.ndarray = field(default_factory=lambda: np.zeros(0))
     charge_C_m3: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    charge_edges_m: np.ndarray = field(default_factory=lambda: np.zeros(0))
     surface_charge_C_m2: float = 0.0
     surface_potential_V: float = 0.0
     gate_barrier_J: float = 0.0
@@ -170,6 +174,12 @@ def cross_section_from_sheet_model(model, *, gate_barrier_J: float | None = None
         temperature_K=float(model.temperature_K),
         charge_z_m=np.asarray(model.fixed_charge_z_m, dtype=float),
         charge_C_m3=np.asarray(model.fixed_charge_C_m3, dtype=float),
+        charge_edges_m=np.asarray(
+            getattr(model, "fixed_charge_edges_m", None)
+            if getattr(model, "fixed_charge_edges_m", None) is not None
+            else np.zeros(0),
+            dtype=float,
+        ),
         surface_charge_C_m2=float(model.surface_charge_C_m2),
         surface_potential_V=float(model.surface_bias_V) - barrier / sc.e,
         gate_barrier_J=barrier if gate_barrier_J is None else float(gate_barrier_J),
@@ -199,12 +209,15 @@ def lump_volume_charge(
     rho_C_m3: np.ndarray,
     z_min: float,
     z_max: float,
+    cell_edges_m: np.ndarray | None = None,
 ) -> np.ndarray:
     """Lump a cell-wise constant volume charge onto z-levels with hat-function weights.
 
-    Each 1D cell spans the midpoints between neighbouring centres (ends at ``z_min``/``z_max``).
-    The charge of every piece between two levels is split linearly between them, which keeps the
-    total charge and its first moment exactly.
+    Each 1D cell spans ``cell_edges_m`` (shape (N+1,), the 1D nodes) when given; otherwise the
+    midpoints between neighbouring centres (ends at ``z_min``/``z_max``), which are the true
+    edges only on a uniform grid. The charge of every piece between two levels is split
+    linearly between them, which keeps the total charge, sum rho_i (edge_{i+1} - edge_i), and
+    its first moment exactly.
 
     Returns
     -------
@@ -217,7 +230,10 @@ def lump_volume_charge(
     rho = np.asarray(rho_C_m3, dtype=float)
     if zc.size == 0:
         return q
-    edges = np.concatenate(([z_min], 0.5 * (zc[1:] + zc[:-1]), [z_max]))
+    if cell_edges_m is not None and np.size(cell_edges_m) == zc.size + 1:
+        edges = np.clip(np.asarray(cell_edges_m, dtype=float), z_min, z_max)
+    else:
+        edges = np.concatenate(([z_min], 0.5 * (zc[1:] + zc[:-1]), [z_max]))
     bps = np.unique(np.concatenate((edges, levels)))
     bps = bps[(bps >= z_min) & (bps <= z_max)]
     a, b = bps[:-1], bps[1:]
@@ -314,7 +330,12 @@ def calibrate(
     z = np.asarray(levels_m, dtype=float)
     kT = sc.k * section.temperature_K
     q_fixed = lump_volume_charge(
-        z, section.charge_z_m, section.charge_C_m3, float(z[0]), float(z[-1])
+        z,
+        section.charge_z_m,
+        section.charge_C_m3,
+        float(z[0]),
+        float(z[-1]),
+        section.charge_edges_m if np.size(section.charge_edges_m) else None,
     )
     idx = []
     for s in section.sheets:

@@ -25,6 +25,24 @@ def test_lumping_keeps_charge_and_first_moment():
     assert np.sum(q * levels) == pytest.approx(np.sum(rho * 1e-9 * zc), rel=1e-12)
 
 
+def test_lumping_on_a_graded_grid_uses_the_true_cell_edges():
+    # a graded 1D grid (spacing growing 10 % per cell): the cells' edges are the nodes, not the
+    # midpoints between centres; with the nodes given the total charge sum rho_i h_i and the
+    # first moment sum rho_i h_i zbar_i (zbar_i = cell midpoint) are kept exactly (analytic:
+    # hat functions reproduce constants and linear functions)
+    h = 0.2e-9 * 1.1 ** np.arange(40)
+    nodes = np.concatenate(([0.0], np.cumsum(h)))
+    zc = 0.5 * (nodes[1:] + nodes[:-1])
+    rho = 1.0 + np.sin(zc / 5e-9)
+    levels = np.linspace(0.0, nodes[-1], 7)
+    q = lump_volume_charge(levels, zc, rho, 0.0, nodes[-1], nodes)
+    assert q.sum() == pytest.approx(np.sum(rho * h), rel=1e-12)
+    assert np.sum(q * levels) == pytest.approx(np.sum(rho * h * zc), rel=1e-12)
+    # without the nodes the midpoint edges miscount a graded grid (the defect this guards)
+    q_mid = lump_volume_charge(levels, zc, rho, 0.0, nodes[-1])
+    assert abs(q_mid.sum() / np.sum(rho * h) - 1.0) > 1e-3
+
+
 def test_column_between_grounded_plates_matches_capacitor_formula():
     # analytic: sheet sigma at d1 between grounded plates: phi = sigma d1 d2 / (eps (d1 + d2))
     d1, d2, eps_r, sigma = 30e-9, 70e-9, 12.9, 1e-3
