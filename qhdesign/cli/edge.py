@@ -290,8 +290,14 @@ def register(app: typer.Typer) -> None:
             return
         typer.echo(f"{stack.name}: split gate, gap {w * 1e9:.0f} nm ({surf} surface)")
         for name, vp in res.pinchoff_V.items():
-            text = "not pinched in the sweep" if vp is None else f"{vp:+.3f} V"
-            typer.echo(f"  {name}: pinch-off {text}")
+            state = res.status.get(name, "open")
+            if vp is not None:
+                text = f"pinch-off {vp:+.3f} V"
+            elif state == "closed at start":
+                text = f"already pinched off at {a:+.3f} V (the first voltage)"
+            else:
+                text = "not pinched in the sweep"
+            typer.echo(f"  {name}: {text}")
         if json_out is not None:
             from qhdesign.io import atomic_write_json
 

@@ -43,11 +43,15 @@ class PinchoffResult:
     pinchoff_V: dict  # well -> float | None
     tolerance_V: float = PINCHOFF_TOL_V
     info: dict = field(default_factory=dict)
+    #: well -> "pinched" (at pinchoff_V), "closed at start" (below the threshold already at the
+    #: first voltage) or "open" (never pinched within the sweep)
+    status: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
         return {
             "gap_m": self.gap_m,
             "pinchoff_V": dict(self.pinchoff_V),
+            "pinchoff_status": dict(self.status),
             "pinchoff_tolerance_V": self.tolerance_V,
             "pinchoff_fraction_of_bulk": EDGE_FRACTION,
             "bulk_density_m2": dict(self.bulk_density_m2),
@@ -76,12 +80,14 @@ def solve_pinchoff(
     A well is pinched off when its density at x = 0 falls below ``EDGE_FRACTION`` of its bulk
     density. The sweep from ``v_start`` to ``v_stop`` brackets each pinch-off; bisection then
     narrows it to ``tolerance_V``. A well already below the threshold at ``v_start`` or never
-    pinched within the sweep gets None.
+    pinched within the sweep gets None, and its ``status`` says which.
     """
     if not gap_m > 0:
         raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
     for v in (v_start, v_stop):
         _check_gate_voltage(section, v)
+    if not any(s.density_m2 > 0.0 for s in section.sheets):
+        raise InputError("the stack has no electrons at zero gate bias; nothing to pinch off")
     solver = _split_solver(section, gap_m, mesh_options, options, comm)
     names = [s.name for s in section.sheets]
     thr = np.array([EDGE_FRACTION * s.density_m2 for s in section.sheets])
@@ -99,11 +105,14 @@ def solve_pinchoff(
     volts = volts[: len(dens)]
     dens_arr = np.array(dens)  # (M, S)
     pinch: dict[str, float | None] = {}
+    status: dict[str, str] = {}
     for i, name in enumerate(names):
         open_ = dens_arr[:, i] >= thr[i]
         if not open_[0] or open_.all():
             pinch[name] = None
+            status[name] = "closed at start" if not open_[0] else "open"
             continue
+        status[name] = "pinched"
         j = int(np.argmin(open_))  # first closed point
         hi, lo = float(volts[j - 1]), float(volts[j])  # hi open, lo closed
         while hi - lo > tolerance_V:
@@ -119,6 +128,7 @@ def solve_pinchoff(
         centre_density_m2={n: dens_arr[:, i] for i, n in enumerate(names)},
         bulk_density_m2={s.name: s.density_m2 for s in section.sheets},
         pinchoff_V=pinch,
+        status=status,
         tolerance_V=tolerance_V,
         info={"dofs": solver.num_dofs, "linear_solver": solver.linear_solver},
     )
@@ -181,6 +191,8 @@ def solve_constriction(
     if not gap_m > 0:
         raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
     _check_gate_voltage(section, gate_voltage_V)
+    if not any(s.density_m2 > 0.0 for s in section.sheets):
+        raise InputError("the stack has no electrons at zero gate bias; nothing to pinch off")
     solver = _split_solver(section, gap_m, mesh_options, options, comm)
     sol = solver.solve(gate_voltage_V)
     _check_electrons(sol, section, gate_voltage_V)

@@ -8,8 +8,10 @@ of the bulk density between the sweep points around the reported voltage; docs/m
 from __future__ import annotations
 
 import json
+import re
 
 import pytest
+from conftest import ROOT
 from conftest import assert_one_line_error as _one_line_error
 
 
@@ -149,3 +151,27 @@ def test_edge_split_gate_reports_constriction(cli_runner, app, screened_path, tm
         assert w["pinched"] == (w["centre_density_m2"] < 0.01 * w["bulk_density_m2"])
         if w["channel_width_m"] is not None:
             assert 0 < w["channel_width_m"] < 1e-6
+
+
+def test_pinchoff_tells_closed_at_start_from_never_pinched(
+    cli_runner, app, screened_path, tmp_path
+):
+    # starting at -1.2 V the upper screening well is already closed at the constriction centre,
+    # the lower one stays open down to -1.5 V: the two must not read the same
+    out = tmp_path / "p.json"
+    args = ["pinchoff", str(screened_path), "--gap", "300 nm", "--from", "-1.2", "--to", "-1.5"]
+    r = cli_runner.invoke(app, [*args, "--step", "0.1", "--refine", "0.5", "--json", str(out)])
+    assert r.exit_code == 0, r.output
+    status = json.loads(out.read_text())["pinchoff_status"]
+    assert status["screen_upper"] == "closed at start"
+    assert status["screen_lower"] == "open"
+    assert "already pinched off" in r.output and "not pinched in the sweep" in r.output
+
+
+def test_pinchoff_without_electrons_exit_2(cli_runner, app, tmp_path):
+    # an undoped stack has nothing to pinch off: same one-line refusal as `edge`
+    text = (ROOT / "stacks" / "ql2409_doped_well.toml").read_text()
+    undoped = tmp_path / "undoped.toml"
+    undoped.write_text(re.sub(r'sheet = "[^"]*"', 'sheet = "1e6 cm^-2"', text))
+    r = cli_runner.invoke(app, ["pinchoff", str(undoped), "--gap", "300 nm"])
+    assert "no electrons" in _one_line_error(r)
