@@ -183,7 +183,12 @@ def open_executor(
         for v in _THREAD_VARS:
             os.environ.setdefault(v, "1")
         try:
-            with ProcessPoolExecutor(max_workers=n, mp_context=ctx) as ex:
+            with ProcessPoolExecutor(
+                max_workers=n,
+                mp_context=ctx,
+                initializer=_exit_with_parent,
+                initargs=(os.getpid(),),
+            ) as ex:
                 yield ex, "local", n
         finally:
             for v, old in saved.items():
@@ -207,6 +212,30 @@ def open_executor(
             )
         with MPICommExecutor(comm, root=0) as ex:
             yield ex, "mpi", comm.Get_size() - 1
+
+
+def _exit_with_parent(parent_pid: int, period_s: float = 1.0) -> None:
+    """Worker initializer: end this worker when the sweep's main process is gone.
+
+    A main process killed outright (SIGKILL, out-of-memory) cannot shut its pool down; its
+    workers would then sit idle forever. A daemon thread checks once a second that the main
+    process still exists (signal 0) and exits the worker when it does not. Finished rows are
+    safe: only the main process writes the CSV, and a resumed sweep redoes what was running.
+    """
+    import threading
+    import time
+
+    def watch() -> None:
+        while True:
+            time.sleep(period_s)
+            try:
+                os.kill(parent_pid, 0)
+            except ProcessLookupError:
+                os._exit(1)
+            except PermissionError:  # pragma: no cover - the pid was reused by another user
+                os._exit(1)
+
+    threading.Thread(target=watch, name="qhdesign-parent-watch", daemon=True).start()
 
 
 # ------------------------------------------------------------------------ the sweep

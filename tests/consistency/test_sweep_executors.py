@@ -199,3 +199,54 @@ def test_monte_carlo_rows_identical_serial_two_workers_and_mpi(tmp_path):
     assert "tol.ga_rate" in header
     assert outs["local2"] == outs["serial"]
     assert outs["mpi2"] == outs["serial"]
+
+
+def _descendants(pid: int) -> set[int]:
+    """All descendant process ids of ``pid`` (Linux /proc)."""
+    out, todo = set(), [pid]
+    while todo:
+        p = todo.pop()
+        for task in Path(f"/proc/{p}/task").glob("*"):
+            try:
+                kids = (task / "children").read_text().split()
+            except OSError:
+                continue
+            for k in map(int, kids):
+                if k not in out:
+                    out.add(k)
+                    todo.append(k)
+    return out
+
+
+def _alive(pid: int) -> bool:
+    try:
+        state = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
+    except OSError:
+        return False
+    return state != "Z"  # a zombie has exited (only not reaped yet)
+
+
+@pytest.mark.skipif(not Path("/proc/self/task").exists(), reason="needs Linux /proc")
+def test_workers_exit_when_the_main_process_is_killed(tmp_path):
+    spec = write_spec(tmp_path, n1=8, n2=6, extra="delay_s = 0.2")
+    out = tmp_path / "orphans.csv"
+    cmd = [*QH, "sweep", str(spec), "--out", str(out), "--workers", "2", "--chunk", "1", "-q"]
+    proc = subprocess.Popen(cmd, cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    try:
+        t0 = time.monotonic()
+        while time.monotonic() - t0 < 60 and proc.poll() is None:
+            if out.exists() and out.read_text().count("\n") >= 3:
+                break
+            time.sleep(0.02)
+        workers = _descendants(proc.pid)
+        assert workers, "the pool should have started worker processes"
+        os.kill(proc.pid, signal.SIGKILL)
+    finally:
+        proc.wait(timeout=30)
+    deadline = time.monotonic() + 15
+    while time.monotonic() < deadline and any(_alive(p) for p in workers):
+        time.sleep(0.1)
+    left = [p for p in workers if _alive(p)]
+    for p in left:  # do not leave them behind even when the check fails
+        os.kill(p, signal.SIGKILL)
+    assert not left, f"worker processes outlived the killed sweep: {left}"
