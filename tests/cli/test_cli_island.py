@@ -6,8 +6,7 @@ from __future__ import annotations
 import json
 
 import pytest
-
-from tests.conftest import assert_one_line_error
+from conftest import assert_one_line_error
 
 
 def test_island_json_and_plot(cli_runner, app, screened_path, tmp_path):
