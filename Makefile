@@ -38,6 +38,8 @@ demo: $(VENV)/.installed
 	  --contour "primary_density_cm^-2=1.1e11" --out $(OUT)/setback_window.png
 	$(QH) edge $(STACK) --gate-voltage -1.0 --field 2 --filling 1 --perimeter "4 um" \
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
+	$(QH) island $(STACK) --radius "0.8 um" --filling 1/3 --gap "50 ueV" \
+	  --json $(OUT)/island.json --plot $(OUT)/island.png
 	@echo "demo results in $(OUT)/"
 
 test: $(VENV)/.installed
