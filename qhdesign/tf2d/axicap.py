@@ -356,31 +356,9 @@ def _gmsh_model(problem: AxiProblem, r_m: np.ndarray, z_m: np.ndarray) -> None:
 
 
 def _build_mesh(problem: AxiProblem, r_m: np.ndarray, z_m: np.ndarray, comm):
-    from .backend import load
+    from .backend import mesh_from_gmsh
 
-    _, dolfinx = load()
-    partitioner = dolfinx.mesh.create_cell_partitioner(dolfinx.mesh.GhostMode.shared_facet, 2)
-    gmsh = None
-    started = False
-    try:
-        if comm.rank == 0:
-            import gmsh
-
-            if not gmsh.isInitialized():
-                gmsh.initialize(interruptible=False)
-                started = True
-            gmsh.option.setNumber("General.Terminal", 0)
-            _gmsh_model(problem, r_m, z_m)
-            data = dolfinx.io.gmsh.model_to_mesh(
-                gmsh.model, comm, 0, gdim=2, partitioner=partitioner
-            )
-            gmsh.model.remove()
-        else:
-            data = dolfinx.io.gmsh.model_to_mesh(None, comm, 0, gdim=2, partitioner=partitioner)
-    finally:
-        if started and gmsh is not None:
-            gmsh.finalize()
-    return data
+    return mesh_from_gmsh(lambda: _gmsh_model(problem, r_m, z_m), comm)
 
 
 # ---------------------------------------------------------------------------- solve

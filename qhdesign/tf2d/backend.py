@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import functools
 
-__all__ = ["load"]
+__all__ = ["load", "mesh_from_gmsh"]
 
 
 @functools.cache
@@ -22,3 +22,39 @@ def load():
     import dolfinx.io.gmsh
 
     return MPI, dolfinx
+
+
+def mesh_from_gmsh(build_model, comm):
+    """Build a gmsh model on rank 0 with ``build_model()`` and distribute it as a DOLFINx mesh.
+
+    gmsh is started here (not interruptible, quiet) unless it already runs, and finalized only if
+    started here. Facets are ghosted (``GhostMode.shared_facet``): interior-facet (sheet)
+    integrals need it in parallel (DOLFINX-NOTES.md).
+
+    Returns
+    -------
+    dolfinx.io.gmsh.MeshData
+    """
+    _, dolfinx = load()
+    partitioner = dolfinx.mesh.create_cell_partitioner(dolfinx.mesh.GhostMode.shared_facet, 2)
+    gmsh = None
+    started = False
+    try:
+        if comm.rank == 0:
+            import gmsh
+
+            if not gmsh.isInitialized():
+                gmsh.initialize(interruptible=False)
+                started = True
+            gmsh.option.setNumber("General.Terminal", 0)
+            build_model()
+            data = dolfinx.io.gmsh.model_to_mesh(
+                gmsh.model, comm, 0, gdim=2, partitioner=partitioner
+            )
+            gmsh.model.remove()
+        else:
+            data = dolfinx.io.gmsh.model_to_mesh(None, comm, 0, gdim=2, partitioner=partitioner)
+    finally:
+        if started and gmsh is not None:
+            gmsh.finalize()
+    return data

@@ -259,29 +259,6 @@ def build_mesh(grid: StructuredGrid, section: CrossSection, comm, charged_levels
     dolfinx.io.gmsh.MeshData
         ``.mesh``, ``.cell_tags`` (layer index + 1), ``.facet_tags`` (see :data:`TAGS`).
     """
-    from .backend import load
+    from .backend import mesh_from_gmsh
 
-    _, dolfinx = load()
-
-    partitioner = dolfinx.mesh.create_cell_partitioner(dolfinx.mesh.GhostMode.shared_facet, 2)
-    gmsh = None
-    started = False
-    try:
-        if comm.rank == 0:
-            import gmsh
-
-            if not gmsh.isInitialized():
-                gmsh.initialize(interruptible=False)
-                started = True
-            gmsh.option.setNumber("General.Terminal", 0)
-            _gmsh_model(grid, section, charged_levels)
-            data = dolfinx.io.gmsh.model_to_mesh(
-                gmsh.model, comm, 0, gdim=2, partitioner=partitioner
-            )
-            gmsh.model.remove()
-        else:
-            data = dolfinx.io.gmsh.model_to_mesh(None, comm, 0, gdim=2, partitioner=partitioner)
-    finally:
-        if started and gmsh is not None:
-            gmsh.finalize()
-    return data
+    return mesh_from_gmsh(lambda: _gmsh_model(grid, section, charged_levels), comm)
