@@ -349,6 +349,13 @@ class Stack:
         # not written in the file: the resolved default
         return _resolved_default(self, doc_path, path)
 
+    def kind_of(self, path: str) -> str:
+        """What the parameter at ``path`` holds: a dimension of :data:`qhdesign.units.DIMENSIONS`
+        (``"length"``, ``"sheet_density"``, ...: a quantity written with its unit), ``"number"``
+        (dimensionless, e.g. an Al fraction) or another kind (text choices)."""
+        _, kind = _resolve_path(self, path)
+        return kind if isinstance(kind, str) else "choice"
+
     def with_value(self, path: str, value: Any) -> Stack:
         """A new validated stack with the value at ``path`` replaced.
 

@@ -90,6 +90,13 @@ def parse_quantity(
             source=source,
             key=key,
         )
+    if "," in text:
+        # pint would drop the comma: "2,5 nm" would become 25 nm
+        raise InputError(
+            f"'{value}': write decimals with a point, not a comma (e.g. \"{example}\")",
+            source=source,
+            key=key,
+        )
     ureg = registry()
     try:
         q = ureg.Quantity(text.replace("^", "**"))

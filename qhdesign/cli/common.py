@@ -12,7 +12,7 @@ import typer
 from qhdesign.errors import QHDesignError
 from qhdesign.units import parse_quantity
 
-__all__ = ["fail", "guarded", "option_quantity"]
+__all__ = ["check_figure_path", "check_output_paths", "fail", "guarded", "option_quantity"]
 
 EXIT_USER_ERROR = 2
 
@@ -35,6 +35,53 @@ def fail(message: str) -> None:
     raise typer.Exit(EXIT_USER_ERROR)
 
 
+#: Output options of the commands (parameter name -> option), checked before any work is done.
+OUTPUT_OPTIONS = {
+    "plot": "--plot",
+    "json_out": "--json",
+    "csv_out": "--csv",
+    "fields": "--fields",
+    "out": "--out",
+}
+#: Figure formats every figure option accepts (matplotlib backends, by file suffix).
+FIGURE_SUFFIXES = (".png", ".svg", ".pdf")
+
+
+def check_figure_path(path, option: str) -> None:
+    """Refuse a figure file whose suffix is not PNG, SVG or PDF (before the work, not after)."""
+    from pathlib import Path
+
+    from qhdesign.errors import InputError
+
+    suffix = Path(path).suffix.lower()
+    if suffix not in FIGURE_SUFFIXES:
+        raise InputError(
+            f"unsupported figure format '{suffix or '(none)'}'; allowed: "
+            f"{', '.join(FIGURE_SUFFIXES)}",
+            source=f"option {option}",
+        )
+
+
+def check_output_paths(kwargs: dict[str, Any]) -> None:
+    """Every output file's folder must exist (a typo must not create folders); ``--plot`` must
+    name a figure format."""
+    from pathlib import Path
+
+    from qhdesign.errors import InputError
+
+    for name, option in OUTPUT_OPTIONS.items():
+        value = kwargs.get(name)
+        if not isinstance(value, Path):
+            continue
+        parent = value.parent
+        if not parent.is_dir():
+            raise InputError(
+                f"folder '{parent}' does not exist (create it first)", source=f"option {option}"
+            )
+        if name == "plot":
+            check_figure_path(value, option)
+
+
 def guarded(func: Callable[..., Any]) -> Callable[..., Any]:
     """Wrap a command: a :class:`QHDesignError` becomes one line on stderr and exit code 2.
 
@@ -44,6 +91,7 @@ def guarded(func: Callable[..., Any]) -> Callable[..., Any]:
     @functools.wraps(func)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
         try:
+            check_output_paths(kwargs)
             return func(*args, **kwargs)
         except QHDesignError as exc:
             one = exc.one_line() if hasattr(exc, "one_line") else str(exc)
@@ -67,7 +115,7 @@ def option_quantity(value: str | None, dimension: str, option: str) -> float | N
     if value is None:
         return None
     text = str(value).strip()
-    if dimension == "voltage":
+    if dimension == "voltage" and "," not in text:
         try:
             return float(text)
         except ValueError:

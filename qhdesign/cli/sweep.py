@@ -16,7 +16,7 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded
+from .common import check_figure_path, guarded
 
 _EXECUTOR_HELP = (
     "auto: MPI when started under mpiexec with >1 rank, else local processes (serial for "
@@ -373,9 +373,14 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Design-window map (--x, --y), line plot (--x) or Monte Carlo histograms of a sweep."""
         from qhdesign.errors import InputError
+        from qhdesign.plotting import save_figure
         from qhdesign.plotting.sweep import plot_sweep_table
         from qhdesign.sweep.table import read_sweep_csv
 
+        if out is not None:
+            check_figure_path(out, "--out")
+        if x is not None and y is not None and x == y:
+            raise InputError("--x and --y name the same parameter", source="option --y")
         table = read_sweep_csv(csv_file)
         contours = []
         for item in contour or []:
@@ -397,5 +402,5 @@ def register(app: typer.Typer) -> None:
             criteria=_parse_require(require) or None,
         )
         out = out or csv_file.with_suffix(".png")
-        fig.savefig(out, dpi=150)
+        save_figure(fig, out)
         typer.echo(f"figure written to {out}")

@@ -26,7 +26,25 @@ def _plt():
     return plt
 
 
+def _spans_area(x, y) -> bool:
+    """True when the points (x, y) span an area, so that they can be triangulated: at least three
+    distinct points, not all on one line (each axis scaled to [0, 1] first: a doping in m^-2
+    against an Al fraction must not look collinear)."""
+    xs, ys = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
+    if xs.size < 3:
+        return False
+    pts = np.unique(np.column_stack([xs, ys]), axis=0)
+    if len(pts) < 3:
+        return False
+    span = np.ptp(pts, axis=0)
+    if np.any(span == 0):
+        return False
+    u = (pts - pts.min(axis=0)) / span
+    return int(np.linalg.matrix_rank(u - u.mean(axis=0), tol=1e-9)) >= 2
+
+
 def _tri(x, y):
+    """Delaunay triangulation of the designs in the (x, y) plane (call when they span an area)."""
     from matplotlib.tri import Triangulation
 
     return Triangulation(np.asarray(x, dtype=float), np.asarray(y, dtype=float))
@@ -77,7 +95,7 @@ def design_window(
     xc, yc, cc = table.resolve(x, "parameter"), table.resolve(y, "parameter"), table.resolve(color)
     xs, ys, cs = table.data[xc], table.data[yc], table.data[cc].astype(float)
     ok = table.ok & np.isfinite(cs)
-    if ok.sum() >= 3 and len(set(xs[ok])) > 1 and len(set(ys[ok])) > 1:
+    if _spans_area(xs[ok], ys[ok]):
         m = ax.tricontourf(_tri(xs[ok], ys[ok]), cs[ok], levels=20, cmap="viridis")
         fig.colorbar(m, ax=ax, label=cc)
     else:
@@ -87,18 +105,18 @@ def design_window(
         col = table.resolve(name, "output")
         v = table.data[col].astype(float)
         sel = table.ok & np.isfinite(v)
-        if sel.sum() >= 3 and np.nanmin(v[sel]) <= value <= np.nanmax(v[sel]):
+        if _spans_area(xs[sel], ys[sel]) and np.nanmin(v[sel]) <= value <= np.nanmax(v[sel]):
             cs_ = ax.tricontour(
                 _tri(xs[sel], ys[sel]), v[sel], levels=[value], colors="w", linewidths=1.5
             )
             ax.clabel(cs_, fmt={value: f"{col} = {value:g}"}, fontsize=7)
     crit = _criteria(table, criteria)
-    spread = len(set(xs)) > 1 and len(set(ys)) > 1
+    spread = _spans_area(xs, ys)
     # Hatch where a criterion fails, from the output itself so the boundary is smooth.
     for name, (lo, hi) in crit.items():
         v = table.data[name].astype(float)
         sel = table.ok & np.isfinite(v)
-        if sel.sum() < 3 or not spread:
+        if not spread or not _spans_area(xs[sel], ys[sel]):
             continue
         vmin, vmax = float(np.min(v[sel])), float(np.max(v[sel]))
         pad = 1.0 + abs(vmax - vmin)

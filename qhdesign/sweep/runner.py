@@ -74,6 +74,9 @@ def param_column(path: str) -> tuple[str, float]:
     if path.startswith("tol."):
         return path, 1.0
     parts = path.split(".")
+    if len(parts) == 3 and parts[0] == "doping":
+        # doping.<layer>.sheet is the same parameter as layers.<layer>.doping.sheet
+        parts = ["layers", parts[1], "doping", parts[2]]
     for n in (2, 1):
         tail = ".".join(parts[-n:])
         if tail in _PATH_UNITS:

@@ -21,6 +21,7 @@ from typing import Any
 from scipy.constants import electron_volt
 
 from qhdesign.errors import InputError, QHDesignError
+from qhdesign.units import DIMENSIONS
 
 from .evaluate import apply_values
 from .spaces import GridSpace, LatinHypercubeSpace, Range, ZipSpace, check_equal_lengths
@@ -210,14 +211,29 @@ def _pkey(path: str) -> str:
     return f'space.parameters."{path}"'
 
 
-def _si(stack, path: str, value: Any, source: str) -> float:
-    """SI value of ``value`` at ``path``, validated by the stack."""
+def _si(stack, path: str, value: Any, source: str, *, from_user: bool = True) -> float:
+    """SI value of ``value`` at ``path``, validated by the stack.
+
+    A value the user wrote must carry its unit when the parameter is a quantity (as in the stack
+    file): a bare 1.8e12 for a sheet density would otherwise be read as 1.8e12 m^-2. Values the
+    sweep computes itself (``from_user=False``) are SI floats.
+    """
     if isinstance(value, bool) or not isinstance(value, str | int | float):
         raise InputError(
             f"value {value!r} must be a number or a string with a unit",
             source=source,
             key=_pkey(path),
         )
+    if from_user and not isinstance(value, str):
+        kind = stack.kind_of(path)
+        if kind in DIMENSIONS:
+            _, _, example = DIMENSIONS[kind]
+            raise InputError(
+                f"value {value!r} has no unit; write it as in the stack file, with its unit "
+                f'(a {kind.replace("_", " ")}, e.g. "{example}")',
+                source=source,
+                key=_pkey(path),
+            )
     try:
         got = stack.with_value(path, value).get(path)
     except QHDesignError as exc:
@@ -304,8 +320,12 @@ def _values(stack, path: str, spec: Any, source: str) -> tuple[float, ...]:
     if isinstance(spec, dict):
         r, steps = _range(stack, path, spec, source, steps_allowed=True)
         vals = r.points(steps)
-        for v in vals[1:-1]:  # interior points of a valid range are valid for scalar ranges,
-            _si(stack, path, v, source)  # but check them anyway: it costs little
+        # the ends are valid and every scalar limit is an interval, so the interior is valid
+        # too; check an evenly spread sample of it anyway (at most 50 points: a 10^5-step
+        # range must not spend minutes here before its design count is even looked at)
+        inner = vals[1:-1]
+        for v in inner[:: max(1, len(inner) // 50)]:
+            _si(stack, path, v, source, from_user=False)
         return vals
     raise InputError(
         "expected a list of values or a table {from, to, steps}", source=source, key=_pkey(path)
@@ -377,6 +397,19 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
             "ranges": [(r.path, r.low, r.high, r.scale) for r in ranges],
         }
         return LatinHypercubeSpace(tuple(ranges), samples, seed), sig
+    if kind == "grid":
+        # refuse an oversized grid before any value is built or checked
+        total = 1
+        for spec in params.values():
+            n = spec.get("steps") if isinstance(spec, dict) else len(spec)
+            if isinstance(n, int) and not isinstance(n, bool) and n > 0:
+                total *= n
+        if total > MAX_DESIGNS:
+            raise InputError(
+                f"{total} designs; at most {MAX_DESIGNS} per sweep",
+                source=source,
+                key="space.parameters",
+            )
     values = tuple(_values(stack, p, params[p], source) for p in paths)
     if kind == "zip":
         msg = check_equal_lengths(paths, values)

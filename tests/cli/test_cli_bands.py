@@ -193,3 +193,16 @@ def test_output_piped_into_head_still_writes_the_json(tmp_path):
     assert proc.returncode == 0, proc.stderr
     assert "Traceback" not in proc.stderr
     assert json.loads(out.read_text())["converged"] is True
+
+
+def test_output_options_are_checked_before_the_work(cli_runner, app, tmp_path):
+    # an unsupported figure format and a missing folder are refused up front (one line, exit 2),
+    # and no folder is created for a mistyped path
+    r = cli_runner.invoke(app, ["bands", str(SCREENED), "--plot", str(tmp_path / "b.xyz")])
+    msg = _one_line_error(r)
+    assert "--plot" in msg and ".png" in msg
+    missing = tmp_path / "no_such_folder"
+    r = cli_runner.invoke(app, ["bands", str(SCREENED), "--json", str(missing / "b.json")])
+    msg = _one_line_error(r)
+    assert "--json" in msg and "does not exist" in msg
+    assert not missing.exists()

@@ -68,6 +68,12 @@ def test_sweep_spec_then_plot(cli_runner, app, tmp_path):
         ],
     )
     assert res.exit_code == 0, res.output
+    # the same parameter on both axes, and an unknown figure format: one line, exit 2
+    same = ["plot-sweep", str(out), "--x", "layers.setback_upper.thickness"]
+    res = cli_runner.invoke(app, [*same, "--y", "layers.setback_upper.thickness"])
+    assert res.exit_code == 2 and "same parameter" in res.output
+    res = cli_runner.invoke(app, [*same, "--out", str(tmp_path / "w.xyz")])
+    assert res.exit_code == 2 and "unsupported figure format" in res.output
 
 
 def test_sweep_shorthand_on_a_stack(cli_runner, app, tmp_path):

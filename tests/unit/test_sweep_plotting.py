@@ -76,3 +76,35 @@ def test_bad_plot_requests(table):
         plot_sweep_table(table, None, "layers.spacer_upper.thickness")
     with pytest.raises(InputError, match=r"no parameter 'layers\.nope'"):
         plot_sweep_table(table, "layers.nope", "layers.spacer_upper.thickness")
+
+
+def test_collinear_designs_fall_back_to_points_instead_of_crashing(tmp_path):
+    # a zip space along a diagonal: every design on one line in the (x, y) plane; qhull cannot
+    # triangulate it, so the map shows the designs as points (no exception)
+    raw = {
+        "sweep": {"stack": str(SCREENED), "stage": "capacitor"},
+        "options": {
+            "densities": {
+                "screen_upper": "2e11 cm^-2",
+                "primary": "1.1e11 cm^-2",
+                "screen_lower": "2e11 cm^-2",
+            }
+        },
+        "space": {
+            "kind": "zip",
+            "parameters": {
+                "layers.setback_upper.thickness": ["20 nm", "25 nm", "30 nm", "35 nm"],
+                "layers.setback_lower.thickness": ["20 nm", "25 nm", "30 nm", "35 nm"],
+            },
+        },
+    }
+    out = tmp_path / "diag.csv"
+    run_sweep(build_plan(raw, source="t.toml"), out, executor="serial")
+    t = read_sweep_csv(out)
+    fig = plot_sweep_table(
+        t,
+        x="layers.setback_upper.thickness",
+        y="layers.setback_lower.thickness",
+        color=[t.outputs[0]],
+    )
+    assert fig is not None

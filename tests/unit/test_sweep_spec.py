@@ -199,3 +199,45 @@ def test_repeated_grid_values_are_refused():
             spec({"kind": "grid", "parameters": {"layers.primary.thickness": ["20 nm", "20 nm"]}}),
             source="bad.toml",
         )
+
+
+def test_bare_numbers_need_a_unit_for_quantities_but_not_for_fractions():
+    # a bare 1.8e12 for a sheet density would be 1.8e12 m^-2, 1e4 times too small
+    with pytest.raises(InputError, match="has no unit") as info:
+        build_plan(
+            spec({"kind": "grid", "parameters": {"doping.delta_upper.sheet": [1.8e12, 2e12]}}),
+            source="bare.toml",
+        )
+    assert "doping.delta_upper.sheet" in str(info.value) and "cm^-2" in str(info.value)
+    # an Al fraction is dimensionless: a bare number is what the stack file holds too
+    plan = build_plan(
+        spec({"kind": "grid", "parameters": {"layers.setback_upper.x": [0.28, 0.31]}}),
+        source="x.toml",
+    )
+    assert [p["layers.setback_upper.x"] for p in plan.space] == [0.28, 0.31]
+
+
+def test_oversized_grid_is_refused_before_its_values_are_built():
+    # 1e10 designs: refused at once (building and checking 2 x 1e5 values would take minutes)
+    big = {"from": "20 nm", "to": "30 nm", "steps": 100_000}
+    with pytest.raises(InputError, match="10000000000 designs; at most"):
+        build_plan(
+            spec(
+                {
+                    "kind": "grid",
+                    "parameters": {
+                        "layers.setback_upper.thickness": big,
+                        "layers.setback_lower.thickness": big,
+                    },
+                }
+            ),
+            source="huge.toml",
+        )
+
+
+def test_both_doping_spellings_get_the_same_unit_column():
+    from qhdesign.sweep.runner import param_column
+
+    assert param_column("doping.delta_upper.sheet") == ("doping.delta_upper.sheet_cm^-2", 1e4)
+    assert param_column("layers.delta_upper.doping.sheet")[1] == 1e4
+    assert param_column("doping.delta_upper.volume") == ("doping.delta_upper.volume_cm^-3", 1e6)

@@ -33,6 +33,10 @@ def test_parse_to_si(text, dim, si):
         ("25 V", "length", "is not a length"),
         ("twenty nm", "length", "cannot read"),
         ("1e400 nm", "length", "not a finite"),
+        # a decimal comma: pint would drop it and read 25 nm (or 72 eV, or 1.8e13 cm^-2)
+        ("2,5 nm", "length", "not a comma"),
+        ("0,72 eV", "energy", "not a comma"),
+        ("1,8e12 cm^-2", "sheet_density", "not a comma"),
     ],
 )
 def test_bad_units_are_input_errors(value, dim, fragment):
