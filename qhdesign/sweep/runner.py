@@ -26,6 +26,7 @@ import time
 from collections import Counter, deque
 from collections.abc import Callable, Iterator
 from concurrent.futures import Future
+from concurrent.futures.process import BrokenProcessPool
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -186,11 +187,13 @@ def open_executor(
         for v in _THREAD_VARS:
             os.environ.setdefault(v, "1")
         try:
-            with ProcessPoolExecutor(
-                max_workers=n,
-                mp_context=ctx,
-                initializer=_exit_with_parent,
-                initargs=(os.getpid(),),
+            with _LocalPool(
+                lambda: ProcessPoolExecutor(
+                    max_workers=n,
+                    mp_context=ctx,
+                    initializer=_exit_with_parent,
+                    initargs=(os.getpid(),),
+                )
             ) as ex:
                 yield ex, "local", n
         finally:
@@ -215,6 +218,37 @@ def open_executor(
             )
         with MPICommExecutor(comm, root=0) as ex:
             yield ex, "mpi", comm.Get_size() - 1
+
+
+class _LocalPool:
+    """A process pool that can be restarted after one of its workers died.
+
+    ``concurrent.futures`` marks the whole pool broken when a worker process dies (a crash in
+    native code, the out-of-memory killer): every pending task then fails. The sweep restarts
+    the pool and re-runs the affected designs one by one, so that only the design that kills
+    its worker is recorded as failed and every finished design is written.
+    """
+
+    def __init__(self, make):
+        self._make = make
+        self._pool = make()
+        #: incremented by every restart: a task of an older generation failing does not
+        #: restart the pool that replaced its own
+        self.generation = 0
+
+    def submit(self, *args, **kwargs):
+        return self._pool.submit(*args, **kwargs)
+
+    def restart(self) -> None:
+        self._pool.shutdown(wait=True, cancel_futures=True)
+        self._pool = self._make()
+        self.generation += 1
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self._pool.shutdown(wait=True, cancel_futures=True)
 
 
 def _exit_with_parent(parent_pid: int, period_s: float = 1.0) -> None:
@@ -385,9 +419,45 @@ def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> Sweep
         window = 2 * nworkers + 2
         pending: deque = deque()
 
-        def collect(fut_and_meta) -> None:
-            fut, metas = fut_and_meta
-            results = fut.result()
+        def isolate(metas) -> list:
+            """Evaluate designs one task each after the pool broke; a design whose worker dies
+            again is recorded as an error instead of ending the sweep."""
+            out = []
+            for index, _key, design in metas:
+                fut = ex.submit(evaluate_chunk, job, [(index, plan.values_of(design))])
+                try:
+                    out.extend(fut.result())
+                except BrokenProcessPool:
+                    ex.restart()
+                    out.append(
+                        (
+                            index,
+                            None,
+                            "error",
+                            "the worker process died evaluating this design "
+                            "(crash in native code or killed, e.g. out of memory)",
+                            0.0,
+                        )
+                    )
+            return out
+
+        def submit(batch, metas) -> None:
+            pending.append(
+                (ex.submit(evaluate_chunk, job, batch), metas, getattr(ex, "generation", 0))
+            )
+
+        def collect(entry) -> None:
+            fut, metas, generation = entry
+            try:
+                results = fut.result()
+            except BrokenProcessPool:
+                if not hasattr(ex, "restart"):
+                    raise
+                # a worker died under this task or another one: finished tasks are written
+                # as usual (their futures hold results); this one is redone design by design
+                if generation == ex.generation:
+                    ex.restart()
+                results = isolate(metas)
             for (index, key, design), (_, outs, st, err, secs) in zip(metas, results, strict=True):
                 sink.write(_row(index, key, design, param_cols, outs, outputs, st, err, secs))
                 summary.counts[st] += 1
@@ -408,16 +478,16 @@ def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> Sweep
                 batch_meta.append((index, key, design))
                 batch.append((index, plan.values_of(design)))
                 if len(batch) >= chunk:
-                    pending.append((ex.submit(evaluate_chunk, job, batch), batch_meta))
+                    submit(batch, batch_meta)
                     batch, batch_meta = [], []
                     while len(pending) >= window:
                         collect(pending.popleft())
             if batch:
-                pending.append((ex.submit(evaluate_chunk, job, batch), batch_meta))
+                submit(batch, batch_meta)
             while pending:
                 collect(pending.popleft())
         except BaseException:
-            for fut, _ in pending:
+            for fut, *_ in pending:
                 fut.cancel()
             raise
     summary.wall_s = time.perf_counter() - t_start

@@ -7,6 +7,7 @@ can import them exactly as they import a real stage.
 
 from __future__ import annotations
 
+import os as _os
 import time
 
 from qhdesign.errors import ConvergenceError, InputError
@@ -22,18 +23,23 @@ def flaky_stage(
     not_converged_above: float | None = None,
     invalid_above: float | None = None,
     bug_above: float | None = None,
+    die_at: float | None = None,
     delay_s: float = 0.0,
     **options,
 ) -> dict[str, float]:
     """The capacitor stage, but failing on purpose when ``stack.get(path)`` (SI) exceeds a bound.
 
     ``not_converged_above`` raises :class:`ConvergenceError`, ``invalid_above`` an
-    :class:`InputError`, ``bug_above`` a ``ZeroDivisionError`` (a stage bug); ``delay_s`` sleeps
-    before returning, so a test can kill a sweep part-way.
+    :class:`InputError`, ``bug_above`` a ``ZeroDivisionError`` (a stage bug); ``die_at`` ends
+    the worker process outright (``os._exit``, as a crash in native code or the out-of-memory
+    killer would) when the value equals it to 1e-15 relative; ``delay_s`` sleeps before
+    returning, so a test can kill a sweep part-way.
     """
     value = float(stack.get(path))
     if delay_s:
         time.sleep(delay_s)
+    if die_at is not None and abs(value - die_at) <= 1e-15 * abs(die_at):
+        _os._exit(3)
     if bug_above is not None and value > bug_above:
         _ = 1 / 0
     if invalid_above is not None and value > invalid_above:

@@ -250,3 +250,34 @@ def test_workers_exit_when_the_main_process_is_killed(tmp_path):
     for p in left:  # do not leave them behind even when the check fails
         os.kill(p, signal.SIGKILL)
     assert not left, f"worker processes outlived the killed sweep: {left}"
+
+
+def test_a_design_that_kills_its_worker_is_recorded_and_the_sweep_finishes(tmp_path):
+    # the test stage ends its worker process outright (os._exit, as a segfault or the OOM killer
+    # would) for setback 30 nm (not the nominal 25 nm, which the main process probes itself):
+    # those 5 designs become 'error' rows, every other design is written exactly as in a normal
+    # run, and the sweep exits 0
+    spec = write_spec(tmp_path, extra="die_at = 3e-8")
+    out = tmp_path / "dies.csv"
+    cmd = [*QH, "sweep", str(spec), "--out", str(out), "--workers", "2", "--chunk", "2", "-q"]
+    res = run(cmd, cwd=tmp_path)
+    assert res.returncode == 0, res.stderr
+    assert "Traceback" not in res.stderr
+    ref_dir = tmp_path / "ref"
+    ref_dir.mkdir()
+    ref_spec = write_spec(ref_dir, extra="")
+    ref = tmp_path / "ref.csv"
+    res = run(
+        [*QH, "sweep", str(ref_spec), "--out", str(ref), "--workers", "1", "-q"], cwd=tmp_path
+    )
+    assert res.returncode == 0, res.stderr
+    h, rows = read_rows(out)
+    _, ref_rows = read_rows(ref)
+    col = h.index("layers.setback_upper.thickness_nm")
+    st, err = h.index("status"), h.index("error")
+    assert len(rows) == 45 == len({r[h.index("key")] for r in rows})
+    died = [r for r in rows if float(r[col]) == 30.0]
+    assert len(died) == 5
+    assert all(r[st] == "error" and "worker process died" in r[err] for r in died)
+    rest = sorted(r for r in rows if float(r[col]) != 30.0)
+    assert rest == sorted(r for r in ref_rows if float(r[col]) != 30.0)
