@@ -7,6 +7,7 @@ Validation happens in one place, here, at construction: every error is a one-lin
 from __future__ import annotations
 
 import difflib
+import json
 import math
 import os
 import tomllib
@@ -147,11 +148,27 @@ def _read(table: dict, k: str, kind: Any, where: str, src: str, default: Any = N
         raise StackError(exc.message, source=src, key=key) from None
 
 
+# unit in which an out-of-range value is shown (the unit its allowed range is written in)
+_RANGE_UNITS = {
+    "layer_thickness": ("nm", 1e-9),
+    "dielectric_thickness": ("nm", 1e-9),
+    "temperature": ("K", 1.0),
+    "sheet": ("cm^-2", 1e4),
+    "volume": ("cm^-3", 1e6),
+    "barrier": ("eV", 1.602176634e-19),
+    "band_offset": ("eV", 1.602176634e-19),
+    "level": ("eV", 1.602176634e-19),
+    "bias": ("V", 1.0),
+}
+
+
 def _in_range(v: float, name: str, key: str, src: str, *, open_low: bool = False) -> float:
     lo, hi, text = _RANGES[name]
     bad = (v <= lo if open_low else v < lo) or v > hi
     if bad or not math.isfinite(v):
-        raise StackError(f"value {v:.6g} (SI) is out of range; allowed {text}", source=src, key=key)
+        unit, scale = _RANGE_UNITS.get(name, ("", 1.0))
+        shown = f"{v / scale:.6g} {unit}".strip()
+        raise StackError(f"value {shown} is out of range; allowed {text}", source=src, key=key)
     return v
 
 
@@ -449,7 +466,9 @@ def _toml_value(v: Any) -> str:
     if isinstance(v, int | float):
         return repr(v)
     if isinstance(v, str):
-        return '"' + v.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n") + '"'
+        # a TOML basic string: JSON's escapes (quote, backslash, newline, tab and \uXXXX for
+        # every control character) are all valid TOML escapes; DEL must be escaped in TOML too
+        return json.dumps(v, ensure_ascii=False).replace("\x7f", "\\u007f")
     if isinstance(v, dict):
         return "{ " + ", ".join(f"{k} = {_toml_value(x)}" for k, x in v.items()) + " }"
     if isinstance(v, list):

@@ -129,6 +129,10 @@ def register(app: typer.Typer) -> None:
             raise InputError(
                 "field out of range; allowed above 0 T up to 100 T", source="option --field"
             )
+        if v is not None:
+            from qhdesign.sp1d.solve import check_gate_voltage
+
+            check_gate_voltage(stack, v, "--gate")
         r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
         _print_bands(r)
         if json_out is not None:
@@ -171,6 +175,10 @@ def register(app: typer.Typer) -> None:
         cb = option_quantity(cool_bias, "voltage", "--cool-bias")
         fl = option_quantity(forward_limit, "voltage", "--forward-limit")
         t = _temperature(temperature)
+        from qhdesign.sp1d.solve import check_gate_voltage
+
+        for value, option in ((a, "--from"), (b, "--to"), (cb, "--cool-bias")):
+            check_gate_voltage(stack, value, option)
         g = gate_response(
             stack, a, b, s, cool_bias=cb, temperature=t, options=BandsOptions(forward_limit_V=fl)
         )

@@ -71,19 +71,22 @@ def check_gate_voltage(stack, v: float, option: str = "gate voltage") -> float:
         raise InputError(f"gate voltage must be a finite number, got {v}", key=option)
     surf = stack.surface
     vmax = surf.barrier / sc.e
+    # the option is what is wrong; the limit comes from the stack's surface.barrier
+    src = f"option {option}" if option.startswith("--") else stack.source
+    key = None if option.startswith("--") else "surface.barrier"
     if v >= vmax:
         raise InputError(
-            f"{option} {v:+.3f} V is past the Schottky barrier ({vmax:.3f} eV): the gate would "
-            f"inject current; allowed below {vmax:+.3f} V",
-            source=stack.source,
-            key="surface.barrier",
+            f"{option} {v:+.3f} V is past the Schottky barrier ({vmax:.3f} eV, surface.barrier "
+            f"of {stack.source}): the gate would inject current; allowed below {vmax:+.3f} V",
+            source=src,
+            key=key,
         )
     if v < -20.0:
         raise InputError(
             f"{option} {v:+.3f} V is below -20 V (dielectric breakdown range); allowed "
             f"-20 V to {vmax:+.3f} V",
-            source=stack.source,
-            key="surface.barrier",
+            source=src,
+            key=key,
         )
     return float(v)
 

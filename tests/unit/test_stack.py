@@ -102,3 +102,19 @@ def test_with_values_equals_chained_with_value():
     assert bulk == chained
     with pytest.raises(StackError, match=r"layers\.nope\.thickness"):
         s.with_values({"layers.nope.thickness": 1e-9})
+
+
+def test_writer_escapes_control_characters_and_round_trips():
+    # TOML forbids raw control characters in strings; the writer must escape them
+    s = load_stack(SCREENED).with_value("wafer.notes", 'a\rb\tc "q" \\ \x7f \x01 µ')
+    again = loads_stack(s.to_toml())
+    assert again == s
+    assert again.get("wafer.notes") == 'a\rb\tc "q" \\ \x7f \x01 µ'
+
+
+def test_range_errors_show_the_value_in_the_unit_of_the_range():
+    text = SCREENED.read_text().replace('barrier = "0.72 eV"', 'barrier = "5 eV"')
+    with pytest.raises(StackError) as info:
+        loads_stack(text, source="b.toml")
+    msg = str(info.value)
+    assert "value 5 eV is out of range" in msg and "from -0.5 to 3 eV" in msg
