@@ -399,11 +399,20 @@ class Stack:
             "name": self.name,
             "temperature_K": self.temperature,
             "freeze_temperature_K": self.freeze_temperature,
+            "notes": self.notes,
+            "models": {
+                "band_offset": self.band_offset_model,
+                "gap_fraction": self.gap_fraction,
+                "permittivity": self.permittivity_model,
+                "uniform_permittivity": self.uniform_permittivity,
+            },
             "surface": {
                 "kind": self.surface.kind,
                 "barrier_eV": self.surface.barrier / sc.e,
                 "charge": self.surface.charge,
                 "bias_V": self.surface.bias,
+                "dielectric_thickness_m": self.surface.dielectric_thickness,
+                "dielectric_permittivity_rel": self.surface.dielectric_permittivity,
             },
             "layers": [
                 {
@@ -415,11 +424,17 @@ class Stack:
                     "mass_rel": p.mass,
                     "permittivity_rel": p.permittivity,
                     "donor_density_m3": p.donor_density,
+                    "donor_model": p.donor_model,
+                    "donor_level_eV": p.donor_level / sc.e if p.donor_model else None,
                     "well": p.well,
                 }
                 for p in self.profile()
             ],
-            "substrate": {"kind": self.substrate.kind, "bias_V": self.substrate.bias},
+            "substrate": {
+                "kind": self.substrate.kind,
+                "bias_V": self.substrate.bias,
+                "barrier_eV": self.substrate.barrier / sc.e,
+            },
         }
 
 

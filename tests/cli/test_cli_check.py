@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import re
 
 import pytest
@@ -160,3 +161,16 @@ def test_error_printed_once_under_mpiexec(tmp_path):
     lines = [ln for ln in res.stderr.splitlines() if ln.startswith("error: ")]
     assert len(lines) == 1, res.stderr
     assert "surface" in lines[0]
+
+
+def test_check_json_carries_every_resolved_setting(cli_runner, app, tmp_path):
+    # the validated stack in SI: boundaries, donor models and levels, model choices included
+    out = tmp_path / "c.json"
+    r = cli_runner.invoke(app, ["check", str(SCREENED), "--json", str(out)])
+    assert r.exit_code == 0, r.output
+    d = json.loads(out.read_text())
+    assert d["substrate"]["kind"] == "pinned" and d["substrate"]["barrier_eV"] == pytest.approx(0.7)
+    assert {"band_offset", "permittivity"} <= set(d["models"])
+    assert "dielectric_thickness_m" in d["surface"]
+    doped = [lay for lay in d["layers"] if lay["donor_model"]]
+    assert doped and all(lay["donor_level_eV"] is not None for lay in doped)
