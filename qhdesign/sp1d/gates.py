@@ -92,6 +92,7 @@ class GateResult:
                     "from_V": s["from_V"],
                     "to_V": s["to_V"],
                     "filled_wells": list(s.get("filled", ())),
+                    "parallel_conduction": bool(s.get("parallel", False)),
                     "slope_m2_V": {k: _num(v) for k, v in s["slope_m2_V"].items()},
                 }
                 for s in self.segments
@@ -120,8 +121,9 @@ class GateResult:
         # inside that row's voltage range
         for seg in self.segments:
             regime = "+".join(seg.get("filled", ())) or "none"
+            extra = "_with_parallel" if seg.get("parallel") else ""
             for name, s in seg["slope_m2_V"].items():
-                out[f"{name}_slope_while_{regime}_filled_cm^-2_per_V"] = s / _CM2
+                out[f"{name}_slope_while_{regime}_filled{extra}_cm^-2_per_V"] = s / _CM2
         return out
 
     def to_csv(self) -> str:
@@ -310,7 +312,21 @@ def gate_response(
             key=lambda n: -thresholds[n],
         )
     )
-    segments = _segments(volts, dens, names, thresholds, e1)
+    # parallel conduction: the lowest voltage above which a doped layer holds more electrons
+    # than the flag threshold at every point (classical 3D electrons; docs/models.md)
+    par_any = (dop > opts.parallel_threshold_m2).any(axis=0) if len(dnames) else np.zeros(m, bool)
+    onset = math.nan
+    if par_any.any():
+        order_v = np.argsort(volts)
+        flags_sorted = par_any[order_v]
+        # from the top of the sweep down, the first voltage where it stops
+        j = len(order_v) - 1
+        while j >= 0 and flags_sorted[j]:
+            j -= 1
+        if j < len(order_v) - 1:
+            vs = volts[order_v]
+            onset = float(0.5 * (vs[j] + vs[j + 1])) if j >= 0 else -math.inf
+    segments = _segments(volts, dens, names, thresholds, e1, parallel_onset=onset)
     prim = names[roles.index("primary")]
     ip = names.index(prim)
     upper = [n for k, n in enumerate(names[:ip]) if roles[k] == "screening"]
@@ -333,6 +349,21 @@ def gate_response(
         warn.append(
             "exposed surface: the sweep lays a metal gate on it with the surface barrier; the "
             "frozen surface-state charge sits at the metal and does not act on the wells"
+        )
+    if par_any.any():
+        layers_par = [
+            dnames[i] for i in range(len(dnames)) if (dop[i] > opts.parallel_threshold_m2).any()
+        ]
+        if math.isnan(onset):
+            where = "at some voltages of the sweep"
+        elif math.isinf(onset):
+            where = "throughout the sweep"
+        else:
+            where = f"above {onset:+.3f} V"
+        warn.append(
+            f"parallel conduction in {', '.join(layers_par)} {where} (more than "
+            f"{opts.parallel_threshold_m2 / _CM2:.0e} cm^-2): the segments there are fitted "
+            "separately and marked parallel"
         )
     if volts.max() > opts.forward_limit_V:
         warn.append(
@@ -404,31 +435,48 @@ def _threshold(volts, e1, dens, brackets=(), e1_at=None, xtol_V: float = 1e-6) -
     return math.nan
 
 
-def _segments(volts, dens, names, thresholds, e1=None) -> tuple[dict, ...]:
+def _segments(volts, dens, names, thresholds, e1=None, parallel_onset=math.nan) -> tuple[dict, ...]:
     """Least-squares dn/dV of every well inside each segment between thresholds, with the wells
-    that hold electrons there (lowest subband below E_F at most of the segment's points)."""
+    that hold electrons there.
+
+    A well holds electrons in a segment when the segment lies above its threshold (or, with no
+    threshold in the sweep, when its lowest subband is below E_F at the top of the sweep). The
+    onset of parallel conduction (``parallel_onset``, V) also cuts the segments, so that no fit
+    straddles it; segments above it are marked ``parallel``. Points within 0.75 step of a cut
+    are left out of the fits (the density bends there) unless fewer than two would remain.
+    """
     lo, hi = float(volts.min()), float(volts.max())
     step = float(np.min(np.abs(np.diff(volts)))) if len(volts) > 1 else 0.0
     cuts = sorted(t for t in thresholds.values() if not math.isnan(t) and lo < t < hi)
+    if lo < parallel_onset < hi:
+        cuts = sorted({*cuts, parallel_onset})
     edges = [lo, *cuts, hi]
+    top = int(np.argmax(volts))
     out = []
     for a, b in itertools.pairwise(edges):
-        inside = (volts > a + 0.75 * step) & (volts < b - 0.75 * step)
-        if a == lo:
-            inside |= volts == lo
-        if b == hi:
-            inside |= volts == hi
-        inside &= (volts > a + 0.75 * step) | (a == lo)
-        inside &= (volts < b - 0.75 * step) | (b == hi)
+        within = (volts >= a) & (volts <= b) if a == lo else (volts > a) & (volts <= b)
+        if b != hi:
+            within &= volts < b
+        clear = within & ((volts > a + 0.75 * step) | (a == lo))
+        clear &= (volts < b - 0.75 * step) | (b == hi)
+        use = clear if clear.sum() >= 2 else within
         slopes = {}
         for k, name in enumerate(names):
-            if inside.sum() >= 2:
-                slopes[name] = float(np.polyfit(volts[inside], dens[k, inside], 1)[0])
+            if use.sum() >= 2:
+                slopes[name] = float(np.polyfit(volts[use], dens[k, use], 1)[0])
             else:
                 slopes[name] = math.nan
-        filled: tuple[str, ...] = ()
-        if e1 is not None and inside.any():
-            below = np.where(np.isnan(e1[:, inside]), np.inf, e1[:, inside]) < 0.0
-            filled = tuple(n for k, n in enumerate(names) if below[k].mean() > 0.5)
-        out.append({"from_V": a, "to_V": b, "filled": filled, "slope_m2_V": slopes})
+        mid = 0.5 * (a + b)
+        filled = []
+        for k, name in enumerate(names):
+            t = thresholds.get(name, math.nan)
+            if math.isnan(t):
+                holds = e1 is not None and bool(np.nan_to_num(e1[k, top], nan=np.inf) < 0.0)
+            else:
+                holds = mid > t
+            if holds:
+                filled.append(name)
+        seg = {"from_V": a, "to_V": b, "filled": tuple(filled), "slope_m2_V": slopes}
+        seg["parallel"] = bool(mid > parallel_onset) if not math.isnan(parallel_onset) else False
+        out.append(seg)
     return tuple(out)

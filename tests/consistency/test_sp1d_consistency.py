@@ -295,3 +295,105 @@ def test_degenerate_wells_are_not_parallel_conduction():
     # the screening wells hold equal densities (mirror symmetry, tolerance ours)
     dens = {w.name: w.sheet_density_m2 for w in r.wells}
     assert dens["screen_upper"] == pytest.approx(dens["screen_lower"], rel=1e-6)
+
+
+# A screened well with always-ionised donors (a test stack; no DX levels): at positive gate bias
+# the upper doping layer starts to hold electrons (parallel conduction)
+IONISED = """
+[wafer]
+name = "test: screened well, ionised donors"
+temperature = "4 K"
+freeze_temperature = "4 K"
+[surface]
+kind = "exposed"
+barrier = "0.7 eV"
+charge = "pinned"
+[[layers]]
+name = "barrier_upper"
+material = "AlGaAs"
+x = 0.3
+thickness = "60 nm"
+[[layers]]
+name = "delta_upper"
+material = "AlGaAs"
+x = 0.3
+thickness = "2 nm"
+[[layers]]
+name = "spacer_upper"
+material = "AlGaAs"
+x = 0.3
+thickness = "25 nm"
+[[layers]]
+name = "screen_upper"
+material = "GaAs"
+thickness = "10 nm"
+well = "screening"
+[[layers]]
+name = "setback_upper"
+material = "AlGaAs"
+x = 0.3
+thickness = "25 nm"
+[[layers]]
+name = "primary"
+material = "GaAs"
+thickness = "30 nm"
+well = "primary"
+[[layers]]
+name = "setback_lower"
+material = "AlGaAs"
+x = 0.3
+thickness = "25 nm"
+[[layers]]
+name = "screen_lower"
+material = "GaAs"
+thickness = "10 nm"
+well = "screening"
+[[layers]]
+name = "spacer_lower"
+material = "AlGaAs"
+x = 0.3
+thickness = "25 nm"
+[[layers]]
+name = "delta_lower"
+material = "AlGaAs"
+x = 0.3
+thickness = "2 nm"
+[[layers]]
+name = "barrier_lower"
+material = "AlGaAs"
+x = 0.3
+thickness = "150 nm"
+[doping.delta_upper]
+sheet = "1.2e12 cm^-2"
+donor = "ionized"
+[doping.delta_lower]
+sheet = "0.6e12 cm^-2"
+donor = "ionized"
+[substrate]
+kind = "pinned"
+barrier = "0.7 eV"
+"""
+
+
+def test_gate_sweep_warns_about_parallel_conduction_and_does_not_fit_across_it():
+    s = loads_stack(IONISED, source="ionised.toml")
+    g = gate_response(s, -0.8, 0.3, 0.1)
+    warning = next(w for w in g.warnings if w.startswith("parallel conduction"))
+    assert "delta_upper" in warning
+    # every segment lies entirely on one side of the onset
+    assert any(seg["parallel"] for seg in g.segments)
+    assert any(not seg["parallel"] for seg in g.segments)
+    top = g.thresholds_V["screen_upper"]
+    clean = next(seg for seg in g.segments if seg["from_V"] >= top - 1e-9 and not seg["parallel"])
+    # its slopes equal those of a sweep that never reaches parallel conduction (tolerance ours:
+    # 2 %, two least-squares fits over different points of one straight line)
+    ref = gate_response(s, -0.5, 0.0, 0.05)
+    ref_seg = next(seg for seg in ref.segments if seg["from_V"] >= top - 1e-9)
+    assert not any("parallel" in w for w in ref.warnings)
+    assert clean["slope_m2_V"]["screen_upper"] == pytest.approx(
+        ref_seg["slope_m2_V"]["screen_upper"], rel=0.02
+    )
+    # the segment between the primary's and the upper screening well's thresholds (only one
+    # sweep point inside at this step) still says which wells hold electrons
+    mid = next(seg for seg in g.segments if seg["to_V"] == pytest.approx(top))
+    assert mid["filled"] == ("primary", "screen_lower")
