@@ -27,6 +27,7 @@ from qhdesign.stack import load_stack, loads_stack
 STACKS = Path(__file__).resolve().parents[2] / "stacks"
 SCREENED = STACKS / "ql2417_screened.toml"
 GATED = STACKS / "ql2409_doped_well.toml"
+DATA = Path(__file__).resolve().parents[1] / "data"
 TIGHT = BandsOptions(solve=SolveOptions(tol_potential_V=1e-9, tol_charge=1e-10, eigen_tol_eV=0.0))
 
 
@@ -194,91 +195,7 @@ def test_sheet_model_matches_bands():
 
 # A mirror-symmetric stack (gate on top, back gate below, equal doping): the two screening
 # wells are degenerate, so their subbands mix and each lives half in either well
-MIRROR = """
-[wafer]
-name = "mirror-symmetric test stack"
-temperature = "300 mK"
-freeze_temperature = "120 K"
-
-[surface]
-kind = "gate"
-barrier = "0.72 eV"
-
-[[layers]]
-name = "cap"
-material = "GaAs"
-thickness = "10 nm"
-[[layers]]
-name = "barrier_upper"
-material = "AlGaAs"
-x = 0.31
-thickness = "60 nm"
-[[layers]]
-name = "delta_upper"
-material = "AlGaAs"
-x = 0.31
-thickness = "2 nm"
-[[layers]]
-name = "spacer_upper"
-material = "AlGaAs"
-x = 0.31
-thickness = "24 nm"
-[[layers]]
-name = "screen_upper"
-material = "GaAs"
-thickness = "9 nm"
-well = "screening"
-[[layers]]
-name = "setback_upper"
-material = "AlGaAs"
-x = 0.31
-thickness = "25 nm"
-[[layers]]
-name = "primary"
-material = "GaAs"
-thickness = "30 nm"
-well = "primary"
-[[layers]]
-name = "setback_lower"
-material = "AlGaAs"
-x = 0.31
-thickness = "25 nm"
-[[layers]]
-name = "screen_lower"
-material = "GaAs"
-thickness = "9 nm"
-well = "screening"
-[[layers]]
-name = "spacer_lower"
-material = "AlGaAs"
-x = 0.31
-thickness = "24 nm"
-[[layers]]
-name = "delta_lower"
-material = "AlGaAs"
-x = 0.31
-thickness = "2 nm"
-[[layers]]
-name = "barrier_lower"
-material = "AlGaAs"
-x = 0.31
-thickness = "60 nm"
-[[layers]]
-name = "capb"
-material = "GaAs"
-thickness = "10 nm"
-
-[doping.delta_upper]
-sheet = "1.8e12 cm^-2"
-donor = "dx"
-[doping.delta_lower]
-sheet = "1.8e12 cm^-2"
-donor = "dx"
-
-[substrate]
-kind = "back_gate"
-barrier = "0.72 eV"
-"""
+MIRROR = (DATA / "mirror_screened.toml").read_text()
 
 
 def test_degenerate_wells_are_not_parallel_conduction():
@@ -299,80 +216,7 @@ def test_degenerate_wells_are_not_parallel_conduction():
 
 # A screened well with always-ionised donors (a test stack; no DX levels): at positive gate bias
 # the upper doping layer starts to hold electrons (parallel conduction)
-IONISED = """
-[wafer]
-name = "test: screened well, ionised donors"
-temperature = "4 K"
-freeze_temperature = "4 K"
-[surface]
-kind = "exposed"
-barrier = "0.7 eV"
-charge = "pinned"
-[[layers]]
-name = "barrier_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "60 nm"
-[[layers]]
-name = "delta_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "2 nm"
-[[layers]]
-name = "spacer_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "25 nm"
-[[layers]]
-name = "screen_upper"
-material = "GaAs"
-thickness = "10 nm"
-well = "screening"
-[[layers]]
-name = "setback_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "25 nm"
-[[layers]]
-name = "primary"
-material = "GaAs"
-thickness = "30 nm"
-well = "primary"
-[[layers]]
-name = "setback_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "25 nm"
-[[layers]]
-name = "screen_lower"
-material = "GaAs"
-thickness = "10 nm"
-well = "screening"
-[[layers]]
-name = "spacer_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "25 nm"
-[[layers]]
-name = "delta_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "2 nm"
-[[layers]]
-name = "barrier_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "150 nm"
-[doping.delta_upper]
-sheet = "1.2e12 cm^-2"
-donor = "ionized"
-[doping.delta_lower]
-sheet = "0.6e12 cm^-2"
-donor = "ionized"
-[substrate]
-kind = "pinned"
-barrier = "0.7 eV"
-"""
+IONISED = (DATA / "screened_ionised.toml").read_text()
 
 
 def test_gate_sweep_warns_about_parallel_conduction_and_does_not_fit_across_it():

@@ -17,6 +17,8 @@ classical electrons anywhere): a screened well (10 nm screening wells 25 nm abov
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 from indep_sp1d import Device, solve
 from scipy import constants as sc
@@ -24,135 +26,11 @@ from scipy import constants as sc
 from qhdesign.sp1d import solve_bands
 from qhdesign.stack import loads_stack
 
-SCREENED_IONISED = """
-[wafer]
-name = "test: screened well, ionised donors"
-temperature = "4 K"
-freeze_temperature = "4 K"
-[surface]
-kind = "exposed"
-barrier = "0.7 eV"
-charge = "pinned"
-[[layers]]
-name = "barrier_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "60 nm"
-[[layers]]
-name = "delta_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "2 nm"
-[[layers]]
-name = "spacer_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "25 nm"
-[[layers]]
-name = "screen_upper"
-material = "GaAs"
-thickness = "10 nm"
-well = "screening"
-[[layers]]
-name = "setback_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "25 nm"
-[[layers]]
-name = "primary"
-material = "GaAs"
-thickness = "30 nm"
-well = "primary"
-[[layers]]
-name = "setback_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "25 nm"
-[[layers]]
-name = "screen_lower"
-material = "GaAs"
-thickness = "10 nm"
-well = "screening"
-[[layers]]
-name = "spacer_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "25 nm"
-[[layers]]
-name = "delta_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "2 nm"
-[[layers]]
-name = "barrier_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "150 nm"
-[doping.delta_upper]
-sheet = "1.2e12 cm^-2"
-donor = "ionized"
-[doping.delta_lower]
-sheet = "0.6e12 cm^-2"
-donor = "ionized"
-[substrate]
-kind = "pinned"
-barrier = "0.7 eV"
-"""
+DATA = Path(__file__).resolve().parents[1] / "data"
 
-WIDE_WELL = """
-[wafer]
-name = "test: 60 nm well, two subbands"
-temperature = "4 K"
-freeze_temperature = "4 K"
-[surface]
-kind = "exposed"
-barrier = "0.7 eV"
-charge = "pinned"
-[[layers]]
-name = "barrier_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "60 nm"
-[[layers]]
-name = "delta_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "2 nm"
-[[layers]]
-name = "spacer_upper"
-material = "AlGaAs"
-x = 0.3
-thickness = "40 nm"
-[[layers]]
-name = "primary"
-material = "GaAs"
-thickness = "60 nm"
-well = "primary"
-[[layers]]
-name = "spacer_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "40 nm"
-[[layers]]
-name = "delta_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "2 nm"
-[[layers]]
-name = "barrier_lower"
-material = "AlGaAs"
-x = 0.3
-thickness = "150 nm"
-[doping.delta_upper]
-sheet = "0.7e12 cm^-2"
-donor = "ionized"
-[doping.delta_lower]
-sheet = "0.3e12 cm^-2"
-donor = "ionized"
-[substrate]
-kind = "pinned"
-barrier = "0.7 eV"
-"""
+SCREENED_IONISED = (DATA / "screened_ionised.toml").read_text()
+
+WIDE_WELL = (DATA / "wide_well_ionised.toml").read_text()
 
 MEV = 1e-3 * sc.e
 
