@@ -314,6 +314,10 @@ class _Problem:
         return float(top), float(bottom)
 
 
+#: Fewer free electrons than this (m^-2, i.e. 1e9 cm^-2) in a floating, frozen device: no 2DEG.
+_MIN_FREE_ELECTRONS_M2 = 1e13
+
+
 def _initial_potential(prob: _Problem, phi_guess: np.ndarray | None) -> np.ndarray:
     dev = prob.dev
     if phi_guess is not None:
@@ -373,6 +377,20 @@ def solve_device(
     if not (temperature > 0.0 and np.isfinite(temperature)):
         raise InputError(f"temperature must be > 0 K, got {temperature} K", key="temperature")
     prob = _Problem(dev, temperature, frozen_donors)
+    if frozen_donors is not None and not prob.fixed.any():
+        # Both boundaries float (a frozen surface charge, a zero-field bottom) and the donors are
+        # frozen: neutrality then fixes the number of free electrons in advance. With almost
+        # none, nothing sets the Fermi level (at mK the density is exponentially stiff in it)
+        # and the stack has no 2DEG to speak of: say so instead of failing in Newton.
+        free = float(np.sum(frozen_donors) + np.sum(prob.q_fixed)) / E
+        if free < _MIN_FREE_ELECTRONS_M2:
+            raise InputError(
+                f"after freeze-out the stack keeps only {free * 1e-4:.2g} cm^-2 free electrons "
+                "(the surface states take the rest of the ionised donors): no 2DEG forms, and "
+                "with a frozen surface over a zero-field substrate nothing fixes the Fermi level; "
+                "raise the doping or lower surface.barrier",
+                key="doping",
+            )
     phi = _initial_potential(prob, phi_guess)
     if phi_guess is None:
         # start from the semiclassical (Thomas-Fermi everywhere) solution: electrons in the

@@ -153,8 +153,17 @@ def solve_at(
     else:
         top = top_boundary(stack, gate_voltage, pinned=True)
     dev = layout.device.with_boundaries(top=top)
+    try:
+        return _solve_frozen(dev, temperature, frozen, phi_guess, options, count_hint, warm_psi)
+    except InputError as exc:  # name the stack file the refusal is about
+        if exc.source is None:
+            raise InputError(exc.message, source=stack.source, key=exc.key) from None
+        raise
+
+
+def _solve_frozen(dev, temperature, frozen, phi_guess, options, count_hint, warm_psi):
+    q0, q1 = frozen.layout.device.quantum
     guess = frozen.state.phi_V if phi_guess is None else phi_guess
-    q0, q1 = layout.device.quantum
     return solve_device(
         dev,
         temperature,

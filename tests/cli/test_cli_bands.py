@@ -206,3 +206,15 @@ def test_output_options_are_checked_before_the_work(cli_runner, app, tmp_path):
     msg = _one_line_error(r)
     assert "--json" in msg and "does not exist" in msg
     assert not missing.exists()
+
+
+def test_a_stack_without_a_2deg_is_refused_clearly(cli_runner, app, tmp_path):
+    # QL-2403 with a third of its doping: after freeze-out the surface states take nearly all the
+    # donors' electrons (1e5 cm^-2 left); with a frozen surface over a deep substrate nothing
+    # fixes the Fermi level. One line naming the file and 'doping', exit 2 (was a Newton failure)
+    text = (ROOT / "stacks" / "ql2403_heterojunction.toml").read_text()
+    low = tmp_path / "low.toml"
+    low.write_text(text.replace('volume = "1.0e18 cm^-3"', 'volume = "3.0e17 cm^-3"'))
+    r = cli_runner.invoke(app, ["bands", str(low)])
+    msg = _one_line_error(r)
+    assert "low.toml" in msg and "doping" in msg and "no 2DEG" in msg
