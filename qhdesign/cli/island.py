@@ -74,8 +74,11 @@ def register(app: typer.Typer) -> None:
             "--screening",
             help="Screening wells: tf (Thomas-Fermi, with quantum capacitance) or grounded.",
         ),
-        surface: str = typer.Option(
-            "frozen", "--surface", help="Exposed surface inside the gate: frozen or pinned."
+        surface: str | None = typer.Option(
+            None,
+            "--surface",
+            help="Exposed surface inside the gate: frozen or pinned (default: the stack's "
+            "surface.charge).",
         ),
         far: str = typer.Option("robin", "--far", help="Far boundary: robin or grounded."),
         outer_well: bool = typer.Option(
@@ -110,7 +113,7 @@ def register(app: typer.Typer) -> None:
             "far": far,
             "outer_well": outer_well,
             "filling": parse_filling(filling),
-            "gap": option_quantity(gap, "energy", "--gap"),
+            "gap": None if gap is None else str(gap),  # parsed (unit required) by the stage
             "refine": refine,
         }
         stack = load_stack(stack_file)

@@ -65,6 +65,8 @@ class SheetModel:
     fixed_charge_edges_m
         The 1D grid's nodes, shape (N+1,): the cells' true edges (on a graded grid these are not
         the midpoints between centres).
+    substrate_kind
+        The stack's bottom boundary (``"deep"``, ``"back_gate"``, ``"pinned"``).
     surface_charge_C_m2
         Frozen surface charge of an exposed surface (0 for a gate or a pinned surface), C/m^2.
     surface_kind, surface_barrier_J, surface_bias_V
@@ -85,6 +87,7 @@ class SheetModel:
     layer_permittivity: np.ndarray
     surface_charge_mode: str = "frozen"
     fixed_charge_edges_m: np.ndarray | None = None
+    substrate_kind: str | None = None
 
 
 def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
@@ -126,6 +129,7 @@ def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
         fixed_charge_z_m=np.asarray(r.cell_centres_m, dtype=float).copy(),
         fixed_charge_C_m3=np.asarray(r.fixed_charge_C_m3, dtype=float).copy(),
         fixed_charge_edges_m=np.asarray(r.z_m, dtype=float).copy(),
+        substrate_kind=str(stack.substrate.kind),
         surface_charge_C_m2=float(r.surface_charge_C_m2) if surf.kind == "exposed" else 0.0,
         surface_kind=str(surf.kind),
         surface_barrier_J=float(surf.barrier),

@@ -96,6 +96,9 @@ class IslandColumn:
         (the last layer continues to the far boundary).
     name
         For reports.
+    surface_mode
+        The stack's exposed surface: ``"frozen"`` charge or ``"pinned"`` Fermi level; the default
+        of :attr:`IslandSettings.surface`.
     """
 
     layer_z_m: tuple[float, ...]
@@ -104,8 +107,11 @@ class IslandColumn:
     top: str = "surface"
     bottom: str = "open"
     name: str = ""
+    surface_mode: str = "frozen"
 
     def __post_init__(self):
+        if self.surface_mode not in ("frozen", "pinned"):
+            raise InputError(f"surface mode '{self.surface_mode}'; allowed: frozen, pinned")
         if self.top not in ("surface", "gate"):
             raise InputError(f"top '{self.top}'; allowed: surface, gate")
         if self.bottom not in ("ground", "open"):
@@ -125,12 +131,18 @@ def column_from_sheet_model(sheets, stack=None) -> IslandColumn:
         for s in sheets.sheets
     )
     top = "surface" if sheets.surface_kind == "exposed" else "gate"
-    bottom = "open"
     name = ""
+    substrate = getattr(sheets, "substrate_kind", None)
     if stack is not None:
         name = str(getattr(stack, "name", "") or "")
-        if stack.substrate.kind in ("pinned", "back_gate"):
-            bottom = "ground"
+        substrate = stack.substrate.kind
+    if substrate is None:
+        raise InputError(
+            "this sheet model does not say what the substrate is; pass the stack instead",
+            key="substrate",
+        )
+    bottom = "ground" if substrate in ("pinned", "back_gate") else "open"
+    mode = "pinned" if getattr(sheets, "surface_charge_mode", "frozen") == "pinned" else "frozen"
     return IslandColumn(
         tuple(float(z) for z in sheets.layer_z_m),
         tuple(float(e) for e in sheets.layer_permittivity),
@@ -138,6 +150,7 @@ def column_from_sheet_model(sheets, stack=None) -> IslandColumn:
         top,
         bottom,
         name,
+        mode,
     )
 
 
@@ -180,6 +193,14 @@ class IslandGeometry:
                 f"bulk inside radius {self.radius_m * 1e9:.4g} nm; allowed: ring width < radius",
                 source=_opt("ring_width"),
             )
+        if self.split_gap_m < 1e-9:
+            # the mesh's smallest cells are 0.2 nm: narrower gaps are not resolved (C_IL was
+            # 3 % off at 0.2 nm and meaningless far below)
+            raise InputError(
+                f"split gap {self.split_gap_m * 1e9:.4g} nm is below 1 nm, which the mesh does not "
+                "resolve; allowed: 1 nm up to the ring width",
+                source=_opt("split_gap"),
+            )
         if self.split_gap_m >= self.ring_width_m:
             raise InputError(
                 f"split gap {self.split_gap_m * 1e9:.4g} nm must be narrower than the ring "
@@ -214,7 +235,8 @@ class IslandSettings:
         ``"tf"`` (linear Thomas–Fermi sheets with their 2D DOS: quantum capacitance) or
         ``"grounded"`` (ideal equipotentials), for the screening wells and the outer primary well.
     surface
-        Exposed surface r < R_gate: ``"pinned"`` (grounded) or ``"frozen"`` (zero normal field).
+        Exposed surface r < R_gate: ``"pinned"`` (grounded) or ``"frozen"`` (zero normal field);
+        None (default): as the stack's ``surface.charge``.
     far
         Far boundary: ``"robin"`` (monopole condition) or ``"grounded"``.
     outer_well
@@ -228,7 +250,7 @@ class IslandSettings:
     """
 
     screening: str = "tf"
-    surface: str = "frozen"
+    surface: str | None = None
     far: str = "robin"
     outer_well: bool = True
     filling: float | None = None
@@ -238,13 +260,14 @@ class IslandSettings:
     def __post_init__(self):
         choices = {
             "screening": ("tf", "grounded"),
-            "surface": ("pinned", "frozen"),
+            "surface": (None, "pinned", "frozen"),
             "far": ("robin", "grounded"),
         }
         for key, allowed in choices.items():
             if getattr(self, key) not in allowed:
                 raise InputError(
-                    f"'{getattr(self, key)}' is not allowed; allowed: {', '.join(allowed)}",
+                    f"'{getattr(self, key)}' is not allowed; allowed: "
+                    f"{', '.join(a for a in allowed if a is not None)}",
                     source=_opt(key),
                 )
         if self.filling is not None:
@@ -467,7 +490,7 @@ def island_problem(
     if column.top == "gate":
         top = ((0.0, Rout, "ground"),)
     else:
-        exposed = "ground" if s.surface == "pinned" else "free"
+        exposed = "ground" if (s.surface or column.surface_mode) == "pinned" else "free"
         top = ((0.0, Rg, exposed), (Rg, Rout, "ground"))
     problem = AxiProblem(
         tuple(zl), tuple(eps), tuple(lines), Rout, top, bottom, far, far_centre_z_m=prim.z_m
@@ -510,22 +533,34 @@ def _from_options(options: dict) -> tuple[IslandGeometry | None, dict, dict]:
             if value is not None:
                 geo[f"{key}_m"] = _length(value, key)
         elif key in ("screening", "surface", "far"):
-            st[key] = str(value)
+            if value is not None:
+                st[key] = str(value)
         elif key == "outer_well":
-            st[key] = bool(value)
+            text = str(value).strip().lower()
+            if isinstance(value, bool) or text in ("true", "false"):
+                st[key] = value if isinstance(value, bool) else text == "true"
+            else:
+                raise InputError(f"expected true or false, got {value!r}", source=_opt(key))
         elif key == "filling":
             st[key] = parse_filling(value)
         elif key == "gap":
             if value is not None:
                 from qhdesign.units import parse_quantity
 
-                st["gap_energy_J"] = (
-                    parse_quantity(value, "energy", source=_opt("gap"))
-                    if isinstance(value, str)
-                    else float(value)
-                )
-        elif key in ("degree", "refine"):
-            mesh[key] = int(value) if key == "degree" else float(value)
+                # a quantity needs its unit (a bare 0.5 would be 0.5 J)
+                st["gap_energy_J"] = parse_quantity(value, "energy", source="option --gap")
+        elif key == "degree":
+            if value not in (1, 2) or isinstance(value, bool):
+                raise InputError(f"element degree must be 1 or 2, got {value!r}", source=_opt(key))
+            mesh[key] = int(value)
+        elif key == "refine":
+            try:
+                ref = float(value)
+            except (TypeError, ValueError):
+                ref = math.nan
+            if isinstance(value, bool) or not 0.1 <= ref <= 8.0:
+                raise InputError(f"refine must lie in [0.1, 8], got {value!r}", source=_opt(key))
+            mesh[key] = ref
         else:
             allowed = [*_LENGTHS, "screening", "surface", "far", "outer_well", "filling", "gap"]
             raise InputError(
@@ -585,6 +620,8 @@ def solve_island(
     if mesh_opt:
         settings = replace(settings, mesh=replace(settings.mesh, **mesh_opt))
     column = _column(source)
+    if settings.surface is None:  # the stack's own surface model
+        settings = replace(settings, surface=column.surface_mode)
     problem, sheets, excluded = island_problem(column, geometry, settings)
     if comm is None:
         from .backend import load
