@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import json
 import os
-import platform
 import resource
 import statistics
 import subprocess
@@ -22,26 +21,11 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from bench_sp1d import machine_line  # noqa: E402  (one machine line for all benchmarks)
+
 STACK = ROOT / "stacks" / "ql2417_screened.toml"
 OPTIONS = {"radius": "0.8 um", "filling": "1/3", "gap": "50 ueV"}
-
-
-def machine_line() -> str:
-    import numpy as np
-    import scipy
-
-    cpu = platform.processor() or platform.machine()
-    try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                cpu = line.split(":", 1)[1].strip()
-                break
-    except OSError:
-        pass
-    return (
-        f"{cpu}, {os.cpu_count()} logical CPUs, {platform.system()} {platform.release()}, "
-        f"Python {platform.python_version()}, numpy {np.__version__}, scipy {scipy.__version__}"
-    )
 
 
 def one(refine: float) -> dict:
