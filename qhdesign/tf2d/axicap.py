@@ -46,6 +46,7 @@ from scipy import constants as sc
 
 from qhdesign.errors import InputError
 
+from .geometry import add_layer_surfaces
 from .grid import size_function
 
 __all__ = [
@@ -309,22 +310,7 @@ def _gmsh_model(problem: AxiProblem, r_m: np.ndarray, z_m: np.ndarray) -> None:
     zl = np.asarray(problem.layer_z_m, dtype=float)
     mid = 0.5 * (z_m[1:] + z_m[:-1])
     layer = np.clip(np.searchsorted(zl, mid) - 1, 0, zl.size - 2)
-    next_elem = 1
-    first = True
-    for li in range(zl.size - 1):
-        rows = np.nonzero(layer == li)[0]
-        if rows.size == 0:
-            continue
-        tag = li + 1
-        gmsh.model.addDiscreteEntity(2, tag)
-        if first:
-            gmsh.model.mesh.addNodes(2, tag, node.ravel(), coords)
-            first = False
-        tri = np.concatenate((t1[rows].reshape(-1, 3), t2[rows].reshape(-1, 3)))
-        ne = tri.shape[0]
-        gmsh.model.mesh.addElementsByType(tag, 2, np.arange(next_elem, next_elem + ne), tri.ravel())
-        next_elem += ne
-        gmsh.model.addPhysicalGroup(2, [tag], tag, name=f"layer{li}")
+    _, next_elem = add_layer_surfaces(gmsh, node, coords, t1, t2, layer, zl.size - 1)
 
     curves: dict[int, list[np.ndarray]] = {}
 

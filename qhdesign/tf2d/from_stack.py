@@ -11,7 +11,19 @@ from qhdesign.errors import InputError
 
 from .model import CrossSection
 
-__all__ = ["section_from_stack"]
+__all__ = ["refuse_gate_dielectric", "section_from_stack"]
+
+
+def refuse_gate_dielectric(stack, stage: str) -> None:
+    """The 2D and island models put gate metal directly on the semiconductor: refuse a stack
+    with a gate dielectric (one-line InputError naming the key)."""
+    if float(getattr(stack.surface, "dielectric_thickness", 0.0) or 0.0) > 0.0:
+        raise InputError(
+            f"{stage} puts gate metal directly on the semiconductor; a gate dielectric is "
+            "not modelled yet (allowed: surface.dielectric_thickness = 0)",
+            source=str(getattr(stack, "source", "") or "stack"),
+            key="surface.dielectric_thickness",
+        )
 
 
 def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSection:
@@ -29,13 +41,7 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSe
         from qhdesign.sp1d.sheets import sheet_model
     except ImportError as exc:  # the 1D stage is a separate issue
         raise InputError(f"the 1D stage is not available ({exc})") from None
-    if float(getattr(stack.surface, "dielectric_thickness", 0.0) or 0.0) > 0.0:
-        raise InputError(
-            "the 2D stage puts gate metal directly on the semiconductor; a gate dielectric is "
-            "not modelled yet (allowed: surface.dielectric_thickness = 0)",
-            source=str(getattr(stack, "source", "") or "stack"),
-            key="surface.dielectric_thickness",
-        )
+    refuse_gate_dielectric(stack, "the 2D stage")
     result = solve_bands(stack)
     section = cross_section_from_sheet_model(
         sheet_model(stack, result), gate_barrier_J=gate_barrier_J

@@ -164,6 +164,38 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     return StructuredGrid(x, z, layer, sheet_level, layout)
 
 
+def add_layer_surfaces(gmsh, node, coords, t1, t2, layer_of_row, n_layers):
+    """Add the triangles of a tensor grid to a gmsh model as one discrete surface per layer.
+
+    ``t1``/``t2`` are the two triangles of every rectangle, shape (rows, columns, 3), and
+    ``layer_of_row`` the layer of each row of rectangles. The nodes (``node`` tags, ``coords``)
+    go to the first surface. Each layer's surface gets tag and physical group ``layer + 1``.
+
+    Returns
+    -------
+    (surface tags, next free element tag)
+    """
+    next_elem = 1
+    tags = []
+    first = True
+    for li in range(n_layers):
+        rows = np.nonzero(layer_of_row == li)[0]
+        if rows.size == 0:
+            continue
+        tag = li + 1
+        gmsh.model.addDiscreteEntity(2, tag)
+        if first:
+            gmsh.model.mesh.addNodes(2, tag, node.ravel(), coords)
+            first = False
+        tri = np.concatenate((t1[rows].reshape(-1, 3), t2[rows].reshape(-1, 3)))
+        ne = tri.shape[0]
+        gmsh.model.mesh.addElementsByType(tag, 2, np.arange(next_elem, next_elem + ne), tri.ravel())
+        next_elem += ne
+        tags.append(tag)
+        gmsh.model.addPhysicalGroup(2, [tag], tag, name=f"layer{li}")
+    return tags, next_elem
+
+
 def _gmsh_model(grid: StructuredGrid, section: CrossSection, charged_levels=None):
     """Create the discrete gmsh model of the grid (rank 0). Returns the gmsh module."""
     import gmsh
@@ -187,24 +219,9 @@ def _gmsh_model(grid: StructuredGrid, section: CrossSection, charged_levels=None
     t1 = np.where(right[..., None], np.stack((a, b, c), -1), np.stack((a, b, d), -1))
     t2 = np.where(right[..., None], np.stack((a, c, d), -1), np.stack((b, c, d), -1))
     # one discrete surface per layer
-    next_elem = 1
-    surf_tags = []
-    first = True
-    for li in range(len(section.layer_permittivity)):
-        rows = np.nonzero(grid.layer_of_interval == li)[0]
-        if rows.size == 0:
-            continue
-        tag = li + 1
-        gmsh.model.addDiscreteEntity(2, tag)
-        if first:
-            gmsh.model.mesh.addNodes(2, tag, node.ravel(), coords)
-            first = False
-        tri = np.concatenate((t1[rows].reshape(-1, 3), t2[rows].reshape(-1, 3)))
-        ne = tri.shape[0]
-        gmsh.model.mesh.addElementsByType(tag, 2, np.arange(next_elem, next_elem + ne), tri.ravel())
-        next_elem += ne
-        surf_tags.append(tag)
-        gmsh.model.addPhysicalGroup(2, [tag], tag, name=f"layer{li}")
+    _, next_elem = add_layer_surfaces(
+        gmsh, node, coords, t1, t2, grid.layer_of_interval, len(section.layer_permittivity)
+    )
 
     curve_tag = [0]
 

@@ -651,13 +651,9 @@ def _column(source) -> IslandColumn:
     if hasattr(source, "sheets") and hasattr(source, "layer_permittivity"):  # a SheetModel
         return column_from_sheet_model(source)
     stack = source
-    if float(getattr(stack.surface, "dielectric_thickness", 0.0) or 0.0) > 0.0:
-        raise InputError(
-            "the island model puts gate metal directly on the semiconductor; a gate dielectric "
-            "is not modelled yet (allowed: surface.dielectric_thickness = 0)",
-            source=str(getattr(stack, "source", "") or "stack"),
-            key="surface.dielectric_thickness",
-        )
+    from .from_stack import refuse_gate_dielectric
+
+    refuse_gate_dielectric(stack, "the island model")
     if not any(lay.well == "primary" for lay in stack.layers):
         raise InputError(
             'the stack has no primary well (set well = "primary" on one layer)',
