@@ -35,10 +35,10 @@ demo: $(VENV)/.installed
 	$(QH) sweep sweeps/ql2417_setback_bands.toml --out $(OUT)/setback.csv
 	$(QH) plot-sweep $(OUT)/setback.csv --x layers.setback_upper.thickness \
 	  --y layers.setback_lower.thickness --color "primary_density_cm^-2" \
-	  --contour "primary_density_cm^-2=1.1e11" --out $(OUT)/setback_window.png
+	  --contour "primary_density_cm^-2=1.0e11" --out $(OUT)/setback_window.png
 	$(QH) edge $(STACK) --gate-voltage -1.0 --field 2 --filling 1 --perimeter "4 um" \
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
-	$(QH) island $(STACK) --radius "0.8 um" --filling 1/3 --gap "50 ueV" \
+	$(QH) island $(STACK) --radius "1.15 um" --filling 1/3 --gap "120 ueV" \
 	  --json $(OUT)/island.json --plot $(OUT)/island.png
 	@echo "demo results in $(OUT)/"
 

@@ -26,7 +26,7 @@ def test_sweep_spec_then_plot(cli_runner, app, tmp_path):
     assert "designs/s" in res.stdout
     rows = _rows(out)
     assert len(rows) == 14 * 13
-    assert rows[0]["layers.setback_upper.thickness_nm"] == "14.0"
+    assert rows[0]["layers.setback_upper.thickness_nm"] == "20.0"
     assert rows[1]["layers.spacer_upper.thickness_nm"] == "18.0"  # last parameter fastest
     # second run: nothing left to do, nothing duplicated
     res = cli_runner.invoke(app, ["sweep", str(SETBACK_SPEC), "--out", str(out), "--workers", "1"])

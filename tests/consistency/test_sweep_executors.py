@@ -26,8 +26,8 @@ stack = "{stack}"
 stage = "qhdesign.sweep.testing:flaky_stage"
 
 [options]
-not_converged_above = 3.55e-8
-invalid_above = 3.75e-8
+not_converged_above = 4.55e-8
+invalid_above = 4.8e-8
 {extra}
 
 [options.densities]
@@ -39,7 +39,7 @@ screen_lower = "0.4e11 cm^-2"
 kind = "grid"
 
 [space.parameters]
-"layers.setback_upper.thickness" = {{ from = "20 nm", to = "40 nm", steps = {n1} }}
+"layers.setback_upper.thickness" = {{ from = "30 nm", to = "50 nm", steps = {n1} }}
 "surface.barrier" = {{ from = "0.6 eV", to = "0.8 eV", steps = {n2} }}
 """
 
@@ -67,7 +67,7 @@ def test_failed_designs_are_recorded_and_the_sweep_goes_on(tmp_path):
     from qhdesign.sweep.runner import run_sweep
     from qhdesign.sweep.spec import load_spec
 
-    plan = load_spec(write_spec(tmp_path, extra="bug_above = 3.95e-8"))
+    plan = load_spec(write_spec(tmp_path, extra="bug_above = 4.95e-8"))
     summary = run_sweep(plan, tmp_path / "out.csv", executor="serial")
     header, rows = read_rows(tmp_path / "out.csv")
     st, er = header.index("status"), header.index("error")
@@ -75,10 +75,10 @@ def test_failed_designs_are_recorded_and_the_sweep_goes_on(tmp_path):
     by_status: dict[str, set[float]] = {}
     for r in rows:
         by_status.setdefault(r[st], set()).add(float(r[t_col]))
-    # grid 20..40 nm in 2.5 nm steps: <= 35 ok, 37.5 not converged, 40 is a stage bug
-    assert by_status["ok"] == {20.0, 22.5, 25.0, 27.5, 30.0, 32.5, 35.0}
-    assert by_status["not_converged"] == {37.5}
-    assert by_status["error"] == {40.0}
+    # grid 30..50 nm in 2.5 nm steps: <= 45 ok, 47.5 not converged, 50 is a stage bug
+    assert by_status["ok"] == {30.0, 32.5, 35.0, 37.5, 40.0, 42.5, 45.0}
+    assert by_status["not_converged"] == {47.5}
+    assert by_status["error"] == {50.0}
     assert summary.counts == {"ok": 35, "not_converged": 5, "error": 5}
     for r in rows:
         if r[st] == "not_converged":
@@ -254,7 +254,7 @@ def test_workers_exit_when_the_main_process_is_killed(tmp_path):
 
 def test_a_design_that_kills_its_worker_is_recorded_and_the_sweep_finishes(tmp_path):
     # the test stage ends its worker process outright (os._exit, as a segfault or the OOM killer
-    # would) for setback 30 nm (not the nominal 25 nm, which the main process probes itself):
+    # would) for setback 30 nm (not the nominal 36 nm, which the main process probes itself):
     # those 5 designs become 'error' rows, every other design is written exactly as in a normal
     # run, and the sweep exits 0
     spec = write_spec(tmp_path, extra="die_at = 3e-8")
