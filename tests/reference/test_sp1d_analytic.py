@@ -32,7 +32,7 @@ def well_grid(width: float) -> np.ndarray:
 
 def test_infinite_square_well():
     # analytic: E_n = n^2 pi^2 hbar^2 / (2 m* L^2); L = 10 nm, m* = 0.067 m0
-    # (PHYSICS.md §3 lists 56.124, 224.496, 505.115 meV for these parameters)
+    # (analytic: 56.124, 224.496, 505.115 meV for these parameters)
     L, m = 10e-9, 0.067
     z = well_grid(L)
     en, psi = solve_subbands(z, np.zeros(len(z)), np.full(len(z) - 1, m), 3)
@@ -113,7 +113,7 @@ mass = {m_b}
     [(10.0, 0.0919), (20.0, 0.0919), (20.0, 0.067)],
 )
 def test_finite_square_well_default_grid(L_nm, m_b):
-    # V0 = 259.1 meV, m_w = 0.067: GaAs in Al0.3Ga0.7As (PHYSICS.md §3 parameters);
+    # V0 = 259.1 meV, m_w = 0.067: GaAs in Al0.3Ga0.7As (docs/derivations.md §12 for V0);
     # check values from the transcendental equations solved with scipy above.
     v0 = 0.2591
     stack = loads_stack(finite_well_stack(L_nm, v0, m_b))
@@ -126,7 +126,8 @@ def test_finite_square_well_default_grid(L_nm, m_b):
     exact = finite_well_levels(L_nm * 1e-9, v0 * sc.e, 0.067, m_b)
     en, _ = solve_subbands(z, u, dev.mass[q0:q1], len(exact))
     np.testing.assert_allclose(en, exact, rtol=REL)
-    # (PHYSICS.md §3 [D] lists 30.837, 121.295, 249.236 meV for L = 10 nm; the scipy roots with
+    # (values the team computed earlier list 30.837, 121.295, 249.236 meV for L = 10 nm; the
+    # scipy roots with
     # CODATA constants are 30.8354, 121.2901, 249.2147 meV, 5e-5 to 9e-5 lower: the [D] values
     # are not used as check values.)
 

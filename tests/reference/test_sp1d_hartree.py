@@ -19,7 +19,7 @@ Exact identities checked as well (analytic, our derivations, docs/models.md):
 - hard-wall sum rule (the force of the electrons on the wall equals the electrostatic force on
   them): (hbar^2 / 2m*) N_s psi'(0)^2 = (e^2 / eps) (N_depl N_s + N_s^2 / 2);
 - one occupied subband at 10 mK: E_F - E_0 = pi hbar^2 N_s / m*.
-Parameters: m* = 0.067 m0, kappa = 12.9 (PHYSICS.md §3).
+Parameters: m* = 0.067 m0, kappa = 12.9 (docs/derivations.md §5).
 """
 
 from __future__ import annotations

@@ -13,7 +13,7 @@ Hartree solution minimises the same convex energy functional over all wavefuncti
 Euler–Lagrange equation is the Schrödinger–Poisson system), so its energy per electron can
 never exceed min_b W(b): a rigorous upper bound from the published variational method. Here
 V_ext is the exact potential of a uniform acceptor charge N_depl spread over 1 um, and W(b) is
-minimised numerically with scipy. Parameters as in PHYSICS.md §3: m* = 0.067 m0, kappa = 12.9.
+minimised numerically with scipy. Arithmetic in docs/derivations.md §5: m* = 0.067 m0, kappa = 12.9.
 
 No self-consistent table (e.g. Stern & Das Sarma, Phys. Rev. B 30, 840 (1984)) could be
 retrieved, so no such numbers are used here (see docs/validation.md).

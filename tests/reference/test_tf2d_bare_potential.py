@@ -2,7 +2,7 @@
 
 Half-plane gate over x < 0 and a strip gate of width w, both on a pinned surface (phi = 0 on the
 exposed part), in a semi-infinite uniform dielectric. The exact potential at depth z is
-(analytic, Laplace equation in the half-plane; PHYSICS.md section 5, attributed to Davies,
+(analytic, Laplace equation in the half-plane; docs/derivations.md section 6, attributed to Davies,
 Larkin, Sukhorukov, J. Appl. Phys. 77, 4504 (1995)):
 
     half-plane: phi = (V_g/pi) (pi/2 - arctan(x/z))

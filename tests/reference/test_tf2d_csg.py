@@ -7,8 +7,8 @@ one plane inside a uniform dielectric. In the metallic limit the electron densit
 
 and the gate sits at V_g = -pi e n0 l / (2 eps) relative to the 2DEG (our derivation from the
 complex potential w = i (e n0 / 2 eps)[zeta - sqrt(zeta^2 - l^2) + l ln(zeta + sqrt(zeta^2 -
-l^2))], PHYSICS.md section 5 [D]), so the depleted width 2l = 4 eps V_g / (pi e n0) is linear
-in V_g / n0. The outer boundary of the finite box gets this exact potential.
+l^2))], docs/derivations.md section 7), so the depleted width 2l = 4 eps V_g / (pi e n0) is
+linear in V_g / n0. The outer boundary of the finite box gets this exact potential.
 
 Thomas–Fermi is the metallic limit only beyond a few screening lengths a = 2 eps/(e^2 D) from the
 edge; the sheet here has ten times the GaAs density of states (a = 0.51 nm) so that the region

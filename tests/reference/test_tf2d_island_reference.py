@@ -57,7 +57,8 @@ def test_isolated_disk_8_eps_R():
     C = sol.matrix_F[0, 0]
     exact = 8.0 * EPS * R  # analytic: Jackson 3rd ed. sec. 3.12
     assert abs(C / exact - 1.0) < 2e-3  # brief: within 0.2 %; measured 6.7e-4 at defaults
-    # PHYSICS.md sec. 7 [S]: R = 0.5 um, kappa 12.9 -> 4.569e-16 F (4 digits given)
+    # analytic 8 eps R (docs/derivations.md sec. 13): R = 0.5 um, kappa 12.9 -> 4.569e-16 F
+    # (4 digits given)
     assert C == pytest.approx(4.569e-16, rel=1e-3)
     assert sol.info["reciprocity_error"] < 1e-10
 
@@ -65,7 +66,8 @@ def test_isolated_disk_8_eps_R():
 def test_love_solver_normalisation():
     # analytic limits of the normalisation stated in love_capacitance
     assert love_capacitance(1e4, panel=0.05) == pytest.approx(4.0, rel=1e-3)
-    kir = np.pi / 0.1 + np.log(16 * np.pi / 0.1) - 1.0  # Kirchhoff asymptotics, PHYSICS sec. 7 [M]
+    # Kirchhoff asymptotics (from memory; docs/derivations.md sec. 13)
+    kir = np.pi / 0.1 + np.log(16 * np.pi / 0.1) - 1.0
     assert love_capacitance(0.1) == pytest.approx(kir, rel=0.01)
     # discretisation: halving the panels changes nothing at the digits compared below
     assert love_capacitance(0.5) == pytest.approx(
@@ -75,7 +77,7 @@ def test_love_solver_normalisation():
 
 @pytest.mark.parametrize(
     ("d_over_R", "team_value", "decimals"),
-    # PHYSICS.md sec. 7 [D]: the team's own Love-equation solutions, C/(eps R)
+    # docs/derivations.md sec. 13: the team's own Love-equation solutions, C/(eps R)
     [(0.01, 321.74, 2), (0.1, 36.932, 3), (0.5, 10.718, 3), (1.0, 7.2831, 4)],
 )
 def test_love_independent_vs_team_numbers(d_over_R, team_value, decimals):
@@ -129,8 +131,8 @@ def test_disk_between_planes_parallel_plate_limit(disk_between_planes):
 
 
 def test_physics_example_area_term():
-    # PHYSICS.md sec. 6 [D]: A = 1 um^2, planes 30 nm away, kappa 12.9: 2 eps A/d = 7.61e-15 F,
-    # e^2/C = 21.0 ueV
+    # analytic (docs/derivations.md sec. 13): A = 1 um^2, planes 30 nm away, kappa 12.9:
+    # 2 eps A/d = 7.61e-15 F, e^2/C = 21.0 ueV
     A, d = 1e-12, 30e-9
     R = np.sqrt(A / np.pi)
     prob = AxiProblem(

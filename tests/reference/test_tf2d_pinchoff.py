@@ -4,11 +4,11 @@ A single Thomas–Fermi sheet at depth d in a uniform dielectric, a pinned surfa
 gap), gates at V_g over |x| > w/2 (gate barrier 0), a zero-field bottom far below (20 um), and a
 neutralising donor sheet. At pinch-off the well is empty everywhere (it is cut under the gates
 first), so the potential is the bare one. For a gap of width w in a gate plane over a half-space
-(exact Laplace solution; PHYSICS.md section 5) the potential at the centre at depth d is
+(exact Laplace solution; docs/derivations.md section 6) the potential at the centre at depth d is
 V_g [1 - (2/pi) arctan(w/2d)] plus the x-independent donor part; a wide gate depletes the sheet
 at V_dep = -e n0 (d/eps + 1/(e^2 D)) (series capacitance of the dielectric and the 2D quantum
 capacitance, Luryi, Appl. Phys. Lett. 52, 501 (1988)). Hence (our derivation; the "quick design"
-formula of PHYSICS.md section 5, here exact)
+formula of docs/derivations.md section 6, here exact)
 
     V_pinch = V_dep / [1 - (2/pi) arctan(w / 2d)].
 

@@ -3,8 +3,8 @@
 A sheet midway between two grounded metal planes 2d apart (the surface, pinned at 0 V with a
 gate over x < 0 as the perturbation, and a back gate at 0 V). In the metallic limit each
 half-space is a slab of width d between equipotentials, whose slowest Laplace mode decays as
-exp(-pi x / d) (analytic; PHYSICS.md section 5). For a Thomas–Fermi sheet with density of states
-D the symmetric mode phi ~ sin(k(d - |z|)) e^{-kx} must satisfy the sheet condition
+exp(-pi x / d) (analytic; docs/derivations.md section 8). For a Thomas–Fermi sheet with density
+of states D the symmetric mode phi ~ sin(k(d - |z|)) e^{-kx} must satisfy the sheet condition
 e^2 D phi = -2 eps dphi/dz, i.e. tan(k d) = -k a with a = 2 eps/(e^2 D) (our derivation, exact
 for the linearised Thomas–Fermi sheet), which tends to pi/d as a/d -> 0.
 
