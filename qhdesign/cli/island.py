@@ -46,6 +46,25 @@ def _print(res) -> None:
     console.print(t)
 
 
+def _print_figures(f: dict) -> None:
+    def mT(v):
+        return "-" if v is None else f"{v * 1e3:.4g} mT"
+
+    gate = "-" if f["period_gate_V"] is None else f"{f['period_gate_V'] * 1e3:.4g} mV"
+    typer.echo(
+        f"interferometer (nu = {f['filling']:.4g}, B = {f['field_T']:.4g} T): regime "
+        f"{f['regime']} (K_IL/K_I = {f['K_IL_over_K_I']:.4f}); periods "
+        f"{mT(f['period_compressible_T'])} / {mT(f['period_incompressible_T'])} "
+        f"(A_I - r A_L form); window {mT(f['window_T'])}; gate period {gate}"
+    )
+    typer.echo(
+        f"E_C = {f['E_C_mK']:.4g} mK vs T = {f['temperature_K'] * 1e3:.4g} mK; T0 = "
+        f"{f['T0_K'] * 1e3:.4g} mK (v = {f['edge_velocity_m_per_s']:.3g} m/s, L = "
+        f"{f['path_length_m'] * 1e6:.3g} um, {f['edge_velocity_source']}): visibility factor "
+        f"{f['visibility']:.3f}"
+    )
+
+
 def register(app: typer.Typer) -> None:
     @app.command("island")
     @guarded
@@ -87,6 +106,29 @@ def register(app: typer.Typer) -> None:
             help="Keep the primary well beyond the gate edge as a screening sheet.",
         ),
         refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
+        gap_kind: str = typer.Option(
+            "quasiparticle",
+            "--gap-kind",
+            help="What --gap is: quasiparticle (creation energy of one) or activation "
+            "(R_xx ~ exp(-gap/2kT); halved).",
+        ),
+        temperature: str = typer.Option(
+            "20 mK", "--temperature", help="Electron temperature for the visibility and window."
+        ),
+        edge_velocity: str | None = typer.Option(
+            None,
+            "--edge-velocity",
+            help="Edge velocity for T0 (default 2e4 m/s).",
+        ),
+        field: str | None = typer.Option(
+            None, "--field", help="Field (default: the field that puts the bulk at the filling)."
+        ),
+        gate_voltage: str | None = typer.Option(
+            None,
+            "--gate-voltage",
+            help="Gate bias: runs the 2D edge stage for the edge shift per volt, hence dA/dV and "
+            "the gate period.",
+        ),
         json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
         plot: Path | None = typer.Option(
             None, "--plot", help="Write the potential maps u_I, u_L (PNG/SVG)."
@@ -107,25 +149,60 @@ def register(app: typer.Typer) -> None:
         )
         if not 0.25 <= refine <= 4:
             raise InputError("refine must lie in [0.25, 4]", source="option --refine")
+        from qhdesign.island_figures import (
+            conditions_from_edge,
+            figures_from_result,
+            island_column,
+            split_island_options,
+        )
+
+        cond, qh, gate_v = split_island_options(
+            {
+                "filling": filling,
+                "gap": gap,
+                "gap_kind": gap_kind,
+                "temperature": temperature,
+                "edge_velocity": edge_velocity,
+                "field": field,
+                "gate_voltage": gate_voltage,
+            },
+            source_prefix="--",
+        )
+        if gap is None:
+            qh.pop("filling", None)
         options = {
             "screening": screening,
             "surface": surface,
             "far": far,
             "outer_well": outer_well,
             "filling": parse_filling(filling),
-            "gap": None if gap is None else str(gap),  # parsed (unit required) by the stage
+            "gap": qh.get("gap"),  # the quasiparticle gap ("... J"), parsed by the stage
             "refine": refine,
         }
         stack = load_stack(stack_file)
-        res = solve_island(stack, geometry, keep_potentials=plot is not None, **options)
+        column = island_column(stack)
+        if gate_v is not None:
+            cond = conditions_from_edge(stack, cond, gate_v)
+        res = solve_island(column, geometry, keep_potentials=plot is not None, **options)
+        figures = figures_from_result(res, cond, getattr(column, "primary", None).density_m2)
         MPI, _ = load()
         if MPI.COMM_WORLD.rank != 0:
             return
         _print(res)
+        _print_figures(figures)
         if json_out is not None:
             from qhdesign.io import atomic_write_json
 
-            atomic_write_json(json_out, {"stack_file": str(stack_file), **res.to_dict()})
+            top = {k: figures[k] for k in ("regime", "period_gate_V", "T0_K", "visibility")}
+            atomic_write_json(
+                json_out,
+                {
+                    "stack_file": str(stack_file),
+                    **res.to_dict(),
+                    **top,
+                    "interferometer": figures,
+                },
+            )
         if plot is not None:
             from qhdesign.plotting import save_figure, use_agg
 
