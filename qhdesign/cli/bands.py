@@ -8,6 +8,7 @@ from pathlib import Path
 
 import typer
 
+from . import disorder as D
 from .common import guarded, option_quantity
 
 
@@ -116,11 +117,22 @@ def register(app: typer.Typer) -> None:
         ),
         json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
         plot: Path | None = typer.Option(None, "--plot", help="Write the band diagram."),
+        background: str | None = typer.Option(None, "--background", help=D.BACKGROUND_HELP),
+        roughness_height: str | None = typer.Option(
+            None, "--roughness-height", help=D.ROUGH_H_HELP
+        ),
+        roughness_length: str | None = typer.Option(
+            None, "--roughness-length", help=D.ROUGH_L_HELP
+        ),
+        min_mobility: str | None = typer.Option(None, "--min-mobility", help=D.MIN_MOB_HELP),
     ) -> None:
-        """Self-consistent subbands and the charge in each well (donors frozen at freeze-out)."""
+        """Self-consistent subbands and the charge in each well (donors frozen at freeze-out),
+        with a disorder estimate per well (mobility, quantum lifetime, level broadening)."""
         from qhdesign.errors import InputError
         from qhdesign.sp1d import BandsOptions, solve_bands
+        from qhdesign.sp1d.scattering import scattering
 
+        dis = D.disorder_options(background, roughness_height, roughness_length, min_mobility)
         stack = _load(stack_file)
         v = option_quantity(gate, "voltage", "--gate")
         t = _temperature(temperature)
@@ -134,11 +146,15 @@ def register(app: typer.Typer) -> None:
 
             check_gate_voltage(stack, v, "--gate")
         r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
+        sr = scattering(r, dis)
         _print_bands(r)
+        from rich.console import Console
+
+        D.print_disorder(sr, Console(width=110))
         if json_out is not None:
             from qhdesign.io import atomic_write_json
 
-            atomic_write_json(json_out, r.to_dict())
+            atomic_write_json(json_out, sr.merge_into(r.to_dict()))
             typer.echo(f"wrote {json_out}")
         if plot is not None:
             from qhdesign.plotting import save_figure

@@ -1,0 +1,91 @@
+"""CLI helpers of the disorder estimate (``bands`` and ``calibrate --mobility``): the options
+with units, and the printed table. The physics is in :mod:`qhdesign.sp1d.scattering`."""
+
+from __future__ import annotations
+
+import math
+
+import typer
+
+from .common import option_quantity
+
+#: ScatteringOptions validation key -> the CLI option that set it.
+OPTION_OF = {
+    "background": "--background",
+    "roughness_height": "--roughness-height",
+    "roughness_length": "--roughness-length",
+    "min_mobility": "--min-mobility",
+}
+
+BACKGROUND_HELP = (
+    'Uniform charged background impurity density, e.g. "1e14 cm^-3" '
+    "(default 1e14 cm^-3, common practice for good MBE material)."
+)
+ROUGH_H_HELP = 'RMS interface roughness height, e.g. "0.3 nm" (default: no roughness).'
+ROUGH_L_HELP = 'Roughness correlation length (> 0), e.g. "10 nm"; needed with a height.'
+MIN_MOB_HELP = (
+    'Flag the primary well when its estimated mobility is below this, e.g. "1e6 cm^2/Vs" '
+    "(default 1e6 cm^2/Vs, common practice)."
+)
+
+
+def disorder_options(background=None, roughness_height=None, roughness_length=None, min_mob=None):
+    """A :class:`~qhdesign.sp1d.scattering.ScatteringOptions` from CLI strings with units.
+
+    Raises
+    ------
+    InputError
+        Naming the option and its allowed range (exit 2 through the CLI guard).
+    """
+    from qhdesign.errors import InputError
+    from qhdesign.sp1d.scattering import ScatteringOptions
+
+    kw = {}
+    for value, dim, option, field in (
+        (background, "volume_density", "--background", "background_m3"),
+        (roughness_height, "length", "--roughness-height", "roughness_height_m"),
+        (roughness_length, "length", "--roughness-length", "roughness_length_m"),
+        (min_mob, "mobility", "--min-mobility", "min_mobility_m2_Vs"),
+    ):
+        v = option_quantity(value, dim, option)
+        if v is not None:
+            kw[field] = v
+    try:
+        return ScatteringOptions(**kw)
+    except InputError as exc:
+        raise InputError(exc.message, source=f"option {OPTION_OF.get(exc.key, exc.key)}") from None
+
+
+def print_disorder(sr, console) -> None:
+    """The per-well estimate as a table, then the low-mobility flag line."""
+    from rich.table import Table
+    from scipy import constants as sc
+
+    t = Table(title="disorder estimate (Born, screened; ranks designs, not a Hall prediction)")
+    cols = ("well", "mobility (cm^2/Vs)", "tau_t (ps)", "tau_q (ps)", "Gamma (ueV)", "largest")
+    for col in cols:
+        t.add_column(col, justify="left" if col in ("well", "largest") else "right")
+    for w in sr.wells:
+        if not w.sources:
+            t.add_row(w.name, "-", "-", "-", "-", "empty")
+            continue
+        rt = sum(s.transport_rate_s for s in w.sources)
+        top = max(w.sources, key=lambda s: s.transport_rate_s)
+        t.add_row(
+            w.name,
+            f"{w.mobility_m2_per_Vs * 1e4:.3g}",
+            f"{w.transport_lifetime_s * 1e12:.3g}",
+            f"{w.quantum_lifetime_s * 1e12:.3g}",
+            f"{w.level_broadening_J / sc.e * 1e6:.3g}",
+            f"{top.name} ({top.transport_rate_s / rt:.0%})",
+        )
+    console.print(t)
+    o = sr.options
+    p = next((w for w in sr.wells if w.role == "primary"), None)
+    if p is not None and not math.isnan(p.mobility_m2_per_Vs):
+        console.print(
+            f"primary mobility {p.mobility_m2_per_Vs * 1e4:.3g} cm^2/Vs vs threshold "
+            f"{o.min_mobility_m2_Vs * 1e4:.3g} cm^2/Vs" + (" [LOW]" if sr.low_mobility else " (ok)")
+        )
+    for w in sr.warnings:
+        typer.echo(f"warning: {w}", err=True)
