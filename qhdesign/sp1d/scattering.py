@@ -72,7 +72,9 @@ class ScatteringOptions:
     roughness_length_m
         Gaussian correlation length Lambda of the roughness (m), > 0; needed when the height is.
     surface
-        Count the net frozen surface charge as a sheet of charged scatterers at z = 0.
+        Count the net charge of an exposed surface (surface states) as a sheet of charged
+        scatterers at z = 0 (a lower bound: only the net charge is known). Never counted under
+        a metal gate.
     screening
         ``"thomas-fermi"`` (static, the well's own electrons) or ``"none"``.
     min_mobility_m2_Vs
@@ -574,7 +576,9 @@ def scattering(result, options: ScatteringOptions | None = None) -> ScatteringRe
     """
     o = options or ScatteringOptions()
     sheets = _donor_sheets(result)
-    if o.surface and result.surface_charge_C_m2 != 0.0:
+    # surface states of a bare (exposed) surface are charged scatterers; a metal gate's charge
+    # is a smooth sheet, not a random one, and is not counted
+    if o.surface and result.surface_kind == "exposed" and result.surface_charge_C_m2 != 0.0:
         n_surf = abs(result.surface_charge_C_m2) / sc.e
         sheets["surface"] = (np.array([result.z_m[0]]), np.array([n_surf]))
     span = (float(result.z_m[0]), float(result.z_m[-1]))
