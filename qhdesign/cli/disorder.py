@@ -89,3 +89,54 @@ def print_disorder(sr, console) -> None:
         )
     for w in sr.warnings:
         typer.echo(f"warning: {w}", err=True)
+
+
+def calibrate_mobility(stack_file, parameter, well, mobility, out, json_out) -> None:
+    """``calibrate --mobility``: the background density reproducing one measured mobility."""
+    from qhdesign.errors import InputError
+    from qhdesign.io import atomic_write_json
+    from qhdesign.sp1d import solve_bands
+    from qhdesign.sp1d.scattering import DEFAULT_BACKGROUND_M3, fit_background
+    from qhdesign.stack import load_stack
+
+    if parameter not in (None, "background"):
+        raise InputError(
+            f"with --mobility the fitted parameter is the background impurity density; "
+            f"got '{parameter}', allowed: background",
+            source="option --parameter",
+        )
+    if out is not None:
+        raise InputError(
+            "the background density is an option of bands (--background), not a stack "
+            "parameter: no stack is written; use --json for the fit",
+            source="option --out",
+        )
+    mu = option_quantity(mobility, "mobility", "--mobility")
+    stack = load_stack(stack_file)
+    for w in stack.warnings:
+        typer.echo(f"warning: {w}", err=True)
+    r = solve_bands(stack)
+    try:
+        nb, sr = fit_background(r, well, mu)
+    except InputError as exc:
+        raise InputError(exc.message, source=f"option {exc.key}") from None
+    w = sr.well(well)
+    typer.echo(
+        f"background: fitted {nb * 1e-6:.4g} cm^-3 (default {DEFAULT_BACKGROUND_M3 * 1e-6:.3g} "
+        f"cm^-3); {well} estimate {w.mobility_m2_per_Vs * 1e4:.6g} cm^2/Vs vs "
+        f'measured {mu * 1e4:.6g} cm^2/Vs; use bands --background "{nb * 1e-6:.4g} cm^-3"'
+    )
+    if json_out is not None:
+        atomic_write_json(
+            json_out,
+            {
+                "parameter": "background",
+                "fitted_value_m3": nb,
+                "well": well,
+                "measured_mobility_m2_per_Vs": mu,
+                "achieved_mobility_m2_per_Vs": w.mobility_m2_per_Vs,
+                "quantum_lifetime_s": w.quantum_lifetime_s,
+                "level_broadening_J": w.level_broadening_J,
+            },
+        )
+        typer.echo(f"wrote {json_out}")
