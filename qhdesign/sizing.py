@@ -8,7 +8,9 @@ model is behind it. The search (docs/interferometer.md, "Sizing"):
 2. where the worst margin (all targets) changes sign between neighbours and the targets that
    flip there are monotone over the scan, locate the boundary by Brent's method on the worst
    margin, keeping the feasible side, to a relative radius tolerance; otherwise the scan points
-   bound it;
+   bound it; when no scan point is feasible, the worst margin is maximised between the best
+   point's neighbours (a narrow window between two scan points is not missed when the margins
+   are monotone);
 3. the feasible set is where every margin is >= 0; the widest feasible interval is reported. If
    none, the verdict names the target that fails first: at the radius where the worst margin is
    least bad, the target with that worst margin, and by how much.
@@ -251,6 +253,42 @@ def _crossing(g: Callable[[float], float], a: float, b: float, ga: float, gb: fl
     return r
 
 
+class _Found(Exception):
+    pass
+
+
+def _narrow_window(margins, grid, worst, rtol) -> list[float]:
+    """No scan point is feasible: look for a feasible window between the scan neighbours of the
+    best point. With monotone margins the worst margin is unimodal there, so a bounded Brent
+    maximisation finds its peak; the search stops at the first feasible radius, whose window
+    ends are then located like any other boundary. Returns the radii to add (none if the peak is
+    still infeasible)."""
+    from scipy.optimize import minimize_scalar
+
+    i = max(range(len(grid)), key=lambda k: worst[k])
+    a, b = grid[max(i - 1, 0)], grid[min(i + 1, len(grid) - 1)]
+
+    def objective(R):
+        w = min(margins(R))
+        if w >= 0:
+            raise _Found(R)
+        return -w
+
+    try:
+        minimize_scalar(
+            objective, bounds=(a, b), method="bounded", options={"xatol": rtol * a, "maxiter": 30}
+        )
+    except _Found as hit:
+        p = hit.args[0]
+        out = [p]
+        for lo, hi in ((a, p), (p, b)):
+            glo, ghi = min(margins(lo)), min(margins(hi))
+            if (glo >= 0) != (ghi >= 0):
+                out.append(_crossing(lambda R: min(margins(R)), lo, hi, glo, ghi, rtol))
+        return out
+    return []
+
+
 def size_island(
     evaluate: Callable[[float], dict],
     targets: Sequence[Target],
@@ -314,6 +352,8 @@ def size_island(
             edges.append(_crossing(lambda R: min(margins(R)), a, b, ga, gb, rtol))
         else:
             edges.append(a if ga >= 0 else b)
+    if max(worst) < 0:
+        edges += _narrow_window(margins, grid, worst, rtol)
     pts = sorted(set(grid) | set(edges))
     ok = [min(margins(R)) >= 0 for R in pts]
     intervals: list[tuple[float, float]] = []

@@ -82,3 +82,21 @@ def test_target_margin_and_units():
     assert t.threshold == pytest.approx(0.05) and t.lower
     assert t.margin(0.06) == pytest.approx(0.2)
     assert parse_target("r < 0.1").quantity == "K_IL/K_I"
+
+
+def test_a_window_between_scan_points_is_found():
+    """Feasible 0.533..0.65 um lies between the scan points 0.3, 0.775 and 2 um: the
+    maximisation of the worst margin finds it and the ends match the closed form."""
+    targets = parse_targets(["K_IL/K_I < 0.12", "visibility > 0.93"])
+    res = size_island(disk, targets, 0.3e-6, 2e-6, points=3, rtol=1e-4)
+    assert res.feasible
+    # analytic ends: r = 0.12 at 0.064/0.12 um; x/sinh x = 0.93 at x = R/1 um (scipy brentq)
+    from scipy.optimize import brentq
+
+    hi = 1e-6 * brentq(lambda x: x / math.sinh(x) - 0.93, 0.1, 3, xtol=1e-14)
+    assert all(
+        min(t.margin(f.get(t.key)) for t in targets) < 0
+        for f in map(disk, (0.3e-6, 0.775e-6, 2e-6))
+    )
+    assert res.radius_range_m[0] == pytest.approx(0.064e-6 / 0.12, rel=2e-4)
+    assert res.radius_range_m[1] == pytest.approx(hi, rel=2e-4)
