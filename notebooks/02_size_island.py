@@ -35,8 +35,6 @@ UEV = 1e-6 * sc.e
 # The 1D stage runs once; each island radius is one axisymmetric solve.
 
 # %%
-from mpi4py import MPI
-
 from qhdesign.tf2d import solve_island
 
 stack = qhdesign.load_stack(root / "stacks" / "ql2417_screened.toml")
@@ -46,7 +44,7 @@ n = column.primary.density_m2
 
 
 def evaluate(R):
-    res = solve_island(column, comm=MPI.COMM_SELF, radius=R, filling=1 / 3)
+    res = solve_island(column, radius=R, filling=1 / 3)
     return figures_from_result(res, cond, n)
 
 

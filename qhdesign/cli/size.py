@@ -110,14 +110,12 @@ def register(app: typer.Typer) -> None:
         column = island_column(stack)
         if gate_v is not None:
             cond = conditions_from_edge(stack, cond, gate_v)
-        from mpi4py import MPI
-
         from qhdesign.tf2d import solve_island
 
         density = column.primary.density_m2
 
         def evaluate(R: float) -> dict:
-            res = solve_island(column, comm=MPI.COMM_SELF, radius=R, **geo, **qh)
+            res = solve_island(column, radius=R, **geo, **qh)
             return figures_from_result(res, cond, density)
 
         result = size_island(evaluate, targets, lo, hi, points=points)
