@@ -57,7 +57,10 @@ class BruteForce:
     def ground(self, B, V=0.0, span=6):
         dl0 = (self.nu * B * self.A_L / PHI0 - self.q0 - self.beta * V) / self.nu
         n0 = round(dl0)
-        Ns = range(min(n0, 0) - span, max(n0, 0) + span + 1)
+        if self.gap == 0:  # E is a parabola in N around n0
+            Ns = range(n0 - span, n0 + span + 1)
+        else:  # the gap can hold N anywhere between 0 and n0
+            Ns = range(min(n0, 0) - span, max(n0, 0) + span + 1)
         return min(Ns, key=lambda N: self.energy(B, V, N))
 
     def phase(self, B, V=0.0, N=None):
