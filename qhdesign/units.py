@@ -26,6 +26,7 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "area": ("[length]**2", "m**2", "1 um^2"),
     "velocity": ("[length]/[time]", "m/s", "5e4 m/s"),
     "electric_field": ("[electric_potential]/[length]", "V/m", "1e6 V/m"),
+    "time": ("[time]", "s", "1 ps"),
 }
 
 _BARE_NUMBER = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$")

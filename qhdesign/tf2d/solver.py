@@ -142,6 +142,10 @@ class CrossSectionSolver:
     sheet_metal
         Validation hook: ``[(sheet index, x_max_m)]``: the sheet line for x <= x_max is metal at
         the gate potential (a coplanar gate).
+    axisymmetric
+        Read x as the radius r (the mesh must start at r = 0: ``MeshOptions(x_min_m=0)``) and
+        weight every form by r / r_max (the axis needs no condition). Used by the island's
+        operating point (:mod:`qhdesign.island.operating`).
     """
 
     def __init__(
@@ -154,6 +158,7 @@ class CrossSectionSolver:
         comm=None,
         outer_dirichlet: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
         sheet_metal: list[tuple[int, float]] | None = None,
+        axisymmetric: bool = False,
     ):
         from .backend import load
 
@@ -172,6 +177,7 @@ class CrossSectionSolver:
         self.comm = comm if comm is not None else MPI.COMM_WORLD
         self._outer = outer_dirichlet
         self._sheet_metal = list(sheet_metal or [])
+        self.axisymmetric = bool(axisymmetric)
         self.timings: dict[str, float] = {}
 
         t0 = time.perf_counter()
@@ -182,6 +188,8 @@ class CrossSectionSolver:
         data = build_mesh(self.grid, section, self.comm, charged_levels=charged)
         self.timings["mesh"] = time.perf_counter() - t0
         self.mesh, self.cell_tags, self.facet_tags = data.mesh, data.cell_tags, data.facet_tags
+        if self.axisymmetric and abs(self.grid.x_m[0]) > 0.0:
+            raise InputError("an axisymmetric solve needs a mesh from r = 0 (x_min_m = 0)")
 
         t0 = time.perf_counter()
         self._setup_spaces()
@@ -293,10 +301,13 @@ class CrossSectionSolver:
             else {"quadrature_degree": qd},
         )
         sheet_tags = tuple(TAGS["sheet0"] + i for i in range(len(self.section.sheets)))
-        F = C_EPS * self.eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * dx
-        F -= self.q_lines("+") * v("+") * dS((TAGS["levels"], *sheet_tags))
-        F -= self.q_lines * v * ds((TAGS["exposed"], TAGS["bottom"]))
-        F -= self.sigma * v * ds(TAGS["exposed"])
+        # axisymmetric: every integrand carries r (scaled to <= 1 so residual norms keep scale)
+        wr = self.radial_weight()
+        wS = wr("+") if self.axisymmetric else wr
+        F = C_EPS * self.eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * wr * dx
+        F -= self.q_lines("+") * v("+") * wS * dS((TAGS["levels"], *sheet_tags))
+        F -= self.q_lines * v * wr * ds((TAGS["exposed"], TAGS["bottom"]))
+        F -= self.sigma * v * wr * ds(TAGS["exposed"])
         self.E = []
         self.D = []
         for i, s in enumerate(self.section.sheets):
@@ -304,7 +315,7 @@ class CrossSectionSolver:
             D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
             a = (u("+") - E) / self.kT
             softplus = ufl.max_value(a, 0.0) + ufl.ln(1.0 + ufl.exp(-abs(a)))
-            F += D * self.kT * softplus * v("+") * dS_v(sheet_tags[i])
+            F += D * self.kT * softplus * v("+") * wS * dS_v(sheet_tags[i])
             self.E.append(E)
             self.D.append(D)
         use_lu = self.options.linear_solver == "lu" or (
@@ -338,6 +349,14 @@ class CrossSectionSolver:
         snes = self.problem.solver
         self._history: list[float] = []
         snes.setMonitor(lambda _snes, _it, norm: self._history.append(float(norm)))
+
+    def radial_weight(self):
+        """The weight of every integrand: r / r_max (UFL) if axisymmetric, else 1."""
+        import ufl
+
+        if not self.axisymmetric:
+            return 1.0
+        return ufl.SpatialCoordinate(self.mesh)[0] / (self.grid.x_m[-1] / NM)
 
     # ------------------------------------------------------------------ solving
     def _initial_guess(self, gate_voltage_V: float) -> None:
