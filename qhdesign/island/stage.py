@@ -61,8 +61,10 @@ class OperatingSettings:
     temperature_K
         Temperature of the island (K); None: the stack's.
     level_width_J, quantum_lifetime_s
-        Landau-level width Gamma of the screening sheets (J), or the quantum lifetime from which
-        Gamma^2 = (2/pi) hbar omega_c hbar/tau_q (default 1 ps, see :data:`QUANTUM_LIFETIME_S`).
+        Landau-level width Gamma of every sheet (J), or one quantum lifetime tau_q for all of
+        them, from which Gamma^2 = (2/pi) hbar omega_c hbar/tau_q. Default (both None): each
+        well's tau_q from the 1D stage's disorder estimate (:func:`qhdesign.sp1d.scattering`),
+        or :data:`QUANTUM_LIFETIME_S` when there is none (a bare cross-section).
     g_factor
         |g*| for the spin splitting (GaAs 0.44).
     exchange
@@ -79,7 +81,7 @@ class OperatingSettings:
     field_T: float | None = None
     temperature_K: float | None = None
     level_width_J: float | None = None
-    quantum_lifetime_s: float = QUANTUM_LIFETIME_S
+    quantum_lifetime_s: float | None = None
     g_factor: float = G_FACTOR_GAAS
     exchange: bool = True
     bulk_shape: str = "uniform"
@@ -108,7 +110,7 @@ class OperatingSettings:
             raise InputError(
                 "level width must lie in 0 < Gamma < 50 meV", source="option --level-width"
             )
-        if not (1e-15 <= self.quantum_lifetime_s <= 1e-9):
+        if self.quantum_lifetime_s is not None and not (1e-15 <= self.quantum_lifetime_s <= 1e-9):
             raise InputError(
                 "quantum lifetime must lie in 1 fs .. 1 ns", source="option --quantum-lifetime"
             )
@@ -138,24 +140,31 @@ class OperatingSettings:
 
 
 def _closed_forms(A_I, A_L, r, nu, K_L, K_IL, K_I, gap_qp, kT) -> dict:
-    """Periods and the fixed-filling window (T); our derivations, docs/island.md.
+    """Periods and the fixed-filling window (T) from :mod:`qhdesign.interferometer`."""
+    from qhdesign import interferometer as itf
 
-    To be replaced by :mod:`qhdesign.interferometer` when it lands (one place for these formulas).
-    """
-    K_tilde = K_L - K_IL**2 / K_I
-    E_C = 0.5 * K_tilde
-    dB_inc = (1.0 / nu) * PHI0 / (A_I - r * A_L) if A_I > r * A_L else float("inf")
-    window = PHI0 / (nu * A_L) * (nu + gap_qp / (nu * E_C)) if E_C > 0 else float("inf")
-    # the window's edges are smeared over k_B T / (K~ e*/e) in nu A_L dB / Phi0
-    smear = PHI0 / (nu * A_L) * kT / (K_tilde * nu) if K_tilde > 0 else float("inf")
-    return {
+    K_tilde = itf.k_tilde_J(K_I, K_L, K_IL)
+    E_C = itf.charging_energy_J(K_I, K_L, K_IL)
+    try:
+        dB_inc = itf.period_incompressible_T(A_I, r, nu, A_L)
+    except InputError:  # A_I - r A_L <= 0: no incompressible period
+        dB_inc = float("inf")
+    out = {
         "K_tilde_J": K_tilde,
         "charging_energy_J": E_C,
-        "period_compressible_T": PHI0 / A_I,
+        "period_compressible_T": itf.period_compressible_T(A_I),
         "period_incompressible_T": dB_inc,
-        "window_T": window,
-        "window_edge_width_T": smear,
+        "window_T": float("inf"),
+        "window_edge_width_T": float("inf"),
+        "window_thermal_T": float("inf"),
     }
+    if E_C > 0:
+        T = kT / sc.k
+        out["window_T"] = itf.window_T(A_L, nu, gap_qp, E_C)
+        # each edge of the window is a Fermi function of this width in B
+        out["window_edge_width_T"] = kT * PHI0 / (2.0 * E_C * nu**2 * A_L)
+        out["window_thermal_T"] = itf.window_thermal_T(A_L, nu, gap_qp, E_C, T)
+    return out
 
 
 @dataclass(frozen=True)
@@ -298,21 +307,21 @@ def _sheet_mass_ratio(dos_J_m2: float) -> float:
     return dos_J_m2 * math.pi * sc.hbar**2 / sc.m_e
 
 
-def _landau(op: OperatingPoint, i: int, B: float, st: OperatingSettings, T: float):
+def _landau(op: OperatingPoint, i: int, B: float, st: OperatingSettings, T: float, tau: dict):
     s = op.section.sheets[i]
     m = _sheet_mass_ratio(s.dos_J_m2)
-    width = st.level_width_J or level_width_from_lifetime(B, m, st.quantum_lifetime_s)
+    width = st.level_width_J or level_width_from_lifetime(B, m, tau[s.name])
     from qhdesign.tf2d.edge import _permittivity_at
 
     eps = _permittivity_at(op.section, s.z_m) if st.exchange else None
     return LandauSheet(B, m, width, T, st.g_factor, eps), LandauSheet(B, m, width, T, st.g_factor)
 
 
-def _field_point(op, problem, B, st: OperatingSettings, T: float) -> tuple[FieldPoint, dict]:
+def _field_point(op, problem, B, st: OperatingSettings, T: float, tau: dict):
     from .response import sheet_dos_profiles
 
     strip = op.strip(B, st.filling, st.strip_gap_J)
-    sheets = {i: _landau(op, i, B, st, T) for i in range(len(op.section.sheets))}
+    sheets = {i: _landau(op, i, B, st, T, tau) for i in range(len(op.section.sheets))}
     problem.set_sheet_dos(sheet_dos_profiles(op, strip, lambda i, n: sheets[i][0].screening_dos(n)))
     res = problem.solve(strip)
     nu = st.filling
@@ -414,7 +423,8 @@ def solve_island_operating(
     import time
 
     st = settings or OperatingSettings()
-    section, name = _section(source)
+    section, name, bands = _section(source)
+    tau, width_source = _lifetimes(section, bands, st)
     B0 = st.field_T if st.field_T is not None else operating_field(section, st)
     T = st.temperature_K if st.temperature_K is not None else section.temperature_K
     targets = tuple((float(b), st.filling) for b in (B0, *fields_T))
@@ -433,12 +443,13 @@ def solve_island_operating(
 
     t0 = time.perf_counter()
     problem = ResponseProblem(op, st.bulk_shape)
-    point, widths = _field_point(op, problem, B0, st, T)
+    point, widths = _field_point(op, problem, B0, st, T, tau)
     points = []
     for b in sorted(set(float(x) for x in fields_T)):
-        points.append(point if b == B0 else _field_point(op, problem, b, st, T)[0])
+        points.append(point if b == B0 else _field_point(op, problem, b, st, T, tau)[0])
     t_lin = time.perf_counter() - t0
     info = {"operating_point_s": t_op, "linear_response_s": t_lin}
+    widths = {"source": width_source, "quantum_lifetime_s": tau, "width_J": widths}
     return IslandOperatingResult(
         stack_name=name,
         device=device,
@@ -452,11 +463,31 @@ def solve_island_operating(
     )
 
 
+def _lifetimes(section, bands, st: OperatingSettings) -> tuple[dict, str]:
+    """Quantum lifetime of every sheet (s) and where it comes from."""
+    names = [s.name for s in section.sheets]
+    if st.level_width_J is not None:
+        return {n: float("nan") for n in names}, "user width (--level-width)"
+    if st.quantum_lifetime_s is not None:
+        return {n: st.quantum_lifetime_s for n in names}, "user lifetime (--quantum-lifetime)"
+    if bands is None:
+        return {n: QUANTUM_LIFETIME_S for n in names}, "default lifetime 1 ps"
+    from qhdesign.sp1d.scattering import level_broadening, scattering
+
+    est = scattering(bands)
+    out = {}
+    for n in names:
+        tau = est.well(n).quantum_lifetime_s
+        # zero-field broadening hbar/(2 tau_q) > 0 means a finite lifetime; else the default
+        out[n] = tau if level_broadening(tau) > 0 else QUANTUM_LIFETIME_S
+    return out, "1D disorder estimate (qhdesign.sp1d.scattering, quantum lifetime)"
+
+
 def _section(source):
     from qhdesign.tf2d.model import CrossSection
 
     if isinstance(source, CrossSection):
-        return source, ""
+        return source, "", None
     from qhdesign.tf2d.from_stack import section_from_stack
 
     stack = source
@@ -466,4 +497,8 @@ def _section(source):
             source=str(getattr(stack, "source", "") or "stack"),
             key="layers",
         )
-    return section_from_stack(stack), str(getattr(stack, "name", "") or "")
+    from qhdesign.sp1d import solve_bands
+
+    bands = solve_bands(stack)
+    section = section_from_stack(stack, bands=bands)
+    return section, str(getattr(stack, "name", "") or ""), bands

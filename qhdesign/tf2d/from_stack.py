@@ -26,7 +26,7 @@ def refuse_gate_dielectric(stack, stage: str) -> None:
         )
 
 
-def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSection:
+def section_from_stack(stack, *, gate_barrier_J: float | None = None, bands=None) -> CrossSection:
     """Run the 1D stage on a stack and build the cross-section (donors frozen at their 1D state).
 
     Raises
@@ -42,7 +42,7 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSe
     except ImportError as exc:  # the 1D stage is a separate issue
         raise InputError(f"the 1D stage is not available ({exc})") from None
     refuse_gate_dielectric(stack, "the 2D stage")
-    result = solve_bands(stack)
+    result = bands if bands is not None else solve_bands(stack)  # a caller's own 1D solve
     section = cross_section_from_sheet_model(
         sheet_model(stack, result), gate_barrier_J=gate_barrier_J
     )

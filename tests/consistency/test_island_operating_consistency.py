@@ -30,17 +30,24 @@ def demo():
     return section, res
 
 
-def test_densities_far_away_and_at_the_centre_equal_1d(demo):
+def test_densities_far_away_and_at_the_centre_equal_1d(demo, record_check):
     # consistency: beyond the ring gate and at the island centre the sheets are ungated; the
     # sheet model is calibrated on the 1D stage's densities (tolerance 1 %, issue 9)
     section, res = demo
     sol = res.operating.solution
     bulk = np.array([s.density_m2 for s in section.sheets])
+    record_check(
+        "island (QL-2417, -1 V): outer and centre densities of every sheet = 1D",
+        "consistency with the 1D stage (issue 9: 1 %)",
+        np.concatenate((sol.density_m2[:, -1], sol.density_m2[:, 0])),
+        np.concatenate((bulk, bulk)),
+        0.01,
+    )
     assert np.max(np.abs(sol.density_m2[:, -1] / bulk - 1)) < 0.01
     assert np.max(np.abs(sol.density_m2[:, 0] / bulk - 1)) < 0.01
 
 
-def test_upper_screening_well_cut_where_the_edge_stage_cuts_it(demo):
+def test_upper_screening_well_cut_where_the_edge_stage_cuts_it(demo, record_check):
     # consistency with the 2D edge stage (half-plane gate at the same bias): the distance from
     # the gate edge to the cut agrees within 5 % (the island's gate edge is curved, R = 1.25 um)
     from qhdesign.tf2d.edge import EdgeSettings, solve_edge
@@ -52,14 +59,29 @@ def test_upper_screening_well_cut_where_the_edge_stage_cuts_it(demo):
     st = next(s for s in res.operating.sheets if s.name == upper)
     assert st.cut_under_gate and edge.well(upper).cut_under_gate
     w_island = R_GATE - st.cut_radius_m
+    record_check(
+        "island upper screening well: gate edge to cut = 2D edge stage's (-1 V)",
+        "consistency with the 2D edge stage (issue 9: 5 %)",
+        w_island,
+        w_edge,
+        0.05,
+        unit="m",
+    )
     assert w_island == pytest.approx(w_edge, rel=0.05)
 
 
-def test_reciprocity_equals_direct(demo):
+def test_reciprocity_equals_direct(demo, record_check):
     # analytic (Green's reciprocity, docs/island.md): <sigma_L, u_I> equals minus the charge the
     # bulk charge induces on the grounded edge; the two are computed by different forms
     _, res = demo
     p = res.point
+    record_check(
+        "island r: reciprocity form (1/A_L) int u_I dA = direct induced charge",
+        "analytic: Green's reciprocity (docs/island.md)",
+        p.r_reciprocity,
+        p.r_direct,
+        1e-6,
+    )
     assert p.r_direct == pytest.approx(p.r_reciprocity, rel=1e-6)
     assert p.K_IL_J / p.K_I_electrostatic_J == pytest.approx(p.r_reciprocity, rel=1e-12)
 

@@ -14,7 +14,7 @@ from scipy import integrate
 from qhdesign.island.stage import PHI0, _closed_forms
 
 
-def test_uniform_disk_self_energy_by_direct_integration():
+def test_uniform_disk_self_energy_by_direct_integration(record_check):
     # From memory: U = 8 Q^2 / (3 pi 4 pi eps0 a) for a uniformly charged thin disk. Direct
     # integration: the potential at radius rho in the disk's plane is sigma/(4 pi eps0) times
     # int_0^{2 pi} s_max(theta) d theta (s_max: distance from the point to the rim along theta),
@@ -29,10 +29,18 @@ def test_uniform_disk_self_energy_by_direct_integration():
         )
 
     U = 0.5 * integrate.quad(lambda r: sigma * phi(r) * 2 * math.pi * r, 0, a, limit=200)[0]
-    assert U == pytest.approx(8 * Q**2 / (3 * math.pi * 4 * math.pi * sc.epsilon_0 * a), rel=1e-7)
+    ref = 8 * Q**2 / (3 * math.pi * 4 * math.pi * sc.epsilon_0 * a)
+    record_check(
+        "uniform thin disk self-energy 8Q^2/(3 pi 4 pi eps0 a), a = 0.7 um",
+        "from memory, verified by direct integration in this test",
+        U,
+        ref,
+        1e-7,
+    )
+    assert U == pytest.approx(ref, rel=1e-7)
 
 
-def test_conformal_map_profile_under_a_half_plane_gate():
+def test_conformal_map_profile_under_a_half_plane_gate(record_check):
     # Our derivation (docs/island.md, "Check values"): a perfectly screening sheet at depth d
     # under a pinned surface with a gate over x < 0 takes up the induced density
     # dn(x) = dn(-inf) / (1 + exp(pi x / d)): half the wide-gate value at the gate edge.
@@ -64,6 +72,14 @@ def test_conformal_map_profile_under_a_half_plane_gate():
     assert wide == pytest.approx(-0.01 * 12.9 * sc.epsilon_0 / (sc.e * d), rel=2e-3)  # plate
     sel = np.abs(x) < 4 * d
     expected = 1.0 / (1.0 + np.exp(np.pi * x[sel] / d))
+    record_check(
+        "screening sheet under a half-plane gate: dn(x)/dn(-inf) = 1/(1+exp(pi x/d)), |x| < 4d",
+        "our conformal-map derivation (docs/island.md)",
+        dn[sel] / wide,
+        expected,
+        3e-3,
+        kind="abs",
+    )
     assert np.max(np.abs(dn[sel] / wide - expected)) < 3e-3
     assert np.interp(0.0, x, dn) / wide == pytest.approx(0.5, abs=2e-3)
 
@@ -74,7 +90,7 @@ def _ground_state_N(x, K_tilde, e_star, gap, Ns=range(-6, 7)):
     return list(Ns)[int(np.argmin(E))], np.array(E)
 
 
-def test_window_against_brute_force_over_quasiparticle_number():
+def test_window_against_brute_force_over_quasiparticle_number(record_check):
     # Our derivation (docs/island.md): dB_window = Phi0/(nu A_L) [e*/e + (e/e*) Delta_qp / E_C],
     # E_C = K~/2; with x = nu A_L dB / Phi0 the bulk holds N e*/e - x. Checked by minimising over
     # N at every field; and the thermal smearing of the window's edge (width k_B T / (K~ e*/e) in
@@ -90,6 +106,13 @@ def test_window_against_brute_force_over_quasiparticle_number():
     zero = np.array([_ground_state_N(x, Kt, nu, gap)[0] == 0 for x in xs[::50]])
     width_x = zero.sum() * (xs[50] - xs[0])
     dB = width_x * PHI0 / (nu * A_L)
+    record_check(
+        "island window (via qhdesign.interferometer) vs brute force over N",
+        "brute-force minimisation of the HSNR energy, PRB 83, 155440 (2011)",
+        f["window_T"],
+        dB,
+        2e-3,
+    )
     assert dB == pytest.approx(f["window_T"], rel=2e-3)
     # thermal edge: <N> from 0 to 1 across the upper edge follows 1/(1 + exp(-(x - x_c)/w))
     x_c = nu / 2 + gap / (nu * Kt)

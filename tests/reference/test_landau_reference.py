@@ -26,7 +26,7 @@ MEV = 1e-3 * sc.e
 M = 0.067
 
 
-def test_each_spin_resolved_level_holds_eB_over_h():
+def test_each_spin_resolved_level_holds_eB_over_h(record_check):
     # analytic: a level holds eB/h states per area (Landau degeneracy 1/(2 pi l_B^2), per spin)
     B, width = 5.0, 0.2 * MEV  # levels 8.6 meV apart, split by 0.13 meV: integrate pairs
     hw = cyclotron_energy(B, M)
@@ -34,10 +34,17 @@ def test_each_spin_resolved_level_holds_eB_over_h():
         upper = k * hw
         E = np.linspace(-10 * MEV, upper, 400_001)
         total = np.trapezoid(landau_dos(E, B, M, width), E)
+        record_check(
+            f"Landau DOS: {2 * k} spin-resolved levels hold {2 * k} eB/h (B = 5 T)",
+            "analytic: Landau degeneracy eB/h per spin-resolved level",
+            total / (sc.e * B / sc.h),
+            2 * k,
+            1e-6,
+        )
         assert total / (sc.e * B / sc.h) == pytest.approx(2 * k, rel=1e-6)
 
 
-def test_zero_field_limit_is_m_over_pi_hbar2():
+def test_zero_field_limit_is_m_over_pi_hbar2(record_check):
     # analytic: the 2D DOS m*/(pi hbar^2) (spin 2) as B -> 0; the widths grow as sqrt(B) while
     # the spacing shrinks as B, so the oscillations die out
     D0 = M * sc.m_e / (math.pi * sc.hbar**2)
@@ -46,6 +53,13 @@ def test_zero_field_limit_is_m_over_pi_hbar2():
     E = np.linspace(5 * MEV, 6 * MEV, 21)
     for B, tol in ((0.05, 1e-5), (0.01, 1e-9)):
         width = level_width_from_lifetime(B, M, 1e-12)
+        record_check(
+            f"Landau DOS at B = {B} T (tau_q = 1 ps) -> m*/(pi hbar^2)",
+            "analytic: 2D DOS m*/(pi hbar^2), spin 2",
+            landau_dos(E, B, M, width),
+            D0,
+            tol,
+        )
         assert np.max(np.abs(landau_dos(E, B, M, width) / D0 - 1.0)) < tol
 
 
@@ -88,7 +102,7 @@ def _disk_pair_integral() -> float:
     return 2 * math.pi * integrate.quad(lambda r: r * inner(r), 0.0, 1.0, limit=200)[0]
 
 
-def test_exchange_energy_against_direct_integration():
+def test_exchange_energy_against_direct_integration(record_check):
     # Hartree–Fock exchange of the unpolarized 2D gas, E_x/A = -(e^2/(4 pi eps)) I k_F^3/(8 pi^3)
     # (two spins, v(q) = 2 pi e^2/(4 pi eps q)), per particle with n = k_F^2/(2 pi): the published
     # -8 sqrt(2)/(3 pi r_s) Ry* (Tanatar & Ceperley, Phys. Rev. B 39, 5005 (1989)) corresponds to
@@ -98,6 +112,13 @@ def test_exchange_energy_against_direct_integration():
     n, eps = 1.1e15, 12.9
     kF = math.sqrt(2 * math.pi * n)
     direct = -(sc.e**2 / (4 * math.pi * sc.epsilon_0 * eps)) * I * kF**3 / (8 * math.pi**3) / n
+    record_check(
+        "HF exchange energy per particle, 2D unpolarized, n = 1.1e11 cm^-2",
+        "direct integration of the exchange integral; Tanatar & Ceperley, PRB 39, 5005 (1989)",
+        exchange_energy_per_particle(n, eps),
+        direct,
+        1e-7,
+    )
     assert exchange_energy_per_particle(n, eps) == pytest.approx(direct, rel=1e-7)
     # in Rydberg form
     aB = 4 * math.pi * sc.epsilon_0 * eps * sc.hbar**2 / (M * sc.m_e * sc.e**2)
@@ -113,7 +134,7 @@ def test_exchange_energy_against_direct_integration():
     assert exchange_dmu_dn(n, eps) == pytest.approx(fd, rel=1e-5)
 
 
-def test_exchange_lowers_dmu_dn_at_1p1e11_as_published():
+def test_exchange_lowers_dmu_dn_at_1p1e11_as_published(record_check):
     # Giuliani & Vignale, Quantum Theory of the Electron Liquid (2005), ch. 2: Hartree–Fock 2D
     # compressibility kappa_0/kappa = 1 - sqrt(2) r_s / pi. At n = 1.1e11 cm^-2, m* = 0.067,
     # eps_r = 12.9: r_s = 1.669, a -75.2 % change of dmu/dn. (The issue text quoted -38 % from an
@@ -123,6 +144,13 @@ def test_exchange_lowers_dmu_dn_at_1p1e11_as_published():
     rs = 1 / (math.sqrt(math.pi * n) * aB)
     assert rs == pytest.approx(1.669, abs=1e-3)
     change = exchange_dmu_dn(n, eps) * zero_field_dos(M)
+    record_check(
+        "HF exchange change of dmu/dn at 1.1e11 cm^-2, m* 0.067, eps 12.9 (-75.2 %)",
+        "Giuliani & Vignale, Quantum Theory of the Electron Liquid (2005), ch. 2",
+        change,
+        -math.sqrt(2) * rs / math.pi,
+        1e-9,
+    )
     assert change == pytest.approx(-math.sqrt(2) * rs / math.pi, rel=1e-9)
     assert change == pytest.approx(-0.752, abs=1e-3)
 
