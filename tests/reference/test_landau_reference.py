@@ -41,15 +41,17 @@ def test_each_spin_resolved_level_holds_eB_over_h(record_check):
             2 * k,
             1e-6,
         )
-        assert total / (sc.e * B / sc.h) == pytest.approx(2 * k, rel=1e-6)
+        assert total / (sc.e * B / sc.h) == pytest.approx(2 * k, rel=1e-6, abs=0)
 
 
 def test_zero_field_limit_is_m_over_pi_hbar2(record_check):
     # analytic: the 2D DOS m*/(pi hbar^2) (spin 2) as B -> 0; the widths grow as sqrt(B) while
     # the spacing shrinks as B, so the oscillations die out
     D0 = M * sc.m_e / (math.pi * sc.hbar**2)
-    assert zero_field_dos(M) == pytest.approx(D0, rel=1e-12)
-    assert D0 == pytest.approx(2.7988e10 * 1e4 / MEV, rel=1e-4)  # 2.7988e10 cm^-2 meV^-1 (analytic)
+    assert zero_field_dos(M) == pytest.approx(D0, rel=1e-12, abs=0)
+    assert D0 == pytest.approx(
+        2.7988e10 * 1e4 / MEV, rel=1e-4, abs=0
+    )  # 2.7988e10 cm^-2 meV^-1 (analytic)
     E = np.linspace(5 * MEV, 6 * MEV, 21)
     for B, tol in ((0.05, 1e-5), (0.01, 1e-9)):
         width = level_width_from_lifetime(B, M, 1e-12)
@@ -65,14 +67,14 @@ def test_zero_field_limit_is_m_over_pi_hbar2(record_check):
 
 def test_level_energies_and_width():
     hw = cyclotron_energy(1.0, M)
-    assert hw == pytest.approx(1.7279 * MEV, rel=1e-4)  # hbar e B/m*, analytic: 1.7279 meV/T
+    assert hw == pytest.approx(1.7279 * MEV, rel=1e-4, abs=0)  # hbar e B/m*, analytic: 1.7279 meV/T
     lv = level_energies(1.0, M, 0.44, 2)
     ez = 0.44 * sc.physical_constants["Bohr magneton"][0]
-    assert lv[1] - lv[0] == pytest.approx(ez, rel=1e-12)
-    assert lv[2] - lv[0] == pytest.approx(hw, rel=1e-12)
+    assert lv[1] - lv[0] == pytest.approx(ez, rel=1e-12, abs=0)
+    assert lv[2] - lv[0] == pytest.approx(hw, rel=1e-12, abs=0)
     # Gamma^2 = (2/pi) hbar omega_c hbar/tau (Ando & Uemura 1974)
     g = level_width_from_lifetime(1.0, M, 1e-12)
-    assert g**2 == pytest.approx(2 / math.pi * hw * sc.hbar / 1e-12, rel=1e-12)
+    assert g**2 == pytest.approx(2 / math.pi * hw * sc.hbar / 1e-12, rel=1e-12, abs=0)
 
 
 def test_dos_is_derivative_of_density_and_integer_filling_is_incompressible():
@@ -108,7 +110,7 @@ def test_exchange_energy_against_direct_integration(record_check):
     # -8 sqrt(2)/(3 pi r_s) Ry* (Tanatar & Ceperley, Phys. Rev. B 39, 5005 (1989)) corresponds to
     # I = 16 pi / 3.
     I = _disk_pair_integral()
-    assert I == pytest.approx(16 * math.pi / 3, rel=1e-7)
+    assert I == pytest.approx(16 * math.pi / 3, rel=1e-7, abs=0)
     n, eps = 1.1e15, 12.9
     kF = math.sqrt(2 * math.pi * n)
     direct = -(sc.e**2 / (4 * math.pi * sc.epsilon_0 * eps)) * I * kF**3 / (8 * math.pi**3) / n
@@ -119,19 +121,19 @@ def test_exchange_energy_against_direct_integration(record_check):
         direct,
         1e-7,
     )
-    assert exchange_energy_per_particle(n, eps) == pytest.approx(direct, rel=1e-7)
+    assert exchange_energy_per_particle(n, eps) == pytest.approx(direct, rel=1e-7, abs=0)
     # in Rydberg form
     aB = 4 * math.pi * sc.epsilon_0 * eps * sc.hbar**2 / (M * sc.m_e * sc.e**2)
     Ry = sc.e**2 / (8 * math.pi * sc.epsilon_0 * eps * aB)
     rs = 1 / (math.sqrt(math.pi * n) * aB)
     assert exchange_energy_per_particle(n, eps) == pytest.approx(
-        -8 * math.sqrt(2) / (3 * math.pi * rs) * Ry, rel=1e-12
+        -8 * math.sqrt(2) / (3 * math.pi * rs) * Ry, rel=1e-12, abs=0
     )
     # the correction to dmu/dn is the second derivative of n eps_x (finite difference)
     h = 1e-3 * n
     f = lambda x: x * exchange_energy_per_particle(x, eps)  # noqa: E731
     fd = (f(n + h) - 2 * f(n) + f(n - h)) / h**2
-    assert exchange_dmu_dn(n, eps) == pytest.approx(fd, rel=1e-5)
+    assert exchange_dmu_dn(n, eps) == pytest.approx(fd, rel=1e-5, abs=0)
 
 
 def test_exchange_lowers_dmu_dn_at_1p1e11_as_published(record_check):
@@ -151,7 +153,7 @@ def test_exchange_lowers_dmu_dn_at_1p1e11_as_published(record_check):
         -math.sqrt(2) * rs / math.pi,
         1e-9,
     )
-    assert change == pytest.approx(-math.sqrt(2) * rs / math.pi, rel=1e-9)
+    assert change == pytest.approx(-math.sqrt(2) * rs / math.pi, rel=1e-9, abs=0)
     assert change == pytest.approx(-0.752, abs=1e-3)
 
 
