@@ -99,3 +99,39 @@ def test_fillings_and_areas(demo):
     assert 0 < p.ratio < 1 and p.K_L_J > 0 and p.forms["charging_energy_J"] > 0
     # the gate pulls the edge in as it goes more negative
     assert p.dA_I_dV_m2_per_V > 0
+
+
+@pytest.mark.mpi
+def test_mpi_two_ranks_equal_serial(tmp_path):
+    # determinism (design rule): mpiexec -n 2 gives the serial numbers (measured 2e-14)
+    import json
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    from conftest import SCREENED
+
+    from qhdesign.island.operating import IslandDevice
+    from qhdesign.island.stage import OperatingSettings, solve_island_operating
+    from qhdesign.stack import load_stack
+
+    # the stack path, as the CLI runs it (with the disorder estimate's level widths)
+    res = solve_island_operating(
+        load_stack(SCREENED),
+        IslandDevice(GATE_V, gate_radius_m=R_GATE),
+        OperatingSettings(gap_J=120e-6 * sc.e),
+    )
+    out = tmp_path / "mpi.json"
+    bindir = Path(sys.executable).parent
+    cmd = [
+        str(bindir / "mpiexec"), "-n", "2", str(bindir / "qhdesign"), "island", str(SCREENED),
+        "--gate-radius", "1.25 um", "--gate-voltage", str(GATE_V), "--filling", "1/3",
+        "--gap", "120 ueV", "--json", str(out),
+    ]  # fmt: skip
+    env = dict(os.environ, OMP_NUM_THREADS="1")
+    subprocess.run(cmd, check=True, env=env, capture_output=True, timeout=600)
+    data = json.loads(out.read_text())
+    p = res.point
+    for key, val in (("K_I_J", p.K_I_J), ("K_L_J", p.K_L_J), ("K_IL_J", p.K_IL_J)):
+        assert data[key] == pytest.approx(val, rel=1e-10, abs=0), key
