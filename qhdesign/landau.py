@@ -50,6 +50,7 @@ from qhdesign.errors import InputError
 __all__ = [
     "G_FACTOR_GAAS",
     "LandauSheet",
+    "cyclotron_energy",
     "exchange_dmu_dn",
     "exchange_energy_per_particle",
     "landau_dos",
