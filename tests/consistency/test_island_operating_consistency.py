@@ -135,3 +135,28 @@ def test_mpi_two_ranks_equal_serial(tmp_path):
     p = res.point
     for key, val in (("K_I_J", p.K_I_J), ("K_L_J", p.K_L_J), ("K_IL_J", p.K_IL_J)):
         assert data[key] == pytest.approx(val, rel=1e-10, abs=0), key
+
+
+def test_screening_well_at_an_integer_filling_is_flagged():
+    # analytic: at filling 2 with levels narrower than hbar omega_c (Gamma = 0.2 meV against
+    # 6.7 meV) the Fermi level sits in a gap, dn/dmu ~ 0: the lower screening well is reported
+    # near-incompressible; 0.3 T away it is compressible again
+    from conftest import SCREENED
+
+    from qhdesign.island.operating import IslandDevice
+    from qhdesign.island.stage import OperatingSettings, solve_island_operating
+    from qhdesign.stack import load_stack
+    from qhdesign.tf2d.from_stack import section_from_stack
+
+    section = section_from_stack(load_stack(SCREENED))
+    lower = section.sheets[2]
+    B2 = lower.density_m2 * sc.h / (2 * sc.e)
+    st = OperatingSettings(field_T=B2, level_width_J=0.2e-3 * sc.e)
+    res = solve_island_operating(
+        section, IslandDevice(GATE_V, gate_radius_m=R_GATE), st, fields_T=(B2, B2 + 0.3)
+    )
+    at, off = res.points
+    w = at.screening_wells[lower.name]
+    assert w["filling"] == pytest.approx(2.0, abs=1e-4)
+    assert w["state"] == "near-incompressible" and w["dos_over_zero_field"] < 0.05
+    assert off.screening_wells[lower.name]["state"] == "compressible"
