@@ -1,8 +1,8 @@
 """Load the DOLFINx stack in the order it needs: mpi4py's MPI before dolfinx.
 
-``libmpi`` is found only when ``mpi4py.MPI`` is loaded first (the DOLFINx wheel's MPI is found
-through mpi4py); keeping the order in one function protects it from import sorting. Part of the
-FEM engine, :mod:`qhdesign.fem`.
+``libmpi`` is found only when ``mpi4py.MPI`` is loaded first (observed with the DOLFINx 0.11
+wheels); keeping the order in one function protects it from import sorting. Part of the FEM
+engine, :mod:`qhdesign.fem`.
 """
 
 from __future__ import annotations
@@ -30,8 +30,8 @@ def mesh_from_gmsh(build_model, comm, gdim: int = 2):
 
     gmsh is started here (not interruptible, quiet) unless it already runs, and finalized only if
     started here. Facets are ghosted (``GhostMode.shared_facet``): interior-facet (sheet)
-    integrals need it in parallel. ``gdim`` is the geometric dimension (2 for the (x, z) and
-    (r, z) meshes).
+    integrals need it in parallel (facets on a process boundary need both neighbouring cells).
+    ``gdim`` is the geometric dimension (2 for the (x, z) and (r, z) meshes).
 
     Returns
     -------

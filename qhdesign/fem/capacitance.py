@@ -21,7 +21,8 @@ r = 0 needs no condition: every form carries the factor r.
 Capacitance by energy: with u_i the solution for conductor i at 1 V and every other conductor at
 0 V, C_ij = a(u_i, u_j), where a is the full symmetric bilinear form (field energy, sheet terms,
 Robin term). This is the Galerkin reaction charge, which converges at twice the rate of the
-energy-norm error; flux integrals over a conductor converge slowly at the edge singularity.
+energy-norm error; flux integrals over a conductor converge slowly at the edge singularity
+(they were tried and measured worse).
 
 The solve runs in four steps, each a function of this module: :func:`build` (grid, mesh,
 spaces, forms, Dirichlet dofs), :func:`assemble` (matrix and its LU factorisation),
