@@ -36,6 +36,11 @@ demo: $(VENV)/.installed
 	$(QH) plot-sweep $(OUT)/setback.csv --x layers.setback_upper.thickness \
 	  --y layers.setback_lower.thickness --color "primary_density_cm^-2" \
 	  --contour "primary_density_cm^-2=1.0e11" --out $(OUT)/setback_window.png
+	@rm -f $(OUT)/setback_mobility.csv $(OUT)/setback_mobility.csv.sweep.json
+	$(QH) sweep sweeps/ql2417_setback_mobility.toml --out $(OUT)/setback_mobility.csv
+	$(QH) plot-sweep $(OUT)/setback_mobility.csv --x layers.setback_upper.thickness \
+	  --y layers.setback_lower.thickness --color "primary_mobility_cm^2/Vs" \
+	  --contour "primary_mobility_cm^2/Vs=6e5" --out $(OUT)/setback_mobility.png
 	$(QH) edge $(STACK) --gate-voltage -1.0 --field 2 --filling 1 --perimeter "4 um" \
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
 	$(QH) island $(STACK) --radius "1.15 um" --filling 1/3 --gap "120 ueV" \
