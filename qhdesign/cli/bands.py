@@ -9,7 +9,7 @@ from pathlib import Path
 import typer
 
 from . import disorder as D
-from .common import guarded, option_quantity
+from .common import guarded, option_quantity, warn
 
 
 def _load(stack_file: Path):
@@ -17,7 +17,7 @@ def _load(stack_file: Path):
 
     stack = load_stack(stack_file)
     for w in stack.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
     return stack
 
 
@@ -98,7 +98,7 @@ def _print_bands(r) -> None:
     for line in lines:
         console.print(line)
     for w in r.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
 
 
 def register(app: typer.Typer) -> None:
@@ -227,7 +227,7 @@ def register(app: typer.Typer) -> None:
                 f"  dn/dV (cm^-2/V) from {seg['from_V']:+.3f} to {seg['to_V']:+.3f} V: {slopes}"
             )
         for w in g.warnings:
-            typer.echo(f"warning: {w}", err=True)
+            warn(w)
         if csv_out is not None:
             from qhdesign.io import atomic_write_text
 
