@@ -176,7 +176,7 @@ def flag_badges(bands: dict, gate: dict | None, field_T: float | None) -> list[d
     prim = [n for n, w in wells.items() if w.get("role") == "primary"]
     if prim:
         n = wells[prim[0]]["sheet_density_m2"]
-        if n < EMPTY_PRIMARY_M2:
+        if fl.get("primary_empty", n < EMPTY_PRIMARY_M2):
             out.append(
                 _badge(
                     "primary well holds electrons",

@@ -80,9 +80,16 @@ def _print_bands(r) -> None:
         )
     console.print(f"surface charge: {r.surface_charge_C_m2 / sc.e * 1e-4:+.4g} e cm^-2")
     f = r.flags
+    prim = next(w for w in r.wells if w.role == "primary")
     lines = [
+        f"primary well: {prim.sheet_density_m2 * 1e-4:.3g} cm^-2"
+        + (" [EMPTY: no usable channel]" if f.primary_empty else " (ok)"),
         f"second subband of the primary: E2 - EF = {f.e2_minus_ef_J / sc.e * 1e3:.2f} meV"
-        + (" [OCCUPIED or within margin]" if f.second_subband_occupied else " (ok)"),
+        + (
+            " [OCCUPIED or within margin]"
+            if f.second_subband_occupied
+            else (" (primary empty)" if f.primary_empty else " (ok)")
+        ),
         "parallel conduction: "
         + (", ".join(f.parallel_layers) if f.parallel_conduction else "none"),
         "donor supply margin: "
