@@ -4,7 +4,7 @@ On the demo stack (QL-2417, opening 1.25 um, -1.0 V, nu = 1/3, Delta_qp = 120 ue
 
 1. one operating-point solve (nonlinear two-pass solve + dA/dV solves + linear response at the
    operating field), after a warm-up run so the form cache is warm; median of 3; the 1D stage and
-   its disorder estimate once, outside the timing (a CrossSection input with the lifetimes fixed);
+   its disorder estimate once, outside the timing (a CrossSection input with those lifetimes);
 2. the same with 20 fields across the plateau (11.5-14 T).
 
 Wall and CPU time of this process are both printed: on a shared machine the CPU time is the
@@ -32,29 +32,28 @@ def main() -> None:
     from mpi4py import MPI  # noqa: F401  (before dolfinx)
 
     from qhdesign.island.operating import IslandDevice
-    from qhdesign.island.stage import (
-        OperatingSettings,
-        _lifetimes,
-        _section,
-        solve_island_operating,
-    )
+    from qhdesign.island.stage import OperatingSettings, solve_island_operating
+    from qhdesign.section.model import cross_section_from_sheet_model
+    from qhdesign.sp1d import solve_bands
+    from qhdesign.sp1d.scattering import scattering
+    from qhdesign.sp1d.sheets import sheet_model
     from qhdesign.stack import load_stack
 
     stack = load_stack(STACK)
     t0 = time.perf_counter()
-    section, _, bands = _section(stack)
+    bands = solve_bands(stack)
+    section = cross_section_from_sheet_model(sheet_model(stack, bands))
     t_1d = time.perf_counter() - t0
     t0 = time.perf_counter()
-    tau, _ = _lifetimes(section, bands, OperatingSettings())
+    tau = {w.name: w.quantum_lifetime_s for w in scattering(bands).wells}
     t_dis = time.perf_counter() - t0
-    # the estimate's lifetimes differ per well; for the timing one value (their mean) is enough
-    st = OperatingSettings(quantum_lifetime_s=float(np.mean(list(tau.values()))))
+    st = OperatingSettings()
     dev = IslandDevice(-1.0, gate_radius_m=1.25e-6)
     fields = tuple(np.linspace(11.5, 14.0, 20))
 
     def run(f=()):
         t0, c0 = time.perf_counter(), time.process_time()
-        res = solve_island_operating(section, dev, st, fields_T=f)
+        res = solve_island_operating(section, dev, st, fields_T=f, lifetimes_s=tau)
         return time.perf_counter() - t0, time.process_time() - c0, res
 
     run()  # warm-up: forms into the cache

@@ -48,12 +48,13 @@ def parse_field_range(text: str) -> tuple[float, ...]:
 
 def run(stack_file: Path, o: dict) -> None:
     """Run the operating-point island from the CLI options ``o`` (names as the typer parameters)."""
+    from qhdesign.fem.backend import load
+    from qhdesign.island.conductor import parse_filling
     from qhdesign.island.operating import GATE_WIDTH_M, IslandDevice
-    from qhdesign.island.stage import OperatingSettings, solve_island_operating
+    from qhdesign.island.stage import OperatingSettings
+    from qhdesign.pipeline import solve_island_operating
+    from qhdesign.section.geometry import MeshOptions
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d.backend import load
-    from qhdesign.tf2d.geometry import MeshOptions
-    from qhdesign.tf2d.island import parse_filling
 
     if o["gate_voltage"] is None:
         raise InputError(

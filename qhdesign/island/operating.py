@@ -3,11 +3,12 @@
 The island is the disk of the primary well inside a ring gate: metal on the surface over
 R_gate < r < R_gate + W (the lithographic opening radius R_gate, the ring width W), the 2DEG
 continuing beyond it. Every well is a Thomas–Fermi sheet with the 2D edge stage's sheet model
-(:class:`qhdesign.tf2d.model.CrossSection`, calibrated so that far from the gate each sheet
-holds its 1D density) and the 2D stage's solver (:class:`qhdesign.tf2d.solver.CrossSectionSolver`)
-in its axisymmetric form: x is read as r and every integrand carries r. The gate bias empties
-the sheets it can; what comes out is n(r) of every sheet, where each is cut, the electronic edge
-of the primary, and, at a field and filling, the compressible strip of the interfering edge.
+(:class:`qhdesign.section.model.CrossSection`, calibrated so that far from the gate each sheet
+holds its 1D density) and the 2D stage's solver
+(:class:`qhdesign.section.solver.CrossSectionSolver`) in its axisymmetric form: x is read as r
+and every integrand carries r. The gate bias empties the sheets it can; what comes out is n(r)
+of every sheet, where each is cut, the electronic edge of the primary, and, at a field and
+filling, the compressible strip of the interfering edge.
 
 Two passes as in the edge stage: a mesh twice as coarse locates the cut radii and the strips, a
 second mesh is fine (h_edge) at each of them; two more solves at V -+ dV/2 on the second mesh give
@@ -16,7 +17,7 @@ dA_I/dV_gate.
 References
 ----------
 D. B. Chklovskii, B. I. Shklovskii, L. I. Glazman, Phys. Rev. B 46, 4026 (1992) (incompressible
-strips; the strip model is :func:`qhdesign.tf2d.profile.strip_width`).
+strips; the strip model is :func:`qhdesign.section.profile.strip_width`).
 """
 
 from __future__ import annotations
@@ -28,11 +29,11 @@ import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
-from qhdesign.tf2d.edge import VOLTAGE_STEP_V, _check_gate_voltage, _permittivity_at, _primary
-from qhdesign.tf2d.geometry import GateLayout, MeshOptions
-from qhdesign.tf2d.model import CrossSection
-from qhdesign.tf2d.profile import EDGE_FRACTION, crossing_from_bulk, strip_width
-from qhdesign.tf2d.solver import CrossSectionSolver, FieldSolution, SolverOptions
+from qhdesign.section.edge import VOLTAGE_STEP_V, _check_gate_voltage, _permittivity_at, _primary
+from qhdesign.section.geometry import GateLayout, MeshOptions
+from qhdesign.section.model import CrossSection
+from qhdesign.section.profile import EDGE_FRACTION, crossing_from_bulk, strip_width
+from qhdesign.section.solver import CrossSectionSolver, FieldSolution, SolverOptions
 
 __all__ = [
     "EdgeStrip",

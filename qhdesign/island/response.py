@@ -30,9 +30,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import constants as sc
 
-from qhdesign.tf2d.geometry import NM, TAGS
-from qhdesign.tf2d.profile import EDGE_FRACTION
-from qhdesign.tf2d.solver import C_EPS, DOS_SCALE
+from qhdesign.fem.tensor_mesh import NM
+from qhdesign.section.geometry import TAGS
+from qhdesign.section.profile import EDGE_FRACTION
+from qhdesign.section.solver import C_EPS, DOS_SCALE
 
 from .operating import EdgeStrip, OperatingPoint
 

@@ -311,7 +311,7 @@ def _landau(op: OperatingPoint, i: int, B: float, st: OperatingSettings, T: floa
     s = op.section.sheets[i]
     m = _sheet_mass_ratio(s.dos_J_m2)
     width = st.level_width_J or level_width_from_lifetime(B, m, tau[s.name])
-    from qhdesign.tf2d.edge import _permittivity_at
+    from qhdesign.section.edge import _permittivity_at
 
     eps = _permittivity_at(op.section, s.z_m) if st.exchange else None
     return LandauSheet(B, m, width, T, st.g_factor, eps), LandauSheet(B, m, width, T, st.g_factor)
@@ -394,6 +394,8 @@ def solve_island_operating(
     settings: OperatingSettings | None = None,
     *,
     fields_T: tuple[float, ...] = (),
+    lifetimes_s: dict | None = None,
+    name: str = "",
     mesh_options=None,
     solver_options=None,
     comm=None,
@@ -403,15 +405,22 @@ def solve_island_operating(
     Parameters
     ----------
     source
-        A :class:`qhdesign.stack.Stack` or a :class:`qhdesign.tf2d.model.CrossSection`.
+        A :class:`qhdesign.section.model.CrossSection` (a stack goes through
+        :func:`qhdesign.pipeline.solve_island_operating`, which also runs the disorder estimate).
     device
         Gate opening (or measured electronic radius) and bias.
     settings
         Quantum Hall inputs and model choices.
     fields_T
         Extra fields (T) for the K's across a plateau; the operating field is always included.
+    lifetimes_s
+        Quantum lifetime of each sheet by name (s), e.g. from the 1D disorder estimate; used
+        unless the settings give a width or one lifetime.
+    name
+        Stack name for the reports.
     mesh_options, solver_options
-        :class:`qhdesign.tf2d.geometry.MeshOptions`, :class:`qhdesign.tf2d.solver.SolverOptions`.
+        :class:`qhdesign.section.geometry.MeshOptions`,
+        :class:`qhdesign.section.solver.SolverOptions`.
 
     Raises
     ------
@@ -423,8 +432,8 @@ def solve_island_operating(
     import time
 
     st = settings or OperatingSettings()
-    section, name, bands = _section(source)
-    tau, width_source = _lifetimes(section, bands, st)
+    section = source
+    tau, width_source = _lifetimes(section, lifetimes_s, st)
     B0 = st.field_T if st.field_T is not None else operating_field(section, st)
     T = st.temperature_K if st.temperature_K is not None else section.temperature_K
     targets = tuple((float(b), st.filling) for b in (B0, *fields_T))
@@ -463,42 +472,17 @@ def solve_island_operating(
     )
 
 
-def _lifetimes(section, bands, st: OperatingSettings) -> tuple[dict, str]:
+def _lifetimes(section, lifetimes_s, st: OperatingSettings) -> tuple[dict, str]:
     """Quantum lifetime of every sheet (s) and where it comes from."""
     names = [s.name for s in section.sheets]
     if st.level_width_J is not None:
         return {n: float("nan") for n in names}, "user width (--level-width)"
     if st.quantum_lifetime_s is not None:
         return {n: st.quantum_lifetime_s for n in names}, "user lifetime (--quantum-lifetime)"
-    if bands is None:
-        return {n: QUANTUM_LIFETIME_S for n in names}, "default lifetime 1 ps"
-    from qhdesign.sp1d.scattering import level_broadening, scattering
-
-    est = scattering(bands)
-    out = {}
-    for n in names:
-        tau = est.well(n).quantum_lifetime_s
-        # zero-field broadening hbar/(2 tau_q) > 0 means a finite lifetime; else the default
-        out[n] = tau if level_broadening(tau) > 0 else QUANTUM_LIFETIME_S
-    return out, "1D disorder estimate (qhdesign.sp1d.scattering, quantum lifetime)"
-
-
-def _section(source):
-    from qhdesign.tf2d.model import CrossSection
-
-    if isinstance(source, CrossSection):
-        return source, "", None
-    from qhdesign.tf2d.from_stack import section_from_stack
-
-    stack = source
-    if not any(lay.well == "primary" for lay in stack.layers):
-        raise InputError(
-            'the stack has no primary well (set well = "primary" on one layer)',
-            source=str(getattr(stack, "source", "") or "stack"),
-            key="layers",
-        )
-    from qhdesign.sp1d import solve_bands
-
-    bands = solve_bands(stack)
-    section = section_from_stack(stack, bands=bands)
-    return section, str(getattr(stack, "name", "") or ""), bands
+    if lifetimes_s:
+        out = {}
+        for n in names:
+            tau = lifetimes_s.get(n, float("nan"))
+            out[n] = tau if math.isfinite(tau) and tau > 0 else QUANTUM_LIFETIME_S
+        return out, "1D disorder estimate (qhdesign.sp1d.scattering, quantum lifetime)"
+    return {n: QUANTUM_LIFETIME_S for n in names}, "default lifetime 1 ps"

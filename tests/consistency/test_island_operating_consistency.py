@@ -20,8 +20,8 @@ def demo():
 
     from qhdesign.island.operating import IslandDevice
     from qhdesign.island.stage import OperatingSettings, solve_island_operating
+    from qhdesign.pipeline import section_from_stack
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d.from_stack import section_from_stack
 
     section = section_from_stack(load_stack(SCREENED))
     res = solve_island_operating(
@@ -50,7 +50,7 @@ def test_densities_far_away_and_at_the_centre_equal_1d(demo, record_check):
 def test_upper_screening_well_cut_where_the_edge_stage_cuts_it(demo, record_check):
     # consistency with the 2D edge stage (half-plane gate at the same bias): the distance from
     # the gate edge to the cut agrees within 5 % (the island's gate edge is curved, R = 1.25 um)
-    from qhdesign.tf2d.edge import EdgeSettings, solve_edge
+    from qhdesign.section.edge import EdgeSettings, solve_edge
 
     section, res = demo
     edge = solve_edge(section, EdgeSettings(gate_voltage_V=GATE_V))
@@ -113,7 +113,8 @@ def test_mpi_two_ranks_equal_serial(tmp_path):
     from conftest import SCREENED
 
     from qhdesign.island.operating import IslandDevice
-    from qhdesign.island.stage import OperatingSettings, solve_island_operating
+    from qhdesign.island.stage import OperatingSettings
+    from qhdesign.pipeline import solve_island_operating
     from qhdesign.stack import load_stack
 
     # the stack path, as the CLI runs it (with the disorder estimate's level widths)
@@ -145,8 +146,8 @@ def test_screening_well_at_an_integer_filling_is_flagged():
 
     from qhdesign.island.operating import IslandDevice
     from qhdesign.island.stage import OperatingSettings, solve_island_operating
+    from qhdesign.pipeline import section_from_stack
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d.from_stack import section_from_stack
 
     section = section_from_stack(load_stack(SCREENED))
     lower = section.sheets[2]

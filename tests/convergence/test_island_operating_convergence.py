@@ -14,9 +14,9 @@ pytestmark = pytest.mark.slow
 def test_ratio_independent_of_numerical_parameters(screened_path, record_check):
     from qhdesign.island.operating import IslandDevice
     from qhdesign.island.stage import OperatingSettings, solve_island_operating
+    from qhdesign.pipeline import section_from_stack
+    from qhdesign.section.geometry import MeshOptions
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d.from_stack import section_from_stack
-    from qhdesign.tf2d.geometry import MeshOptions
 
     section = section_from_stack(load_stack(screened_path))
     dev = IslandDevice(-1.0, gate_radius_m=1.25e-6)

@@ -53,9 +53,9 @@ def test_conformal_map_profile_under_a_half_plane_gate(record_check):
     # dn(x) = dn(-inf) / (1 + exp(pi x / d)): half the wide-gate value at the gate edge.
     # Solved here with the 2D stage's nonlinear Thomas–Fermi solver (the island reuses it), a
     # sheet with 1000 times the GaAs DOS (quantum screening length 2.5 pm) and a small bias.
-    from qhdesign.tf2d.geometry import GateLayout, MeshOptions
-    from qhdesign.tf2d.model import CrossSection, SheetSpec
-    from qhdesign.tf2d.solver import CrossSectionSolver
+    from qhdesign.section.geometry import GateLayout, MeshOptions
+    from qhdesign.section.model import CrossSection, SheetSpec
+    from qhdesign.section.solver import CrossSectionSolver
 
     d = 50e-9
     D = 1000 * 0.067 * sc.m_e / (math.pi * sc.hbar**2)
