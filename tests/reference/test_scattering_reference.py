@@ -62,9 +62,9 @@ def remote_mobility(d, n, n_r, q_s, profile=None):
 
 def asymptote(d, n, n_r):
     """mu = (8 e / (pi hbar)) (k_F d)^3 / n_R: large-spacer, strong-screening limit of remote
-    scattering (derived in docs/disorder.md, section 3; the form quoted in J. H. Davies, The
-    Physics of Low-Dimensional Semiconductors (1998), ch. 9, and used by A. Gold, Phys. Rev. B
-    35, 723 (1987))."""
+    scattering (analytic: derived in docs/disorder.md, section 4, from the golden-rule integral;
+    the same closed form is given in J. H. Davies, The Physics of Low-Dimensional Semiconductors
+    (Cambridge, 1998), ch. 9 -- from memory, the page could not be retrieved to confirm)."""
     return 8 * sc.e / (math.pi * sc.hbar) * (fermi_wavevector(n) * d) ** 3 / n_r
 
 
