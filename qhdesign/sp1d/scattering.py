@@ -338,14 +338,17 @@ def well_scattering(
     out = []
     for src, (zi, ni) in (sheets or {}).items():
         ni = np.asarray(ni, float)
-        if not np.any(ni > 0):
+        if not np.any(ni > 0):  # kept with zero rates: the same sources in every design
+            out.append(SourceRates(src, "remote charges", 0.0, 0.0))
             continue
         f = profile.form_factor(q, zi, g)
         rt, rq = lifetimes(coul * (f**2 @ ni), mass_rel, w_t, w_q)
         out.append(SourceRates(src, "remote charges", rt, rq))
-    if background_m3 > 0.0 and background_span_m is not None:
-        f2 = profile.squared_layer_integral(q, *background_span_m, g)
-        rt, rq = lifetimes(coul * background_m3 * f2, mass_rel, w_t, w_q)
+    if background_span_m is not None:
+        rt = rq = 0.0
+        if background_m3 > 0.0:
+            f2 = profile.squared_layer_integral(q, *background_span_m, g)
+            rt, rq = lifetimes(coul * background_m3 * f2, mass_rel, w_t, w_q)
         out.append(SourceRates("background", "uniform background charges", rt, rq))
     if roughness is not None and roughness[0] > 0.0 and interfaces:
         delta, lam = roughness
@@ -410,13 +413,21 @@ class ScatteringResult:
     def summary(self) -> dict[str, float]:
         """CSV columns (display units in the names)."""
         out: dict[str, float] = {}
+        # the same source columns for every well (NaN where a well has no such source, e.g. an
+        # empty well), so that the columns do not depend on which wells hold electrons
+        names = list(dict.fromkeys(s.name for w in self.wells for s in w.sources))
         for w in self.wells:
             out[f"{w.name}_mobility_cm^2/Vs"] = w.mobility_m2_per_Vs / _CM2_VS
             out[f"{w.name}_quantum_lifetime_ps"] = w.quantum_lifetime_s * 1e12
             out[f"{w.name}_level_broadening_ueV"] = w.level_broadening_J / sc.e * 1e6
-            for s in w.sources:
-                alone = sc.e / (w.mass_rel * sc.m_e * s.transport_rate_s)
-                out[f"{w.name}_mobility_{s.name}_cm^2/Vs"] = alone / _CM2_VS
+            rates = {s.name: s.transport_rate_s for s in w.sources}
+            for name in names:
+                r = rates.get(name)
+                if r is None:
+                    alone = math.nan
+                else:
+                    alone = sc.e / (w.mass_rel * sc.m_e * r) if r > 0 else math.inf
+                out[f"{w.name}_mobility_{name}_cm^2/Vs"] = alone / _CM2_VS
         p = next((w for w in self.wells if w.role == "primary"), None)
         if p is not None:
             out["primary_mobility_cm^2/Vs"] = p.mobility_m2_per_Vs / _CM2_VS
@@ -479,8 +490,9 @@ def scattering(result, options: ScatteringOptions | None = None) -> ScatteringRe
     sheets = _donor_sheets(result)
     # surface states of a bare (exposed) surface are charged scatterers; a metal gate's charge
     # is a smooth sheet, not a random one, and is not counted
-    if o.surface and result.surface_kind == "exposed" and result.surface_charge_C_m2 != 0.0:
-        n_surf = abs(result.surface_charge_C_m2) / sc.e
+    if o.surface:
+        counted = result.surface_kind == "exposed"
+        n_surf = abs(result.surface_charge_C_m2) / sc.e if counted else 0.0
         sheets["surface"] = (np.array([result.z_m[0]]), np.array([n_surf]))
     span = (float(result.z_m[0]), float(result.z_m[-1]))
     wells = []
