@@ -12,7 +12,7 @@ BASE_PY := $(shell for p in $(PYTHON_CANDIDATES); do \
     if $$p -c 'import sys; sys.exit(0 if sys.version_info >= (3, 12) else 1)' >/dev/null 2>&1; then \
       command -v $$p 2>/dev/null || echo $$p; break; fi; done)
 
-.PHONY: demo test bench lint venv clean
+.PHONY: demo test bench lint venv clean validation browser
 
 $(VENV)/.installed: pyproject.toml
 	@if [ -z "$(BASE_PY)" ]; then \
@@ -49,6 +49,21 @@ demo: $(VENV)/.installed
 
 test: $(VENV)/.installed
 	$(PY) -m pytest -q
+
+# Regenerate the checked table of docs/validation.md from a run of the reference tests (each
+# records its check, source, tolerance and deviation; scripts/render_validation.py renders them).
+validation: $(VENV)/.installed
+	@rm -f results/validation.json; mkdir -p results
+	QHDESIGN_VALIDATION_JSON=results/validation.json $(PY) -m pytest -q -m "not mpi" tests/reference
+	$(PY) scripts/render_validation.py results/validation.json docs/validation.md
+
+# Headless Chromium (Debian package) for the browser test of the design review; installs with
+# apt-get as root, only where it is missing.
+browser:
+	@command -v chromium >/dev/null 2>&1 || { \
+	  if [ "$$(id -u)" = 0 ]; then apt-get update && apt-get install -y chromium; \
+	  else echo "error: chromium is missing; install it as root: apt-get install -y chromium" >&2; exit 2; fi; }
+	@chromium --version
 
 bench: $(VENV)/.installed
 	@for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done

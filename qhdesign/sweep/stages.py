@@ -170,10 +170,20 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
 
 
 def _island(stack, **options):
-    solve_island = _import("qhdesign.tf2d", "solve_island", "island")
+    """Island capacitances plus the interferometer figures (``interferometer.*`` columns)."""
+    _import("qhdesign.tf2d", "solve_island", "island")
     from mpi4py import MPI  # one serial solve per design, as in _edge
 
-    return _summary(solve_island(stack, comm=MPI.COMM_SELF, **options))
+    from qhdesign.island_figures import figure_columns, island_figures, split_island_options
+
+    cond, island_opts, gate_voltage = split_island_options(options, source_prefix="options.")
+    if gate_voltage is not None:
+        from qhdesign.island_figures import conditions_from_edge
+
+        cond = conditions_from_edge(stack, cond, gate_voltage, comm=MPI.COMM_SELF)
+    fig = island_figures(stack, cond, comm=MPI.COMM_SELF, keep_result=True, **island_opts)
+    res = fig.pop("_result")
+    return {**_summary(res), **figure_columns(fig)}
 
 
 #: Built-in stages: name -> (callable, one-line description).
