@@ -13,8 +13,8 @@ optionally interface roughness. Pure functions of a :class:`~qhdesign.sp1d.Bands
 
 References
 ----------
-T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982), sections II.B, IV.A, IV.C
-(form factors, screening, Fang–Howard forms, interface roughness).
+T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982) (form factors, screening,
+Fang–Howard forms, interface roughness).
 F. Stern, Phys. Rev. Lett. 18, 546 (1967) (static 2D polarisability).
 S. Das Sarma and F. Stern, Phys. Rev. B 32, 8442 (1985) (tau_t versus tau_q).
 A. Gold, Phys. Rev. B 35, 723 (1987); A. Gold, Phys. Rev. B 38, 10798 (1988).
@@ -142,7 +142,7 @@ def thomas_fermi_wavevector(mass_rel: float, permittivity_rel: float) -> float:
 
     References
     ----------
-    T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982), eq. (2.51).
+    T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982).
     """
     eps = permittivity_rel * sc.epsilon_0
     return sc.e**2 * mass_rel * sc.m_e / (2.0 * math.pi * eps * sc.hbar**2)
@@ -167,7 +167,7 @@ def level_broadening(quantum_lifetime_s: float) -> float:
 
     References
     ----------
-    T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982), section VI.B (level
+    T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982) (level
     width hbar/(2 tau) of the self-consistent Born approximation's Lorentzian form).
     """
     if not quantum_lifetime_s > 0.0:

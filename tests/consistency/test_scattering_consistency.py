@@ -25,7 +25,7 @@ def _rates(sr, well, name):
 
 def test_background_rate_is_linear_in_its_density(demo):
     # Born approximation: the rate is proportional to the impurity density (Ando, Fowler,
-    # Stern, RMP 54, 437 (1982), sec. IV.A); the screening does not depend on it
+    # Stern, RMP 54, 437 (1982)); the screening does not depend on it
     a = scattering(demo, ScatteringOptions(background_m3=1e20))
     b = scattering(demo, ScatteringOptions(background_m3=3e20))
     for w in ("primary", "screen_upper"):
