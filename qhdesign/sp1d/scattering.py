@@ -380,6 +380,7 @@ class ScatteringResult:
     options: ScatteringOptions
     low_mobility: bool
     warnings: tuple[str, ...] = field(default=())
+    surface_counted: bool = False
 
     def well(self, name: str) -> WellScattering:
         for w in self.wells:
@@ -404,7 +405,7 @@ class ScatteringResult:
             "background_m3": o.background_m3,
             "roughness_height_m": o.roughness_height_m,
             "roughness_length_m": o.roughness_length_m,
-            "surface_charge_counted": o.surface,
+            "surface_charge_counted": self.surface_counted,
             "min_mobility_m2_per_Vs": o.min_mobility_m2_Vs,
         }
         bands.setdefault("warnings", []).extend(self.warnings)
@@ -490,8 +491,8 @@ def scattering(result, options: ScatteringOptions | None = None) -> ScatteringRe
     sheets = _donor_sheets(result)
     # surface states of a bare (exposed) surface are charged scatterers; a metal gate's charge
     # is a smooth sheet, not a random one, and is not counted
+    counted = o.surface and result.surface_kind == "exposed"
     if o.surface:
-        counted = result.surface_kind == "exposed"
         n_surf = abs(result.surface_charge_C_m2) / sc.e if counted else 0.0
         sheets["surface"] = (np.array([result.z_m[0]]), np.array([n_surf]))
     span = (float(result.z_m[0]), float(result.z_m[-1]))
@@ -536,7 +537,7 @@ def scattering(result, options: ScatteringOptions | None = None) -> ScatteringRe
             f"estimated mobility of the primary well {prim.mobility_m2_per_Vs / _CM2_VS:.3g} "
             f"cm^2/Vs is below the threshold {o.min_mobility_m2_Vs / _CM2_VS:.3g} cm^2/Vs"
         )
-    return ScatteringResult(tuple(wells), o, low, tuple(warn))
+    return ScatteringResult(tuple(wells), o, low, tuple(warn), counted)
 
 
 def fit_background(
