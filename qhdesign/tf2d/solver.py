@@ -33,17 +33,11 @@ from scipy import constants as sc
 
 from qhdesign.errors import ConvergenceError, InputError
 
+from .forms import AREA_SCALE, DOS_SCALE, sheet_measure, thomas_fermi_residual
 from .geometry import NM, TAGS, GateLayout, MeshOptions, StructuredGrid, build_grid, build_mesh
 from .model import CrossSection, calibrate, thomas_fermi_density
 
 __all__ = ["CrossSectionSolver", "FieldSolution", "SolverOptions"]
-
-#: eps_0/e in e V^-1 nm^-1
-C_EPS = sc.epsilon_0 / sc.e * NM
-#: J^-1 m^-2 -> eV^-1 nm^-2
-DOS_SCALE = sc.e * NM**2
-#: m^-2 -> nm^-2 ; C/m^2 -> e/nm^2
-AREA_SCALE = NM**2
 
 
 @dataclass(frozen=True)
@@ -283,30 +277,32 @@ class CrossSectionSolver:
         dx = ufl.Measure("dx", domain=msh, subdomain_data=self.cell_tags)
         dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
         ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
-        qd = self.options.sheet_quadrature_degree
-        dS_v = ufl.Measure(
-            "dS",
-            domain=msh,
-            subdomain_data=ft,
-            metadata={"quadrature_rule": "vertex", "quadrature_degree": 1}
-            if qd == 0
-            else {"quadrature_degree": qd},
+        self.E = [
+            fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
+            for i in range(len(self.section.sheets))
+        ]
+        self.D = [
+            fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
+            for s in self.section.sheets
+        ]
+        F = thomas_fermi_residual(
+            u,
+            v,
+            eps=self.eps,
+            q_lines=self.q_lines,
+            sigma=self.sigma,
+            kT=self.kT,
+            sheets=[
+                (self.E[i], self.D[i], TAGS["sheet0"] + i) for i in range(len(self.section.sheets))
+            ],
+            dx=dx,
+            dS=dS,
+            ds=ds,
+            dS_sheet=sheet_measure(msh, ft, self.options.sheet_quadrature_degree),
+            level_tag=TAGS["levels"],
+            exposed_tags=(TAGS["exposed"],),
+            bottom_tag=TAGS["bottom"],
         )
-        sheet_tags = tuple(TAGS["sheet0"] + i for i in range(len(self.section.sheets)))
-        F = C_EPS * self.eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * dx
-        F -= self.q_lines("+") * v("+") * dS((TAGS["levels"], *sheet_tags))
-        F -= self.q_lines * v * ds((TAGS["exposed"], TAGS["bottom"]))
-        F -= self.sigma * v * ds(TAGS["exposed"])
-        self.E = []
-        self.D = []
-        for i, s in enumerate(self.section.sheets):
-            E = fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
-            D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
-            a = (u("+") - E) / self.kT
-            softplus = ufl.max_value(a, 0.0) + ufl.ln(1.0 + ufl.exp(-abs(a)))
-            F += D * self.kT * softplus * v("+") * dS_v(sheet_tags[i])
-            self.E.append(E)
-            self.D.append(D)
         use_lu = self.options.linear_solver == "lu" or (
             self.options.linear_solver == "auto" and self.num_dofs <= self.options.direct_max_dofs
         )
