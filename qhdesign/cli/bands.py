@@ -8,7 +8,8 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity
+from . import disorder as D
+from .common import guarded, option_quantity, warn
 
 
 def _load(stack_file: Path):
@@ -16,7 +17,7 @@ def _load(stack_file: Path):
 
     stack = load_stack(stack_file)
     for w in stack.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
     return stack
 
 
@@ -79,9 +80,16 @@ def _print_bands(r) -> None:
         )
     console.print(f"surface charge: {r.surface_charge_C_m2 / sc.e * 1e-4:+.4g} e cm^-2")
     f = r.flags
+    prim = next(w for w in r.wells if w.role == "primary")
     lines = [
+        f"primary well: {prim.sheet_density_m2 * 1e-4:.3g} cm^-2"
+        + (" [EMPTY: no usable channel]" if f.primary_empty else " (ok)"),
         f"second subband of the primary: E2 - EF = {f.e2_minus_ef_J / sc.e * 1e3:.2f} meV"
-        + (" [OCCUPIED or within margin]" if f.second_subband_occupied else " (ok)"),
+        + (
+            " [OCCUPIED or within margin]"
+            if f.second_subband_occupied
+            else (" (primary empty)" if f.primary_empty else " (ok)")
+        ),
         "parallel conduction: "
         + (", ".join(f.parallel_layers) if f.parallel_conduction else "none"),
         "donor supply margin: "
@@ -97,7 +105,7 @@ def _print_bands(r) -> None:
     for line in lines:
         console.print(line)
     for w in r.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
 
 
 def register(app: typer.Typer) -> None:
@@ -116,11 +124,22 @@ def register(app: typer.Typer) -> None:
         ),
         json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
         plot: Path | None = typer.Option(None, "--plot", help="Write the band diagram."),
+        background: str | None = typer.Option(None, "--background", help=D.BACKGROUND_HELP),
+        roughness_height: str | None = typer.Option(
+            None, "--roughness-height", help=D.ROUGH_H_HELP
+        ),
+        roughness_length: str | None = typer.Option(
+            None, "--roughness-length", help=D.ROUGH_L_HELP
+        ),
+        min_mobility: str | None = typer.Option(None, "--min-mobility", help=D.MIN_MOB_HELP),
     ) -> None:
-        """Self-consistent subbands and the charge in each well (donors frozen at freeze-out)."""
+        """Self-consistent subbands and the charge in each well (donors frozen at freeze-out),
+        with a disorder estimate per well (mobility, quantum lifetime, level broadening)."""
         from qhdesign.errors import InputError
         from qhdesign.sp1d import BandsOptions, solve_bands
+        from qhdesign.sp1d.scattering import scattering
 
+        dis = D.disorder_options(background, roughness_height, roughness_length, min_mobility)
         stack = _load(stack_file)
         v = option_quantity(gate, "voltage", "--gate")
         t = _temperature(temperature)
@@ -134,11 +153,15 @@ def register(app: typer.Typer) -> None:
 
             check_gate_voltage(stack, v, "--gate")
         r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
+        sr = scattering(r, dis)
         _print_bands(r)
+        from rich.console import Console
+
+        D.print_disorder(sr, Console(width=110))
         if json_out is not None:
             from qhdesign.io import atomic_write_json
 
-            atomic_write_json(json_out, r.to_dict())
+            atomic_write_json(json_out, sr.merge_into(r.to_dict()))
             typer.echo(f"wrote {json_out}")
         if plot is not None:
             from qhdesign.plotting import save_figure
@@ -211,7 +234,7 @@ def register(app: typer.Typer) -> None:
                 f"  dn/dV (cm^-2/V) from {seg['from_V']:+.3f} to {seg['to_V']:+.3f} V: {slopes}"
             )
         for w in g.warnings:
-            typer.echo(f"warning: {w}", err=True)
+            warn(w)
         if csv_out is not None:
             from qhdesign.io import atomic_write_text
 
@@ -233,12 +256,22 @@ def register(app: typer.Typer) -> None:
     @guarded
     def calibrate_cmd(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
-        parameter: str = typer.Option(
-            ..., "--parameter", help="Stack parameter path to fit, e.g. surface.barrier."
+        parameter: str | None = typer.Option(
+            None,
+            "--parameter",
+            help="Stack parameter path to fit, e.g. surface.barrier (with --mobility: "
+            "background, the default).",
         ),
-        well: str = typer.Option(..., "--well", help="Well whose measurement is given."),
+        well: str | None = typer.Option(
+            None, "--well", help="Well whose measurement is given (not with --hall-density)."
+        ),
         density: str | None = typer.Option(
             None, "--density", help='Measured zero-bias sheet density, e.g. "2.1e11 cm^-2".'
+        ),
+        hall_density: str | None = typer.Option(
+            None,
+            "--hall-density",
+            help='Measured total (Hall) density of all wells together, e.g. "4.7e11 cm^-2".',
         ),
         threshold: str | None = typer.Option(
             None, "--threshold", help="Measured depletion threshold of the well (V)."
@@ -249,18 +282,47 @@ def register(app: typer.Typer) -> None:
             help='Search interval for the parameter, "LOW..HIGH" with units '
             '(e.g. "0.6 eV..0.8 eV"); default +-50% of its value.',
         ),
-        out: Path = typer.Option(..., "--out", help="Write the calibrated stack (TOML) here."),
+        out: Path | None = typer.Option(
+            None, "--out", help="Write the calibrated stack (TOML) here (not with --mobility)."
+        ),
         json_out: Path | None = typer.Option(None, "--json", help="Write the fit as JSON."),
+        mobility: str | None = typer.Option(
+            None,
+            "--mobility",
+            help='Measured mobility of --well, e.g. "1.2e6 cm^2/Vs": fits the background '
+            "impurity density of the disorder estimate (use it as bands --background).",
+        ),
     ) -> None:
-        """Fit one stack parameter to a measured density or threshold; write the new stack."""
+        """Fit one stack parameter to a measured density or threshold and write the new stack;
+        or fit the background impurity density to a measured mobility."""
         from qhdesign.errors import InputError
         from qhdesign.sp1d import calibrate
 
+        given = [x is not None for x in (density, hall_density, threshold, mobility)]
+        if sum(given) != 1:
+            raise InputError(
+                "give exactly one of --density, --hall-density or --threshold (or --mobility)",
+                source="options",
+            )
+        if well is None and hall_density is None:
+            raise InputError(
+                "required: the well whose measurement is given", source="option --well"
+            )
+        if mobility is not None:
+            D.calibrate_mobility(stack_file, parameter, well, mobility, out, json_out)
+            return
+        for value, option in ((parameter, "--parameter"), (out, "--out")):
+            if value is None:
+                raise InputError(
+                    "required with --density, --hall-density or --threshold",
+                    source=f"option {option}",
+                )
         stack = _load(stack_file)
-        if (density is None) == (threshold is None):
-            raise InputError("give exactly one of --density or --threshold", source="options")
         if density is not None:
             target, measured = "density", option_quantity(density, "sheet_density", "--density")
+        elif hall_density is not None:
+            target = "total"
+            measured = option_quantity(hall_density, "sheet_density", "--hall-density")
         else:
             target, measured = "threshold", option_quantity(threshold, "voltage", "--threshold")
         bracket = None
@@ -271,7 +333,7 @@ def register(app: typer.Typer) -> None:
         )
         typer.echo(
             f"{parameter}: fitted {res.fitted_value:.6g} (SI), was {res.initial_value:.6g}; "
-            f"reproduces the measured {target} of {well} "
+            f"reproduces the measured {target} of {res.well} "
             f"({res.achieved:.6g} vs {res.measured:.6g} SI) after {res.evaluations} solves"
         )
         from qhdesign.io import atomic_write_json, atomic_write_text

@@ -95,12 +95,12 @@ def register(app: typer.Typer) -> None:
         from scipy import constants as sc
 
         from qhdesign.errors import InputError
+        from qhdesign.fem.backend import load
         from qhdesign.layout import load_layout
         from qhdesign.layout.layoutfile import check_voltage
         from qhdesign.layout.model3d import Layout3DOptions
         from qhdesign.layout.stage import solve_layout
         from qhdesign.stack import load_stack
-        from qhdesign.tf2d.backend import load
 
         if not 0.25 <= refine <= 4:
             raise InputError("refine must lie in [0.25, 4]", source="option --refine")

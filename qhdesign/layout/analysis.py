@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from qhdesign.tf2d.profile import EDGE_FRACTION as _PINCH_2D
+from qhdesign.section.profile import EDGE_FRACTION as _PINCH_2D
 
 __all__ = [
     "EDGE_FRACTION",

@@ -236,7 +236,7 @@ def build_mesh3d(
     import basix.ufl
     import ufl
 
-    from qhdesign.tf2d.backend import load
+    from qhdesign.fem.backend import load
 
     _, dolfinx = load()
     t = {}

@@ -1,9 +1,11 @@
 """The 3D Thomas–Fermi model of a stack under a gate layout, on DOLFINx (distributed).
 
-The physics is the 2D cross-section's, in one more dimension: the same residual
-(:func:`qhdesign.tf2d.forms.thomas_fermi_residual`), the same sheet energies E_w from the exact
-column calibration on the mesh's z-levels (:func:`qhdesign.tf2d.model.calibrate`), so far from the
-gates the 3D solution reproduces the 1D per-well densities. Each gate is a Dirichlet patch of
+The physics is the 2D cross-section's (:class:`qhdesign.section.solver.CrossSectionSolver`), in
+one more dimension: the residual is assembled from the same engine pieces
+(:mod:`qhdesign.fem.forms`: ``dielectric``, ``thomas_fermi_density``, ``sheet``,
+``sheet_measure``) with the same unit factors, and the same sheet energies E_w come from the exact
+column calibration on the mesh's z-levels (:func:`qhdesign.section.model.calibrate`), so far from
+the gates the 3D solution reproduces the 1D per-well densities. Each gate is a Dirichlet patch of
 the top surface at V_g - Phi_B/e; the rest of the top is the stack's exposed surface (frozen
 charge or pinned); the sides are zero-normal-field; the bottom as in the 2D stage.
 
@@ -28,9 +30,9 @@ import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import ConvergenceError, InputError
-from qhdesign.tf2d.forms import AREA_SCALE, C_EPS, DOS_SCALE, sheet_measure, thomas_fermi_residual
-from qhdesign.tf2d.geometry import GateLayout, MeshOptions, build_grid
-from qhdesign.tf2d.model import CrossSection, calibrate
+from qhdesign.section.geometry import GateLayout, MeshOptions, build_grid
+from qhdesign.section.model import CrossSection, calibrate
+from qhdesign.section.solver import AREA_SCALE, C_EPS, DOS_SCALE
 
 from .layoutfile import Layout
 from .mesh3d import NM, TAGS3, build_mesh3d
@@ -95,7 +97,7 @@ class LayoutSolver:
     Parameters
     ----------
     section
-        The stack's column (:func:`qhdesign.tf2d.section_from_stack`).
+        The stack's column (:func:`qhdesign.pipeline.section_from_stack`).
     layout
         The gate layout (its voltages are the default operating point).
     options
@@ -105,7 +107,7 @@ class LayoutSolver:
     """
 
     def __init__(self, section: CrossSection, layout: Layout, options=None, *, comm=None):
-        from qhdesign.tf2d.backend import load
+        from qhdesign.fem.backend import load
 
         MPI, _ = load()
         self.section = section
@@ -157,6 +159,8 @@ class LayoutSolver:
         from dolfinx import default_scalar_type, fem
         from scipy.spatial import cKDTree
 
+        from qhdesign.fem import forms
+
         msh, ft = self.mesh, self.facet_tags
         self.V = fem.functionspace(msh, ("Lagrange", 1))
         imap = self.V.dofmap.index_map
@@ -204,7 +208,7 @@ class LayoutSolver:
         self.dx = ufl.Measure("dx", domain=msh, subdomain_data=self.cell_tags)
         self.dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
         self.ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
-        self.dS_sheet = sheet_measure(msh, ft, self.options.sheet_quadrature_degree)
+        self.dS_sheet = forms.sheet_measure(msh, ft, self.options.sheet_quadrature_degree)
         cal = self.calibration
         self.E = [fem.Constant(msh, default_scalar_type(e)) for e in cal["energy_eV"]]
         self.D = [
@@ -213,22 +217,15 @@ class LayoutSolver:
         ]
         self.sheet_tags = [TAGS3["sheet0"] + i for i in range(len(self.section.sheets))]
         u, v = self.phi, ufl.TestFunction(self.V)
-        self.F = thomas_fermi_residual(
-            u,
-            v,
-            eps=self.eps,
-            q_lines=self.q_lines,
-            sigma=self.sigma,
-            kT=self.kT,
-            sheets=list(zip(self.E, self.D, self.sheet_tags, strict=True)),
-            dx=self.dx,
-            dS=self.dS,
-            ds=self.ds,
-            dS_sheet=self.dS_sheet,
-            level_tag=TAGS3["levels"],
-            exposed_tags=(TAGS3["exposed"],),
-            bottom_tag=TAGS3["bottom"],
-        )
+        # the cross-section's residual term by term (section/solver.py), in 3D
+        F = forms.dielectric(u, v, self.eps, self.dx, scale=C_EPS)
+        F -= self.q_lines("+") * v("+") * self.dS((TAGS3["levels"], *self.sheet_tags))
+        F -= self.q_lines * v * self.ds((TAGS3["exposed"], TAGS3["bottom"]))
+        F -= self.sigma * v * self.ds(TAGS3["exposed"])
+        for E, D, tag in zip(self.E, self.D, self.sheet_tags, strict=True):
+            density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
+            F += forms.sheet(density, v, self.dS_sheet(tag))
+        self.F = F
         from dolfinx.fem.petsc import NonlinearProblem
 
         o = self.options
@@ -378,10 +375,13 @@ class LayoutSolver:
     def _linear_operator(self, weights):
         import ufl
 
+        from qhdesign.fem import forms
+
         u, v = ufl.TrialFunction(self.V), ufl.TestFunction(self.V)
-        a = C_EPS * self.eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * self.dx
+        a = forms.dielectric(u, v, self.eps, self.dx, scale=C_EPS)
         for D, tag, w in zip(self.D, self.sheet_tags, weights, strict=True):
-            a += D * w("+") * u("+") * v("+") * self.dS_sheet(tag)
+            # the Jacobian of the Thomas-Fermi sheet: D sigmoid((phi - E)/kT) per volt
+            a += forms.sheet(forms.linear_sheet_density(D * w("+"), u("+")), v, self.dS_sheet(tag))
         return a
 
     def linear_response(self, dirichlet: list[tuple[np.ndarray, float]], masks=None):

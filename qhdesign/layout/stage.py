@@ -209,7 +209,7 @@ def solve_layout(
     ----------
     source
         A :class:`~qhdesign.stack.Stack` (the 1D stage places the sheets) or a
-        :class:`~qhdesign.tf2d.model.CrossSection`.
+        :class:`~qhdesign.section.model.CrossSection`.
     layout
         The validated layout (voltages are its operating point).
     options
@@ -228,7 +228,7 @@ def solve_layout(
     InputError
         Bad field; ConvergenceError when Newton fails.
     """
-    from qhdesign.tf2d.model import CrossSection
+    from qhdesign.section.model import CrossSection
 
     if field_T is not None and not (0 < field_T <= 50):
         raise InputError(f"field {field_T:g} T out of range; allowed (0, 50] T", key="field")
@@ -236,7 +236,7 @@ def solve_layout(
     if isinstance(source, CrossSection):
         section = source
     else:
-        from qhdesign.tf2d import section_from_stack
+        from qhdesign.pipeline import section_from_stack
 
         section = section_from_stack(source)
     t_1d = time.perf_counter() - t0

@@ -237,6 +237,7 @@ def build_results(
                 lowest_subband_J=float(en[mine[0]]) if mine else math.nan,
                 subbands=tuple(mine),
                 filling_factor=nu,
+                permittivity_rel=float(p.permittivity),
             )
         )
     # doped layers
@@ -250,6 +251,8 @@ def build_results(
             donors_m2=float(don_layer[i]),
             ionized_m2=float(ion_layer[i]),
             electrons_m2=float(par_layer[i]),
+            z_top_m=float(prof[i].z_top),
+            z_bottom_m=float(prof[i].z_bottom),
         )
         for i in layout.doped_layers
     )
@@ -307,6 +310,7 @@ def build_results(
             donors_total > 0 and margin < options.supply_margin_fraction * donors_total
         ),
         forward_leakage=bool(gate_voltage > options.forward_limit_V),
+        primary_empty=bool(prim.sheet_density_m2 < options.empty_primary_m2),
     )
     others = {
         layout.layer_names[i]: float(par_layer[i])

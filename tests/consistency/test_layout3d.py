@@ -29,7 +29,7 @@ SMALL = 0.5  # refine factor for the tests: about 50k dofs
 @pytest.fixture(scope="module")
 def solved():
     from qhdesign.layout.model3d import Layout3DOptions, LayoutSolver
-    from qhdesign.tf2d import section_from_stack
+    from qhdesign.pipeline import section_from_stack
 
     stack = load_stack(ROOT / "stacks" / "ql2417_screened.toml")
     lay = load_layout(CIRCLE, stack)

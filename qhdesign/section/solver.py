@@ -32,12 +32,19 @@ import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import ConvergenceError, InputError
+from qhdesign.fem.tensor_mesh import NM
 
-from .forms import AREA_SCALE, DOS_SCALE, sheet_measure, thomas_fermi_residual
-from .geometry import NM, TAGS, GateLayout, MeshOptions, StructuredGrid, build_grid, build_mesh
+from .geometry import TAGS, GateLayout, MeshOptions, StructuredGrid, build_grid, build_mesh
 from .model import CrossSection, calibrate, thomas_fermi_density
 
 __all__ = ["CrossSectionSolver", "FieldSolution", "SolverOptions"]
+
+#: eps_0/e in e V^-1 nm^-1
+C_EPS = sc.epsilon_0 / sc.e * NM
+#: J^-1 m^-2 -> eV^-1 nm^-2
+DOS_SCALE = sc.e * NM**2
+#: m^-2 -> nm^-2 ; C/m^2 -> e/nm^2
+AREA_SCALE = NM**2
 
 
 @dataclass(frozen=True)
@@ -149,7 +156,7 @@ class CrossSectionSolver:
         outer_dirichlet: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
         sheet_metal: list[tuple[int, float]] | None = None,
     ):
-        from .backend import load
+        from qhdesign.fem.backend import load
 
         MPI, _ = load()
 
@@ -265,6 +272,8 @@ class CrossSectionSolver:
         from dolfinx import default_scalar_type, fem
         from dolfinx.fem.petsc import NonlinearProblem
 
+        from qhdesign.fem import forms, petsc
+
         msh, ft = self.mesh, self.facet_tags
         u, v = self.phi, ufl.TestFunction(self.V)
         cal = self.calibration
@@ -277,59 +286,33 @@ class CrossSectionSolver:
         dx = ufl.Measure("dx", domain=msh, subdomain_data=self.cell_tags)
         dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
         ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
-        self.E = [
-            fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
-            for i in range(len(self.section.sheets))
-        ]
-        self.D = [
-            fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
-            for s in self.section.sheets
-        ]
-        F = thomas_fermi_residual(
-            u,
-            v,
-            eps=self.eps,
-            q_lines=self.q_lines,
-            sigma=self.sigma,
-            kT=self.kT,
-            sheets=[
-                (self.E[i], self.D[i], TAGS["sheet0"] + i) for i in range(len(self.section.sheets))
-            ],
-            dx=dx,
-            dS=dS,
-            ds=ds,
-            dS_sheet=sheet_measure(msh, ft, self.options.sheet_quadrature_degree),
-            level_tag=TAGS["levels"],
-            exposed_tags=(TAGS["exposed"],),
-            bottom_tag=TAGS["bottom"],
-        )
+        dS_v = forms.sheet_measure(msh, ft, self.options.sheet_quadrature_degree)
+        sheet_tags = tuple(TAGS["sheet0"] + i for i in range(len(self.section.sheets)))
+        F = forms.dielectric(u, v, self.eps, dx, scale=C_EPS)
+        F -= self.q_lines("+") * v("+") * dS((TAGS["levels"], *sheet_tags))
+        F -= self.q_lines * v * ds((TAGS["exposed"], TAGS["bottom"]))
+        F -= self.sigma * v * ds(TAGS["exposed"])
+        self.E = []
+        self.D = []
+        for i, s in enumerate(self.section.sheets):
+            E = fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
+            D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
+            density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
+            F += forms.sheet(density, v, dS_v(sheet_tags[i]))
+            self.E.append(E)
+            self.D.append(D)
         use_lu = self.options.linear_solver == "lu" or (
             self.options.linear_solver == "auto" and self.num_dofs <= self.options.direct_max_dofs
         )
         self.linear_solver = "lu" if use_lu else "gamg"
-        opts = {
-            "snes_type": "newtonls",
-            "snes_linesearch_type": "bt",
-            "snes_rtol": self.options.rtol,
-            "snes_atol": self.options.atol,
-            "snes_stol": 0.0,
-            "snes_max_it": self.options.max_it,
-        }
-        if use_lu:
-            opts |= {"ksp_type": "preonly", "pc_type": "lu", "pc_factor_mat_solver_type": "mumps"}
-        else:
-            opts |= {
-                "ksp_type": "cg",
-                "pc_type": "gamg",
-                "ksp_rtol": 1e-9,
-                "ksp_atol": 1e-16,
-                "ksp_max_it": 500,
-                "pc_gamg_threshold": 0.02,
-                "mg_levels_ksp_type": "chebyshev",
-                "mg_levels_pc_type": "jacobi",
-            }
+        opts = petsc.newton(self.options.rtol, self.options.atol, self.options.max_it)
+        opts |= petsc.LU_MUMPS if use_lu else petsc.CG_GAMG
         self.problem = NonlinearProblem(
-            F, u, bcs=[self.bc], petsc_options_prefix=f"qh_tf2d_{id(self)}_", petsc_options=opts
+            F,
+            u,
+            bcs=[self.bc],
+            petsc_options_prefix=petsc.options_prefix("section"),
+            petsc_options=opts,
         )
         snes = self.problem.solver
         self._history: list[float] = []
