@@ -1,7 +1,7 @@
 """The island stage seen as interferometer figures: one thin adapter for ``island``, ``size`` and
 the sweep stage.
 
-:func:`island_figures` solves the island (whatever model :func:`qhdesign.tf2d.solve_island`
+:func:`island_figures` solves the island (whatever model :func:`qhdesign.pipeline.solve_island`
 implements) and turns its energies and areas into the figures of :mod:`qhdesign.interferometer`
 at given quantum Hall conditions. It reads the island result through :func:`_areas` and the
 ``K_*`` attributes only, so a new island model that reports its own areas (``A_I_m2``,
@@ -33,6 +33,7 @@ __all__ = [
     "DEFAULT_ELECTRON_TEMPERATURE_K",
     "DEFAULT_FILLING",
     "QHConditions",
+    "figures_from_flat",
     "figures_from_result",
     "island_column",
     "island_figures",
@@ -106,15 +107,15 @@ def island_column(stack):
     1D stage again).
     """
     try:
-        from qhdesign.tf2d.island import _column
+        from qhdesign.pipeline import island_column_from_stack
     except ImportError:  # another island model: let solve_island take the stack
         return stack
-    return _column(stack)
+    return island_column_from_stack(stack)
 
 
 def _is_column(source) -> bool:
     try:
-        from qhdesign.tf2d import IslandColumn
+        from qhdesign.island import IslandColumn
     except ImportError:
         return False
     return isinstance(source, IslandColumn)
@@ -125,14 +126,27 @@ def _areas(res) -> tuple[float, float, float]:
     A_I = getattr(res, "A_I_m2", None)
     A_L = getattr(res, "A_L_m2", None)
     R = getattr(res, "electronic_radius_m", None)
-    g = res.geometry
     if R is None:
-        R = g.radius_m
+        R = res.geometry.radius_m
     if A_I is None:
         A_I = math.pi * R**2
     if A_L is None:
+        g = res.geometry
         A_L = math.pi * (g.radius_m - g.ring_width_m - 0.5 * g.split_gap_m) ** 2
     return float(R), float(A_I), float(A_L)
+
+
+class _FlatResult:
+    """A flat dict of an island model's figures (``A_I_m2``, ``K_I_J``, ...) seen as a result."""
+
+    def __init__(self, flat: dict):
+        self.__dict__.update(flat)
+
+
+def figures_from_flat(flat: dict, cond: QHConditions) -> dict:
+    """Figures from a flat dict with at least ``K_I_J``, ``K_L_J``, ``K_IL_J``, ``A_I_m2``,
+    ``A_L_m2`` and ``electronic_radius_m`` (the operating-point island's keys)."""
+    return figures_from_result(_FlatResult(flat), cond)
 
 
 def figures_from_result(res, cond: QHConditions, bulk_density_m2: float | None = None) -> dict:
@@ -149,7 +163,7 @@ def figures_from_result(res, cond: QHConditions, bulk_density_m2: float | None =
     L = 2.0 * math.pi * R
     T0 = itf.thermal_scale_K(cond.edge_velocity_m_s, L)
     dA = getattr(res, "dA_I_dV_m2_per_V", None) or cond.dA_dV_m2_per_V
-    if dA is None and cond.edge_shift_m_per_V is not None:
+    if dA is None and cond.edge_shift_m_per_V is not None and hasattr(res, "geometry"):
         dA = 2.0 * math.pi * res.geometry.gate_radius_m * abs(cond.edge_shift_m_per_V)
     reg = itf.regime(r)
     out: dict[str, Any] = {
@@ -208,12 +222,12 @@ def island_figures(
 ) -> dict:
     """Solve the island of ``source`` (stack or column) and return its figures (flat, SI).
 
-    ``island_options`` are those of :func:`qhdesign.tf2d.solve_island` (``radius``,
+    ``island_options`` are those of :func:`qhdesign.pipeline.solve_island` (``radius``,
     ``ring_width``, ``gate_offset``, ``split_gap``, ``screening``, ``surface``, ``far``,
     ``outer_well``, ``refine``, ...). With ``keep_result`` the island result is returned under
     ``"_result"``.
     """
-    from qhdesign.tf2d import solve_island
+    from qhdesign.pipeline import solve_island
 
     column = source if _is_column(source) else island_column(source)
     res = solve_island(column, comm=comm, **island_options)
@@ -285,7 +299,7 @@ def split_island_options(
             raise InputError(exc.message, **_where("gap_kind", source_prefix)) from None
         opts["gap"] = f"{gap!r} J"
         kw["gap_qp_J"] = gap
-    from qhdesign.tf2d.island import parse_filling
+    from qhdesign.island.conductor import parse_filling
 
     nu = parse_filling(opts.get("filling")) if opts.get("filling") is not None else None
     if nu is None:
@@ -310,7 +324,8 @@ def conditions_from_edge(stack, cond: QHConditions, gate_voltage_V: float, comm=
     The edge velocity stays the option's (or the default): the edge stage's E/B at the nu
     contour is not the velocity of a nu = 1/m edge whose bulk is at nu (docs/interferometer.md).
     """
-    from qhdesign.tf2d import EdgeSettings, section_from_stack, solve_edge
+    from qhdesign.pipeline import section_from_stack
+    from qhdesign.section import EdgeSettings, solve_edge
 
     kw = {} if comm is None else {"comm": comm}
     res = solve_edge(section_from_stack(stack), EdgeSettings(gate_voltage_V=gate_voltage_V), **kw)

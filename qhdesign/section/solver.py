@@ -32,8 +32,9 @@ import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import ConvergenceError, InputError
+from qhdesign.fem.tensor_mesh import NM
 
-from .geometry import NM, TAGS, GateLayout, MeshOptions, StructuredGrid, build_grid, build_mesh
+from .geometry import TAGS, GateLayout, MeshOptions, StructuredGrid, build_grid, build_mesh
 from .model import CrossSection, calibrate, thomas_fermi_density
 
 __all__ = ["CrossSectionSolver", "FieldSolution", "SolverOptions"]
@@ -142,6 +143,10 @@ class CrossSectionSolver:
     sheet_metal
         Validation hook: ``[(sheet index, x_max_m)]``: the sheet line for x <= x_max is metal at
         the gate potential (a coplanar gate).
+    axisymmetric
+        Read x as the radius r (the mesh must start at r = 0: ``MeshOptions(x_min_m=0)``) and
+        weight every form by r / r_max (the axis needs no condition). Used by the island's
+        operating point (:mod:`qhdesign.island.operating`).
     """
 
     def __init__(
@@ -154,8 +159,9 @@ class CrossSectionSolver:
         comm=None,
         outer_dirichlet: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
         sheet_metal: list[tuple[int, float]] | None = None,
+        axisymmetric: bool = False,
     ):
-        from .backend import load
+        from qhdesign.fem.backend import load
 
         MPI, _ = load()
 
@@ -172,6 +178,7 @@ class CrossSectionSolver:
         self.comm = comm if comm is not None else MPI.COMM_WORLD
         self._outer = outer_dirichlet
         self._sheet_metal = list(sheet_metal or [])
+        self.axisymmetric = bool(axisymmetric)
         self.timings: dict[str, float] = {}
 
         t0 = time.perf_counter()
@@ -182,6 +189,8 @@ class CrossSectionSolver:
         data = build_mesh(self.grid, section, self.comm, charged_levels=charged)
         self.timings["mesh"] = time.perf_counter() - t0
         self.mesh, self.cell_tags, self.facet_tags = data.mesh, data.cell_tags, data.facet_tags
+        if self.axisymmetric and abs(self.grid.x_m[0]) > 0.0:
+            raise InputError("an axisymmetric solve needs a mesh from r = 0 (x_min_m = 0)")
 
         t0 = time.perf_counter()
         self._setup_spaces()
@@ -271,6 +280,8 @@ class CrossSectionSolver:
         from dolfinx import default_scalar_type, fem
         from dolfinx.fem.petsc import NonlinearProblem
 
+        from qhdesign.fem import forms, petsc
+
         msh, ft = self.mesh, self.facet_tags
         u, v = self.phi, ufl.TestFunction(self.V)
         cal = self.calibration
@@ -283,61 +294,48 @@ class CrossSectionSolver:
         dx = ufl.Measure("dx", domain=msh, subdomain_data=self.cell_tags)
         dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
         ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
-        qd = self.options.sheet_quadrature_degree
-        dS_v = ufl.Measure(
-            "dS",
-            domain=msh,
-            subdomain_data=ft,
-            metadata={"quadrature_rule": "vertex", "quadrature_degree": 1}
-            if qd == 0
-            else {"quadrature_degree": qd},
-        )
+        dS_v = forms.sheet_measure(msh, ft, self.options.sheet_quadrature_degree)
         sheet_tags = tuple(TAGS["sheet0"] + i for i in range(len(self.section.sheets)))
-        F = C_EPS * self.eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * dx
-        F -= self.q_lines("+") * v("+") * dS((TAGS["levels"], *sheet_tags))
-        F -= self.q_lines * v * ds((TAGS["exposed"], TAGS["bottom"]))
-        F -= self.sigma * v * ds(TAGS["exposed"])
+        # axisymmetric: every integrand carries r (scaled to <= 1 so residual norms keep scale)
+        wr = self.radial_weight()
+        wS = 1.0 if wr is None else wr("+")
+        F = forms.dielectric(u, v, self.eps, dx, scale=C_EPS, r=wr)
+        F -= self.q_lines("+") * v("+") * wS * dS((TAGS["levels"], *sheet_tags))
+        F -= self.q_lines * v * (1.0 if wr is None else wr) * ds((TAGS["exposed"], TAGS["bottom"]))
+        F -= self.sigma * v * (1.0 if wr is None else wr) * ds(TAGS["exposed"])
         self.E = []
         self.D = []
         for i, s in enumerate(self.section.sheets):
             E = fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
             D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
-            a = (u("+") - E) / self.kT
-            softplus = ufl.max_value(a, 0.0) + ufl.ln(1.0 + ufl.exp(-abs(a)))
-            F += D * self.kT * softplus * v("+") * dS_v(sheet_tags[i])
+            density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
+            F += forms.sheet(density, v, dS_v(sheet_tags[i]), r=wr)
             self.E.append(E)
             self.D.append(D)
         use_lu = self.options.linear_solver == "lu" or (
             self.options.linear_solver == "auto" and self.num_dofs <= self.options.direct_max_dofs
         )
         self.linear_solver = "lu" if use_lu else "gamg"
-        opts = {
-            "snes_type": "newtonls",
-            "snes_linesearch_type": "bt",
-            "snes_rtol": self.options.rtol,
-            "snes_atol": self.options.atol,
-            "snes_stol": 0.0,
-            "snes_max_it": self.options.max_it,
-        }
-        if use_lu:
-            opts |= {"ksp_type": "preonly", "pc_type": "lu", "pc_factor_mat_solver_type": "mumps"}
-        else:
-            opts |= {
-                "ksp_type": "cg",
-                "pc_type": "gamg",
-                "ksp_rtol": 1e-9,
-                "ksp_atol": 1e-16,
-                "ksp_max_it": 500,
-                "pc_gamg_threshold": 0.02,
-                "mg_levels_ksp_type": "chebyshev",
-                "mg_levels_pc_type": "jacobi",
-            }
+        opts = petsc.newton(self.options.rtol, self.options.atol, self.options.max_it)
+        opts |= petsc.LU_MUMPS if use_lu else petsc.CG_GAMG
         self.problem = NonlinearProblem(
-            F, u, bcs=[self.bc], petsc_options_prefix=f"qh_tf2d_{id(self)}_", petsc_options=opts
+            F,
+            u,
+            bcs=[self.bc],
+            petsc_options_prefix=petsc.options_prefix("section"),
+            petsc_options=opts,
         )
         snes = self.problem.solver
         self._history: list[float] = []
         snes.setMonitor(lambda _snes, _it, norm: self._history.append(float(norm)))
+
+    def radial_weight(self):
+        """The weight of every integrand: r / r_max (UFL) if axisymmetric, else None."""
+        import ufl
+
+        if not self.axisymmetric:
+            return None
+        return ufl.SpatialCoordinate(self.mesh)[0] / (self.grid.x_m[-1] / NM)
 
     # ------------------------------------------------------------------ solving
     def _initial_guess(self, gate_voltage_V: float) -> None:
