@@ -11,6 +11,8 @@ import importlib
 
 import typer
 
+from .common import OneLineGroup
+
 #: Command modules, in the order their commands appear in ``--help``.
 COMMAND_MODULES = ("check", "bands", "edge", "island", "sweep")
 
@@ -32,6 +34,7 @@ def build_app() -> typer.Typer:
         no_args_is_help=True,
         add_completion=False,
         pretty_exceptions_enable=False,
+        cls=OneLineGroup,
     )
 
     @app.callback()

@@ -301,7 +301,7 @@ def stage_modules(stage: str) -> tuple[str, ...]:
 
 def probe(plan) -> tuple[dict | None, str, str, float]:
     """Evaluate the nominal (unmodified) stack twice and keep the second timing (warm imports)."""
-    job = Job(plan.stage, plan.stack, plan.options)
+    job = Job(plan.stage, plan.stack, plan.options, plan.allow_plugins)
     out, status, error, t = evaluate_design(job, {})
     if status == "ok" and t < 1.0:
         out, status, error, t = evaluate_design(job, {})
@@ -354,7 +354,7 @@ def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> Sweep
     t_start = time.perf_counter()
     warming = []
     if kind != "serial":  # workers import the stage while this process probes the nominal design
-        warming = [ex.submit(warm_stage, plan.stage) for _ in range(nworkers)]
+        warming = [ex.submit(warm_stage, plan.stage, plan.allow_plugins) for _ in range(nworkers)]
     nominal, status, error, t_nominal = probe(plan)
     for fut in warming:
         fut.result()
@@ -415,7 +415,7 @@ def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> Sweep
         )
         if started is not None:
             started(max(todo_est, 0), len(done))
-        job = Job(plan.stage, plan.stack, plan.options)
+        job = Job(plan.stage, plan.stack, plan.options, plan.allow_plugins)
         window = 2 * nworkers + 2
         pending: deque = deque()
 

@@ -63,6 +63,7 @@ class SweepPlan:
     criteria: Mapping[str, tuple[float, float]] = field(default_factory=dict)
     source: str = "<spec>"
     signature: Mapping[str, Any] = field(default_factory=dict)
+    allow_plugins: tuple[str, ...] = ()
 
     @property
     def parameters(self) -> tuple[str, ...]:
@@ -91,21 +92,51 @@ class SweepPlan:
 
 
 # ------------------------------------------------------------------------ loading
-def load_spec(path: str | Path, stack_override=None) -> SweepPlan:
+def load_spec(
+    path: str | Path, stack_override=None, allow_plugins: tuple[str, ...] = ()
+) -> SweepPlan:
     """Read a sweep TOML file and return the validated :class:`SweepPlan`."""
     src = str(path)
     p = Path(path)
-    if not p.is_file():
-        raise InputError("sweep spec not found", source=src)
+    raw = read_spec(p)
+    return build_plan(
+        raw, source=src, base_dir=p.parent, stack=stack_override, allow_plugins=allow_plugins
+    )
+
+
+#: Largest sweep spec file read (bytes).
+MAX_SPEC_BYTES = 1_000_000
+
+
+def read_spec(path: Path) -> dict:
+    """The parsed TOML of a spec file (a regular file of at most 1 MB; a BOM is accepted)."""
+    from qhdesign.io import decode_text, read_input_bytes
+
+    src = str(path)
     try:
-        raw = tomllib.loads(p.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        text = decode_text(read_input_bytes(path, MAX_SPEC_BYTES, "sweep spec (.toml)"), src)
+    except InputError as exc:
+        if exc.message == "file not found":
+            raise InputError("sweep spec not found", source=src) from None
+        raise
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
         raise InputError(f"TOML syntax error: {' '.join(str(exc).split())}", source=src) from None
-    return build_plan(raw, source=src, base_dir=p.parent, stack=stack_override)
 
 
-def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None, stack=None):
-    """Validate a parsed spec (the TOML document as a dict) into a :class:`SweepPlan`."""
+def build_plan(
+    raw: Mapping[str, Any],
+    source: str,
+    base_dir: Path | None = None,
+    stack=None,
+    allow_plugins: tuple[str, ...] = (),
+):
+    """Validate a parsed spec (the TOML document as a dict) into a :class:`SweepPlan`.
+
+    ``allow_plugins``: modules whose plug-in stages the user allowed (``--allow-plugin``); a
+    plug-in stage from any other module is refused. Nothing is imported here.
+    """
 
     def err(msg: str, key: str | None = None) -> InputError:
         return InputError(msg, source=source, key=key)
@@ -120,10 +151,13 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
     stage = sweep.get("stage")
     if not isinstance(stage, str) or not stage:
         raise err('missing or not a string; e.g. stage = "capacitor"', key="sweep.stage")
-    from .stages import STAGES, available_stages, get_stage
+    from .stages import STAGES, TRUSTED_PREFIX, available_stages, check_stage, get_stage
 
     try:
-        get_stage(stage)
+        # syntax and consent only: a plug-in module is never imported while a spec is checked
+        check_stage(stage, tuple(allow_plugins))
+        if stage not in STAGES and stage.startswith(TRUSTED_PREFIX):
+            get_stage(stage)  # qhdesign's own module: importing it runs nothing new
     except InputError as exc:
         raise err(exc.message, key="sweep.stage") from None
     if stage in STAGES and stage not in available_stages():
@@ -141,7 +175,11 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
             sp = base_dir / sp
         from qhdesign.stack import load_stack
 
-        stack = load_stack(sp)
+        try:
+            stack = load_stack(sp)
+        except InputError as exc:
+            # the spec names the stack: say so, then the stack file's own one-line error
+            raise err(exc.one_line(), key="sweep.stack") from None
     outputs = sweep.get("outputs")
     if outputs is not None:
         if not (isinstance(outputs, list) and outputs and all(isinstance(o, str) for o in outputs)):
@@ -169,6 +207,7 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
         criteria=criteria,
         source=source,
         signature=signature,
+        allow_plugins=tuple(allow_plugins),
     )
     _check_corners(plan, source)
     return plan

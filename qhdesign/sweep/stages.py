@@ -12,12 +12,13 @@ Built-in names: ``capacitor`` (closed-form lever arms, always available), ``band
 from __future__ import annotations
 
 import importlib
+import re
 from collections.abc import Callable
 from typing import Any
 
 from qhdesign.errors import InputError
 
-__all__ = ["STAGES", "get_stage", "stage_names"]
+__all__ = ["STAGES", "check_stage", "get_stage", "stage_names"]
 
 StageFunc = Callable[..., dict[str, Any]]
 
@@ -187,35 +188,93 @@ def available_stages() -> list[str]:
 
 
 _CACHE: dict[str, StageFunc] = {}
+_PLUGIN = re.compile(r"^([A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z_][A-Za-z0-9_]*)*):([A-Za-z_][A-Za-z0-9_]*)$")
+#: Plug-in modules inside qhdesign itself need no opt-in: importing them runs no code the user
+#: has not installed with qhdesign (the test stages of :mod:`qhdesign.sweep.testing`).
+TRUSTED_PREFIX = "qhdesign."
 
 
-def get_stage(name: str) -> StageFunc:
+def parse_plugin(name: str) -> tuple[str, str]:
+    """``"package.module:function"`` -> ``(module, function)`` (syntax only, nothing imported)."""
+    m = _PLUGIN.match(name)
+    if m is None:
+        raise InputError(
+            f"unknown stage '{name}'; allowed: {', '.join(STAGES)} or 'package.module:function'",
+            key="stage",
+        )
+    return m[1], m[2]
+
+
+def check_stage(name: str, allow_plugins: tuple[str, ...] = ()) -> None:
+    """Refuse an unknown stage, or a plug-in stage whose module the user did not allow.
+
+    A plug-in stage runs code: its module is imported (its top-level code runs) and its function
+    is called once per design. So it needs the user's consent on the command line
+    (``--allow-plugin MODULE``); checking a spec never imports it.
+    """
+    if name in STAGES:
+        return
+    module, _ = parse_plugin(name)
+    if module.startswith(TRUSTED_PREFIX) or module in allow_plugins:
+        return
+    raise InputError(
+        f"plug-in stage '{name}' runs code from module '{module}'; allow it explicitly with "
+        f"--allow-plugin {module} (only for code you trust)",
+        key="stage",
+    )
+
+
+def _import_plugin(module: str):
+    """Import ``module`` without the implicit current folder on the import path.
+
+    ``python -m`` and ``python -c`` put the current folder first on ``sys.path``; a plug-in must
+    come from an installed package or a folder named on ``PYTHONPATH``, never silently from the
+    folder the command happens to run in.
+    """
+    import os
+    import sys
+
+    cwd = os.path.realpath(os.getcwd())
+    explicit = {
+        os.path.realpath(p) for p in os.environ.get("PYTHONPATH", "").split(os.pathsep) if p
+    }
+    saved = list(sys.path)
+    sys.path[:] = [
+        p
+        for p in saved
+        if not (p in ("", ".") or (os.path.realpath(p) == cwd and cwd not in explicit))
+    ]
+    try:
+        return importlib.import_module(module)
+    finally:
+        sys.path[:] = saved
+
+
+def get_stage(name: str, allow_plugins: tuple[str, ...] = ()) -> StageFunc:
     """The callable of stage ``name`` (a built-in name or ``"module:function"``).
 
     Raises
     ------
     InputError
-        Unknown name, or a plug-in reference that does not import.
+        Unknown name, a plug-in module not allowed in ``allow_plugins``, or a plug-in reference
+        that does not import.
     """
+    check_stage(name, allow_plugins)
     if name in _CACHE:
         return _CACHE[name]
     if name in STAGES:
         fn = STAGES[name][0]
-    elif ":" in name:
-        mod, _, attr = name.partition(":")
+    else:
+        mod, attr = parse_plugin(name)
         try:
-            fn = getattr(importlib.import_module(mod), attr)
+            fn = getattr(_import_plugin(mod), attr)
         except (ImportError, AttributeError, ValueError):
             raise InputError(
-                f"cannot import plug-in stage '{name}' (expected 'package.module:function')",
+                f"cannot import plug-in stage '{name}' (expected 'package.module:function' "
+                "from an installed package or a folder on PYTHONPATH)",
                 key="stage",
             ) from None
         if not callable(fn):
             raise InputError(f"'{name}' is not callable", key="stage")
-    else:
-        raise InputError(
-            f"unknown stage '{name}'; allowed: {', '.join(STAGES)} or 'package.module:function'",
-            key="stage",
-        )
     _CACHE[name] = fn
     return fn
