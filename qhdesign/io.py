@@ -89,9 +89,7 @@ def check_writable(path: str | os.PathLike, source: str | None = None) -> None:
         raise InputError(f"folder '{parent}' is not writable", source=src)
 
 
-def atomic_write_bytes(
-    path: str | os.PathLike, data: bytes, *, source: str | None = None
-) -> Path:
+def atomic_write_bytes(path: str | os.PathLike, data: bytes, *, source: str | None = None) -> Path:
     """Write ``data`` to ``path`` safely (see the module docstring).
 
     Raises

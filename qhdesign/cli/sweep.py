@@ -267,9 +267,7 @@ def register(app: typer.Typer) -> None:
                 "options": _parse_option_pairs(option, "--option"),
                 "space": space,
             }
-            plan = build_plan(
-                doc, source="command line", base_dir=Path.cwd(), allow_plugins=allow
-            )
+            plan = build_plan(doc, source="command line", base_dir=Path.cwd(), allow_plugins=allow)
         else:
             if param or stage or option or lhs:
                 raise InputError(

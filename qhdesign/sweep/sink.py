@@ -93,6 +93,12 @@ class CsvSink:
         side = sidecar_path(self.path)
         if self.path.is_dir():
             raise InputError("is a folder; --out needs a CSV file name", source=str(self.path))
+        if self.path.exists() and not self.path.is_file():
+            # a device or a FIFO: appending rows, resuming and the sidecar need a regular file
+            raise InputError(
+                "is not a regular file (a device or FIFO); sweep results go to a regular CSV file",
+                source=str(self.path),
+            )
         if self.path.suffix.lower() not in (".csv", ".txt", ""):
             raise InputError(
                 f"has suffix '{self.path.suffix}'; sweep results are CSV (use a .csv name)",

@@ -327,6 +327,13 @@ def _range(stack, path: str, spec: Mapping, source: str, *, steps_allowed: bool)
         raise InputError("a range needs 'from' and 'to'", source=source, key=_pkey(path))
     lo = _si(stack, path, spec["from"], source)
     hi = _si(stack, path, spec["to"], source)
+    if lo == hi:
+        raise InputError(
+            f"the range ends are equal ({spec['from']!r} and {spec['to']!r}); give two different "
+            "ends, or a one-value list to fix the parameter",
+            source=source,
+            key=_pkey(path),
+        )
     scale = spec.get("scale", "linear")
     if scale not in ("linear", "log"):
         raise InputError(f"scale {scale!r}; allowed: linear, log", source=source, key=_pkey(path))
@@ -418,7 +425,21 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
         )
     for path in params:
         _check_path(stack, path, source)
-    paths = tuple(params)
+    # one spelling per parameter: two spellings of one parameter would write two columns, and
+    # the rows would follow only one of them (mislabelled rows)
+    canonical: dict[str, str] = {}
+    for path in params:
+        canon = stack.canonical_path(path)
+        if canon in canonical:
+            raise InputError(
+                f"names the same parameter as '{canonical[canon]}' (both are '{canon}'); "
+                "sweep each parameter once",
+                source=source,
+                key=_pkey(path),
+            )
+        canonical[canon] = path
+    paths = tuple(params)  # as the user wrote them (for error messages)
+    canon_paths = tuple(canonical)  # the space and the CSV columns use the one spelling
     if kind == "lhs":
         samples = _int(tab, "samples", "space", source, 1, MAX_DESIGNS)
         seed = _int(tab, "seed", "space", source, 0, 2**63 - 1)
@@ -428,14 +449,24 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
                 raise InputError(
                     "Latin hypercube needs a range table {from, to}", source=source, key=_pkey(path)
                 )
-            ranges.append(_range(stack, path, spec, source, steps_allowed=False)[0])
+            r = _range(stack, path, spec, source, steps_allowed=False)[0]
+            ranges.append(Range(stack.canonical_path(path), r.low, r.high, r.scale))
         sig = {
             "kind": kind,
             "samples": samples,
             "seed": seed,
             "ranges": [(r.path, r.low, r.high, r.scale) for r in ranges],
         }
-        return LatinHypercubeSpace(tuple(ranges), samples, seed), sig
+        space = LatinHypercubeSpace(tuple(ranges), samples, seed)
+        repeats = space.repeated_designs()
+        if repeats:
+            raise InputError(
+                f"{repeats} of the {samples} samples repeat another design exactly (the ranges "
+                "are too narrow for this many samples); widen a range or take fewer samples",
+                source=source,
+                key="space.samples",
+            )
+        return space, sig
     if kind == "grid":
         # refuse an oversized grid before any value is built or checked
         total = 1
@@ -455,9 +486,9 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
         if msg:
             bad = next(p for p, v in zip(paths, values, strict=True) if len(v) != len(values[0]))
             raise InputError(msg, source=source, key=_pkey(bad))
-        space = ZipSpace(paths, values)
+        space = ZipSpace(canon_paths, values)
     else:
-        space = GridSpace(paths, values)
+        space = GridSpace(canon_paths, values)
     for p, v in zip(paths, values, strict=True):
         if len(set(v)) != len(v) and kind == "grid":
             raise InputError(
@@ -469,7 +500,7 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
             source=source,
             key="space.parameters",
         )
-    sig = {"kind": kind, "paths": list(paths), "values": [list(v) for v in values]}
+    sig = {"kind": kind, "paths": list(canon_paths), "values": [list(v) for v in values]}
     return space, sig
 
 

@@ -188,7 +188,9 @@ def available_stages() -> list[str]:
 
 
 _CACHE: dict[str, StageFunc] = {}
-_PLUGIN = re.compile(r"^([A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z_][A-Za-z0-9_]*)*):([A-Za-z_][A-Za-z0-9_]*)$")
+_PLUGIN = re.compile(
+    r"^([A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z_][A-Za-z0-9_]*)*):([A-Za-z_][A-Za-z0-9_]*)$"
+)
 #: Plug-in modules inside qhdesign itself need no opt-in: importing them runs no code the user
 #: has not installed with qhdesign (the test stages of :mod:`qhdesign.sweep.testing`).
 TRUSTED_PREFIX = "qhdesign."
