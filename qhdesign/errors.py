@@ -11,10 +11,10 @@ from collections.abc import Sequence
 
 __all__ = [
     "ConvergenceError",
-    "one_line",
     "InputError",
     "QHDesignError",
     "StackError",
+    "one_line",
 ]
 
 

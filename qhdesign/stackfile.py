@@ -11,7 +11,6 @@ import json
 import math
 import os
 import tomllib
-from pathlib import Path
 from typing import Any
 
 from scipy import constants as sc
