@@ -34,17 +34,18 @@ def one(refine: float) -> dict:
 
     from qhdesign.sp1d import sheet_model, solve_bands
     from qhdesign.stack import load_stack
+    from qhdesign.sweep.stages import island_inputs
     from qhdesign.tf2d import solve_island
 
     stack = load_stack(STACK)
     t0 = time.perf_counter()
     model = sheet_model(stack, solve_bands(stack))
     t_1d = time.perf_counter() - t0
-    solve_island(model, **OPTIONS, refine=refine)  # warm-up: forms into the cache
+    solve_island(model, *island_inputs(**OPTIONS, refine=refine))  # warm-up: forms into the cache
     walls = []
     for _ in range(5 if refine == 1 else 1):
         t0 = time.perf_counter()
-        res = solve_island(model, **OPTIONS, refine=refine)
+        res = solve_island(model, *island_inputs(**OPTIONS, refine=refine))
         walls.append(time.perf_counter() - t0)
     d = res.to_dict()
     return {

@@ -20,19 +20,33 @@ def _load(stack_file: Path):
     return stack
 
 
-def _temperature(value: str | None):
+def _temperature(value: str | None, stack=None):
+    """A solve-temperature option, under the stack file's rules (above 0 K, at most 400 K and at
+    most the donor freeze-out temperature)."""
     if value is None:
         return None
-    from qhdesign.errors import InputError
+    from qhdesign.limits import check_solve_temperature
 
     t = option_quantity(value, "temperature", "--temperature")
-    if not (t > 0.0) or t > 400.0:
-        raise InputError(
-            f"temperature {value} is out of range; allowed above 0 K up to 400 K "
-            '(e.g. "10 mK", "4.2 K")',
-            source="option --temperature",
-        )
-    return t
+    freeze = stack.freeze_temperature if stack is not None else 400.0
+    return check_solve_temperature(t, freeze, key="temperature")
+
+
+#: Argument names of the 1D physics (error keys) -> options of ``bands``, ``gate``, ``calibrate``.
+BANDS_OPTIONS = {"gate_voltage": "--gate", "temperature": "--temperature", "field_T": "--field"}
+GATE_OPTIONS = {
+    "v_from": "--from",
+    "v_to": "--to",
+    "step": "--step",
+    "cool_bias": "--cool-bias",
+    "temperature": "--temperature",
+}
+CALIBRATE_OPTIONS = {
+    "well": "--well",
+    "parameter": "--parameter",
+    "bracket": "--range",
+    "measured": "--density",
+}
 
 
 def _print_bands(r) -> None:
@@ -102,7 +116,7 @@ def _print_bands(r) -> None:
 
 def register(app: typer.Typer) -> None:
     @app.command("bands")
-    @guarded
+    @guarded(options=BANDS_OPTIONS)
     def bands(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         gate: str | None = typer.Option(
@@ -118,21 +132,14 @@ def register(app: typer.Typer) -> None:
         plot: Path | None = typer.Option(None, "--plot", help="Write the band diagram."),
     ) -> None:
         """Self-consistent subbands and the charge in each well (donors frozen at freeze-out)."""
-        from qhdesign.errors import InputError
         from qhdesign.sp1d import BandsOptions, solve_bands
 
         stack = _load(stack_file)
-        v = option_quantity(gate, "voltage", "--gate")
-        t = _temperature(temperature)
-        b = option_quantity(field, "field", "--field")
-        if b is not None and not (0.0 < b <= 100.0):
-            raise InputError(
-                "field out of range; allowed above 0 T up to 100 T", source="option --field"
-            )
-        if v is not None:
-            from qhdesign.sp1d.solve import check_gate_voltage
+        from qhdesign.limits import check_field
 
-            check_gate_voltage(stack, v, "--gate")
+        v = option_quantity(gate, "voltage", "--gate")
+        t = _temperature(temperature, stack)
+        b = check_field(option_quantity(field, "field", "--field"))
         r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
         _print_bands(r)
         if json_out is not None:
@@ -148,7 +155,7 @@ def register(app: typer.Typer) -> None:
             typer.echo(f"wrote {plot}")
 
     @app.command("gate")
-    @guarded
+    @guarded(options=GATE_OPTIONS)
     def gate_cmd(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         v_from: str = typer.Option(..., "--from", help="First gate voltage (V)."),
@@ -174,11 +181,10 @@ def register(app: typer.Typer) -> None:
         s = option_quantity(step, "voltage", "--step")
         cb = option_quantity(cool_bias, "voltage", "--cool-bias")
         fl = option_quantity(forward_limit, "voltage", "--forward-limit")
-        t = _temperature(temperature)
+        t = _temperature(temperature, stack)
         from qhdesign.sp1d.solve import check_gate_voltage
 
-        for value, option in ((a, "--from"), (b, "--to"), (cb, "--cool-bias")):
-            check_gate_voltage(stack, value, option)
+        check_gate_voltage(stack, cb, "cool_bias", "cool-down bias")
         g = gate_response(
             stack, a, b, s, cool_bias=cb, temperature=t, options=BandsOptions(forward_limit_V=fl)
         )
@@ -230,7 +236,7 @@ def register(app: typer.Typer) -> None:
             typer.echo(f"wrote {plot}")
 
     @app.command("calibrate")
-    @guarded
+    @guarded(options=CALIBRATE_OPTIONS)
     def calibrate_cmd(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         parameter: str = typer.Option(

@@ -46,9 +46,24 @@ def _print(res) -> None:
     console.print(t)
 
 
+#: Argument names of the island physics (error keys) -> options of ``island``.
+ISLAND_OPTIONS = {
+    "radius_m": "--radius",
+    "ring_width_m": "--ring-width",
+    "gate_offset_m": "--gate-offset",
+    "split_gap_m": "--split-gap",
+    "filling": "--filling",
+    "gap_energy_J": "--gap",
+    "screening": "--screening",
+    "surface": "--surface",
+    "far": "--far",
+    "refine": "--refine",
+}
+
+
 def register(app: typer.Typer) -> None:
     @app.command("island")
-    @guarded
+    @guarded(options=ISLAND_OPTIONS)
     def island(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         radius: str = typer.Option(
@@ -93,11 +108,13 @@ def register(app: typer.Typer) -> None:
         ),
     ) -> None:
         """Capacitance matrix, K_I, K_L, K_IL and charging energy of an island in STACK_FILE."""
-        from qhdesign.errors import InputError
+        from dataclasses import replace
+
+        from qhdesign.limits import check_refine
         from qhdesign.stack import load_stack
-        from qhdesign.tf2d import IslandGeometry, solve_island
+        from qhdesign.sweep.stages import parse_filling
+        from qhdesign.tf2d import IslandGeometry, IslandSettings, solve_island
         from qhdesign.tf2d.backend import load
-        from qhdesign.tf2d.island import parse_filling
 
         geometry = IslandGeometry(
             radius_m=option_quantity(radius, "length", "--radius"),
@@ -105,19 +122,17 @@ def register(app: typer.Typer) -> None:
             gate_offset_m=option_quantity(gate_offset, "length", "--gate-offset"),
             split_gap_m=option_quantity(split_gap, "length", "--split-gap"),
         )
-        if not 0.25 <= refine <= 4:
-            raise InputError("refine must lie in [0.25, 4]", source="option --refine")
-        options = {
-            "screening": screening,
-            "surface": surface,
-            "far": far,
-            "outer_well": outer_well,
-            "filling": parse_filling(filling),
-            "gap": None if gap is None else str(gap),  # parsed (unit required) by the stage
-            "refine": refine,
-        }
+        settings = IslandSettings(
+            screening=screening,
+            surface=surface,
+            far=far,
+            outer_well=outer_well,
+            filling=parse_filling(filling, key="filling"),
+            gap_energy_J=option_quantity(gap, "energy", "--gap"),
+        )
+        settings = replace(settings, mesh=replace(settings.mesh, refine=check_refine(refine)))
         stack = load_stack(stack_file)
-        res = solve_island(stack, geometry, keep_potentials=plot is not None, **options)
+        res = solve_island(stack, geometry, settings, keep_potentials=plot is not None)
         MPI, _ = load()
         if MPI.COMM_WORLD.rank != 0:
             return

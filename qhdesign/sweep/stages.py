@@ -56,7 +56,7 @@ def _quantity(value: Any, dimension: str, key: str) -> float:
     return float(value)
 
 
-def _bands_options(options: dict[str, Any], stage: str):
+def _bands_options(options: dict[str, Any], stage: str, stack=None):
     """Split spec options into solver keywords and a ``BandsOptions`` (SI-suffixed fields)."""
     import dataclasses
 
@@ -67,7 +67,12 @@ def _bands_options(options: dict[str, Any], stage: str):
     bo: dict[str, Any] = {}
     for key, value in options.items():
         if key == "temperature":
-            kw[key] = _quantity(value, "temperature", key)
+            from qhdesign.limits import check_solve_temperature
+
+            # the stack file's rule: at most the donor freeze-out temperature
+            freeze = stack.freeze_temperature if stack is not None else 400.0
+            t = _quantity(value, "temperature", key)
+            kw[key] = check_solve_temperature(t, freeze, key=f"options.{key}")
         elif key == "gate_voltage" and stage == "bands":
             kw[key] = _quantity(value, "voltage", key)
         elif key == "cool_bias" and stage == "gate":
@@ -89,9 +94,22 @@ def _bands_options(options: dict[str, Any], stage: str):
     return kw
 
 
+#: Argument names of the 1D physics (error keys) -> spec option names.
+BANDS_KEYS = {k: k for k in ("gate_voltage", "temperature", "cool_bias", "v_from", "v_to", "step")}
+#: Argument names of the 2D edge physics (error keys) -> spec option names.
+EDGE_KEYS = {
+    "gate_voltage_V": "gate_voltage",
+    "field_T": "field",
+    "filling": "filling",
+    "gap_energy_J": "gap_energy",
+    "perimeter_m": "perimeter",
+}
+
+
 def _bands(stack, **options):
     fn = _import("qhdesign.sp1d", "solve_bands", "bands")
-    return _summary(fn(stack, **_bands_options(options, "bands")))
+    with spec_keys(BANDS_KEYS):
+        return _summary(fn(stack, **_bands_options(options, "bands", stack)))
 
 
 def _gate(stack, v_from=None, v_to=None, step=None, **options):
@@ -101,7 +119,8 @@ def _gate(stack, v_from=None, v_to=None, step=None, **options):
         if v is None:
             raise InputError("the gate stage needs v_from, v_to and step", key=f"options.{name}")
         volts.append(_quantity(v, "voltage", name))
-    return _summary(fn(stack, *volts, **_bands_options(options, "gate")))
+    with spec_keys(BANDS_KEYS):
+        return _summary(fn(stack, *volts, **_bands_options(options, "gate", stack)))
 
 
 def flatten(d: dict, prefix: str = "") -> dict[str, float]:
@@ -129,14 +148,17 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
 
     if gate_voltage is None:
         raise InputError("the edge stage needs gate_voltage", key="options.gate_voltage")
-    settings = EdgeSettings(
-        gate_voltage_V=_quantity(gate_voltage, "voltage", "gate_voltage"),
-        field_T=None if field is None else _quantity(field, "field", "field"),
-        filling=None if filling is None else float(filling),
-        gap_energy_J=None if gap_energy is None else _quantity(gap_energy, "energy", "gap_energy"),
-        perimeter_m=None if perimeter is None else _quantity(perimeter, "length", "perimeter"),
-    )
-    res = solve_edge(section_from_stack(stack), settings, comm=MPI.COMM_SELF)
+    with spec_keys(EDGE_KEYS):
+        settings = EdgeSettings(
+            gate_voltage_V=_quantity(gate_voltage, "voltage", "gate_voltage"),
+            field_T=None if field is None else _quantity(field, "field", "field"),
+            filling=parse_filling(filling),
+            gap_energy_J=None
+            if gap_energy is None
+            else _quantity(gap_energy, "energy", "gap_energy"),
+            perimeter_m=None if perimeter is None else _quantity(perimeter, "length", "perimeter"),
+        )
+        res = solve_edge(section_from_stack(stack), settings, comm=MPI.COMM_SELF)
     if hasattr(res, "summary"):
         return _summary(res)
     d = res.to_dict()
@@ -144,11 +166,131 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
     return flatten(d)
 
 
+#: Island options of a sweep spec: lengths (strings with units, or SI numbers).
+_ISLAND_LENGTHS = ("radius", "ring_width", "gate_offset", "split_gap", "outer_radius")
+_ISLAND_OPTIONS = (
+    *_ISLAND_LENGTHS,
+    "screening",
+    "surface",
+    "far",
+    "outer_well",
+    "filling",
+    "gap",
+    "degree",
+    "refine",
+)
+#: The island's argument names (error keys of the physics) -> the spec's option names.
+ISLAND_KEYS = {
+    **{f"{k}_m": k for k in _ISLAND_LENGTHS},
+    "gap_energy_J": "gap",
+    **{k: k for k in ("screening", "surface", "far", "outer_well", "filling", "degree")},
+    "refine": "refine",
+}
+
+
+def parse_filling(value: Any, key: str = "options.filling") -> float | None:
+    """A filling from a number or a fraction string ("1/3")."""
+    from fractions import Fraction
+
+    if value is None:
+        return None
+    try:
+        return float(Fraction(str(value).strip()))
+    except (ValueError, ZeroDivisionError):
+        raise InputError(
+            f"cannot read filling {shorten_value(value)}; give 1/m (1, 1/3, 1/5)", key=key
+        ) from None
+
+
+def shorten_value(value: Any) -> str:
+    from qhdesign.units import shorten
+
+    return repr(shorten(value)) if isinstance(value, str) else shorten(value)
+
+
+def island_inputs(**options: Any):
+    """Spec options of the island stage -> ``(IslandGeometry, IslandSettings)``.
+
+    Lengths and the gap are strings with units (or SI numbers for lengths), ``filling`` a number
+    or a fraction string; errors name ``options.<key>``.
+    """
+    from dataclasses import replace
+
+    from qhdesign.tf2d.island import IslandGeometry, IslandSettings
+
+    geo: dict[str, float] = {}
+    st: dict[str, Any] = {}
+    mesh: dict[str, Any] = {}
+    for key, value in options.items():
+        k = f"options.{key}"
+        if key in _ISLAND_LENGTHS:
+            if value is not None:
+                geo[f"{key}_m"] = _quantity(value, "length", key)
+        elif key in ("screening", "surface", "far"):
+            if value is not None:
+                st[key] = str(value)
+        elif key == "outer_well":
+            text = str(value).strip().lower()
+            if isinstance(value, bool) or text in ("true", "false"):
+                st[key] = value if isinstance(value, bool) else text == "true"
+            else:
+                raise InputError(f"expected true or false, got {shorten_value(value)}", key=k)
+        elif key == "filling":
+            st[key] = parse_filling(value, k)
+        elif key == "gap":
+            if value is not None:
+                # a quantity needs its unit (a bare 0.5 would be 0.5 J)
+                from qhdesign.units import parse_quantity
+
+                st["gap_energy_J"] = parse_quantity(value, "energy", key=k)
+        elif key == "degree":
+            if value not in (1, 2) or isinstance(value, bool):
+                raise InputError(
+                    f"element degree must be 1 or 2, got {shorten_value(value)}", key=k
+                )
+            mesh[key] = int(value)
+        elif key == "refine":
+            from qhdesign.limits import check_refine
+
+            mesh[key] = check_refine(value, key=k)
+        else:
+            raise InputError(f"unknown island option; allowed: {', '.join(_ISLAND_OPTIONS)}", key=k)
+    if "radius_m" not in geo:
+        raise InputError("the island needs a radius (e.g. '0.8 um')", key="options.radius")
+    with spec_keys(ISLAND_KEYS):
+        geometry = IslandGeometry(**geo)
+        settings = IslandSettings(**st)
+        if mesh:
+            settings = replace(settings, mesh=replace(settings.mesh, **mesh))
+    return geometry, settings
+
+
+class spec_keys:
+    """Context manager: an :class:`InputError` the physics keyed by an argument name in
+    ``mapping`` is re-raised keyed ``options.<spec key>`` (a sweep user reads spec keys, never
+    command-line options or Python argument names)."""
+
+    def __init__(self, mapping: dict[str, str]):
+        self.mapping = mapping
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, kind, exc, tb):
+        if isinstance(exc, InputError) and exc.source is None and exc.key is not None:
+            names = [k for k in (exc.key, *exc.related) if k in self.mapping]
+            if names:
+                raise type(exc)(exc.message, key=f"options.{self.mapping[names[0]]}") from None
+        return False
+
+
 def _island(stack, **options):
     solve_island = _import("qhdesign.tf2d", "solve_island", "island")
     from mpi4py import MPI  # one serial solve per design, as in _edge
 
-    return _summary(solve_island(stack, comm=MPI.COMM_SELF, **options))
+    geometry, settings = island_inputs(**options)
+    with spec_keys(ISLAND_KEYS):
+        return _summary(solve_island(stack, geometry, settings, comm=MPI.COMM_SELF))
 
 
 #: Built-in stages: name -> (callable, one-line description).

@@ -47,6 +47,16 @@ class PinchoffResult:
     #: first voltage) or "open" (never pinched within the sweep)
     status: dict = field(default_factory=dict)
 
+    def table(self) -> str:
+        """Centre density per well vs gate voltage as CSV text (V, cm^-2)."""
+        from qhdesign.io import csv_text
+
+        cols = ["gate_voltage_V"] + [f"{k}_centre_density_cm^-2" for k in self.centre_density_m2]
+        rows = np.column_stack(
+            [self.voltages_V] + [np.asarray(v) * 1e-4 for v in self.centre_density_m2.values()]
+        )
+        return csv_text(cols, rows)
+
     def to_dict(self) -> dict:
         return {
             "gap_m": self.gap_m,
@@ -83,9 +93,9 @@ def solve_pinchoff(
     pinched within the sweep gets None, and its ``status`` says which.
     """
     if not gap_m > 0:
-        raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
-    for v in (v_start, v_stop):
-        _check_gate_voltage(section, v)
+        raise InputError(f"gap must be > 0, got {gap_m:g} m", key="gap_m")
+    _check_gate_voltage(section, v_start, "v_start")
+    _check_gate_voltage(section, v_stop, "v_stop")
     if not any(s.density_m2 > 0.0 for s in section.sheets):
         raise InputError("the stack has no electrons at zero gate bias; nothing to pinch off")
     solver = _split_solver(section, gap_m, mesh_options, options, comm)
@@ -161,6 +171,14 @@ class ConstrictionResult:
     gates_m: tuple = ()
     solver: object = field(default=None, repr=False)
 
+    def table(self) -> str:
+        """Density per well across the constriction as CSV text (x in nm, cm^-2)."""
+        from qhdesign.io import csv_text
+
+        sol = self.solution
+        cols = ["x_nm"] + [f"{n}_density_cm^-2" for n in sol.sheet_names]
+        return csv_text(cols, np.column_stack([sol.x_m * 1e9, *(sol.density_m2 * 1e-4)]))
+
     def to_dict(self) -> dict:
         return {
             "gap_m": self.gap_m,
@@ -189,8 +207,8 @@ def solve_constriction(
 ) -> ConstrictionResult:
     """Solve a split gate of gap ``gap_m`` at one gate voltage (metal over |x| > gap/2)."""
     if not gap_m > 0:
-        raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
-    _check_gate_voltage(section, gate_voltage_V)
+        raise InputError(f"gap must be > 0, got {gap_m:g} m", key="gap_m")
+    _check_gate_voltage(section, gate_voltage_V, "gate_voltage_V")
     if not any(s.density_m2 > 0.0 for s in section.sheets):
         raise InputError("the stack has no electrons at zero gate bias; nothing to pinch off")
     solver = _split_solver(section, gap_m, mesh_options, options, comm)

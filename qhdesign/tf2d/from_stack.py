@@ -11,7 +11,28 @@ from qhdesign.errors import InputError
 
 from .model import CrossSection
 
-__all__ = ["refuse_gate_dielectric", "section_from_stack"]
+__all__ = ["exposed_surface_model", "refuse_gate_dielectric", "section_from_stack"]
+
+#: Schottky barriers of a gate metal the 2D stage accepts (J): above 0, below 3 eV.
+GATE_BARRIER_RANGE_J = (0.0, 3.0 * sc.e)
+SURFACE_MODELS = ("frozen", "pinned")
+
+
+def exposed_surface_model(stack, section, requested: str | None = None) -> str:
+    """The exposed-surface model of a 2D solve of ``stack``.
+
+    ``requested`` (``"frozen"`` or ``"pinned"``) or, by default, the section's own (frozen for
+    an exposed surface with frozen charge). A stack with a global top gate has no exposed
+    surface: its metal is a Dirichlet surface, so the model is always ``"pinned"``.
+    """
+    if requested is not None and requested not in SURFACE_MODELS:
+        raise InputError(
+            f"'{requested}' is not a surface model; allowed: {', '.join(SURFACE_MODELS)}",
+            key="surface",
+        )
+    if stack.surface.kind != "exposed":
+        return "pinned"
+    return requested or section.surface_mode
 
 
 def refuse_gate_dielectric(stack, stage: str) -> None:
@@ -42,6 +63,13 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSe
     except ImportError as exc:  # the 1D stage is a separate issue
         raise InputError(f"the 1D stage is not available ({exc})") from None
     refuse_gate_dielectric(stack, "the 2D stage")
+    lo, hi = GATE_BARRIER_RANGE_J
+    if gate_barrier_J is not None and not lo < gate_barrier_J < hi:
+        raise InputError(
+            f"gate barrier {gate_barrier_J / sc.e:.4g} eV is out of range; allowed between "
+            f"{lo / sc.e:g} and {hi / sc.e:g} eV",
+            key="gate_barrier_J",
+        )
     result = solve_bands(stack)
     section = cross_section_from_sheet_model(
         sheet_model(stack, result), gate_barrier_J=gate_barrier_J

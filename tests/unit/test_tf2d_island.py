@@ -8,6 +8,7 @@ import math
 import pytest
 
 from qhdesign.errors import InputError
+from qhdesign.sweep.stages import island_inputs
 from qhdesign.tf2d import IslandGeometry, IslandSettings, solve_island
 
 
@@ -50,11 +51,11 @@ def test_option_errors_before_any_solve(screened_path):
 
     stack = load_stack(screened_path)
     with pytest.raises(InputError, match="--radius"):
-        solve_island(stack, ring_width="40 nm")  # no radius
+        solve_island(stack, *island_inputs(ring_width="40 nm"))  # no radius
     with pytest.raises(InputError, match="--radius"):
-        solve_island(stack, radius="0.8")  # no unit
+        solve_island(stack, *island_inputs(radius="0.8"))  # no unit
     with pytest.raises(InputError, match=r"options\.colour"):
-        solve_island(stack, radius="0.8 um", colour="red")
+        solve_island(stack, *island_inputs(radius="0.8 um", colour="red"))
     # a bare gap would be 0.5 J; strings that are not booleans; a fractional element degree
     for bad, option in (
         ({"gap": 0.5, "filling": "1/3"}, "--gap"),
@@ -64,7 +65,7 @@ def test_option_errors_before_any_solve(screened_path):
         ({"refine": 0.001}, "--refine"),
     ):
         with pytest.raises(InputError, match=option):
-            solve_island(stack, radius="0.8 um", **bad)
+            solve_island(stack, *island_inputs(radius="0.8 um", **bad))
 
 
 def test_sweep_stage_gives_flat_floats(screened_path):
@@ -97,14 +98,16 @@ def test_sheet_model_source_keeps_the_substrate_and_the_stack_surface_model(tmp_
     from qhdesign.sp1d import sheet_model, solve_bands
 
     stack = _ql2403(tmp_path, **{'kind = "deep"': 'kind = "back_gate"\nbarrier = "0.7 eV"'})
-    a = solve_island(stack, radius="0.8 um")
-    b = solve_island(sheet_model(stack, solve_bands(stack)), radius="0.8 um")
+    a = solve_island(stack, *island_inputs(radius="0.8 um"))
+    b = solve_island(sheet_model(stack, solve_bands(stack)), *island_inputs(radius="0.8 um"))
     assert b.to_dict()["K_IL_over_K_I"] == pytest.approx(a.to_dict()["K_IL_over_K_I"], rel=1e-9)
     # a stack whose exposed surface is pinned gets a pinned surface by default (was: frozen)
     pinned = _ql2403(tmp_path, **{'kind = "exposed"': 'kind = "exposed"\ncharge = "pinned"'})
-    r = solve_island(pinned, radius="0.8 um")
+    r = solve_island(pinned, *island_inputs(radius="0.8 um"))
     assert r.settings.surface == "pinned"
     assert r.to_dict()["K_IL_over_K_I"] == pytest.approx(
-        solve_island(pinned, radius="0.8 um", surface="pinned").to_dict()["K_IL_over_K_I"],
+        solve_island(pinned, *island_inputs(radius="0.8 um", surface="pinned")).to_dict()[
+            "K_IL_over_K_I"
+        ],
         rel=1e-12,
     )

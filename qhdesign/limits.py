@@ -1,0 +1,125 @@
+"""Model limits shared by every stage: one rule each, written once.
+
+The physics raises :class:`~qhdesign.errors.InputError` keyed by its own argument name
+(``key="gate_voltage_V"``, no ``source``); the command line names the option the user typed and
+a sweep names the spec key (see ``qhdesign.cli.common.translate`` and ``qhdesign.sweep.stages``).
+"""
+
+from __future__ import annotations
+
+import math
+
+from scipy import constants as sc
+
+from .errors import InputError
+
+__all__ = [
+    "MAX_FIELD_T",
+    "MIN_GATE_VOLTAGE_V",
+    "MIN_LAYER_THICKNESS_M",
+    "REFINE_RANGE",
+    "check_field",
+    "check_gate_voltage",
+    "check_refine",
+    "check_solve_temperature",
+]
+
+#: Most negative gate bias modelled (V): beyond it the gate dielectric or the Schottky contact
+#: breaks down in practice (common practice for GaAs depletion gates).
+MIN_GATE_VOLTAGE_V = -20.0
+#: Largest perpendicular magnetic field accepted (T): above the highest static laboratory
+#: fields (common practice).
+MAX_FIELD_T = 100.0
+#: Thinnest layer accepted: one monolayer of GaAs, a/2 with a = 0.56533 nm (Vurgaftman, Meyer,
+#: Ram-Mohan, J. Appl. Phys. 89, 5815 (2001), Table III). A thinner "layer" is not a layer.
+MIN_LAYER_THICKNESS_M = 0.5 * 0.56533e-9
+
+
+def check_gate_voltage(
+    v: float,
+    barrier_J: float,
+    key: str = "gate_voltage_V",
+    *,
+    what: str = "gate voltage",
+    barrier_name: str = "surface.barrier",
+) -> float:
+    """The one gate-voltage rule of every stage: ``-20 V <= v < barrier / e``.
+
+    At and above the Schottky barrier a metal gate conducts (forward current), so ``v`` equal to
+    the barrier is refused too, in 1D and in 2D alike.
+
+    Parameters
+    ----------
+    v
+        Gate voltage (V).
+    barrier_J
+        Schottky barrier of the gate metal (J).
+    key
+        The caller's argument name, the key of the error.
+    what
+        How the message names the value ("gate voltage", "cool-down bias").
+    barrier_name
+        Where the barrier comes from, for the message.
+    """
+    vmax = barrier_J / sc.e
+    if v is None or isinstance(v, bool) or not math.isfinite(v):
+        raise InputError(f"{what} must be a finite number, got {v}", key=key)
+    if v >= vmax:
+        raise InputError(
+            f"{what} {v:+.3f} V is past the Schottky barrier ({vmax:.3f} eV, {barrier_name}): "
+            f"the gate would conduct; allowed {MIN_GATE_VOLTAGE_V:g} V up to below {vmax:+.3f} V",
+            key=key,
+        )
+    if v < MIN_GATE_VOLTAGE_V:
+        raise InputError(
+            f"{what} {v:+.3f} V is below {MIN_GATE_VOLTAGE_V:g} V (gate breakdown range); "
+            f"allowed {MIN_GATE_VOLTAGE_V:g} V up to below {vmax:+.3f} V",
+            key=key,
+        )
+    return float(v)
+
+
+def check_field(b: float | None, key: str = "field_T") -> float | None:
+    """A perpendicular field: ``0 T < B <= 100 T`` (``None`` passes: no field)."""
+    if b is None:
+        return None
+    if isinstance(b, bool) or not math.isfinite(b) or not 0.0 < b <= MAX_FIELD_T:
+        raise InputError(
+            f"field {b:g} T is out of range; allowed above 0 T up to {MAX_FIELD_T:g} T", key=key
+        )
+    return float(b)
+
+
+def check_solve_temperature(t: float, freeze_temperature: float, key: str = "temperature") -> float:
+    """A solve temperature: above 0 K, at most 400 K and at most the donor freeze-out
+    temperature (the donors' charge is frozen there; a hotter solve would unfreeze it)."""
+    if t is None or isinstance(t, bool) or not math.isfinite(t) or not 0.0 < t <= 400.0:
+        raise InputError(
+            f"temperature {t} K is out of range; allowed above 0 K up to 400 K", key=key
+        )
+    if t > freeze_temperature:
+        raise InputError(
+            f"temperature {t:g} K is above the donor freeze-out temperature "
+            f"{freeze_temperature:g} K (wafer.freeze_temperature); allowed up to "
+            f"{freeze_temperature:g} K",
+            key=key,
+        )
+    return float(t)
+
+
+#: Mesh refinement factors accepted by every FEM stage (1 = the default mesh; cell sizes scale
+#: as 1/refine). Below 0.25 the meshes no longer resolve the sheets; above 4 a solve takes
+#: tens of times the default (docs/performance.md).
+REFINE_RANGE = (0.25, 4.0)
+
+
+def check_refine(value: object, key: str = "refine") -> float:
+    """A mesh refinement factor within :data:`REFINE_RANGE` (a plain number)."""
+    lo, hi = REFINE_RANGE
+    try:
+        ref = float(value) if not isinstance(value, bool) else math.nan
+    except (TypeError, ValueError):
+        ref = math.nan
+    if not lo <= ref <= hi:
+        raise InputError(f"refine must lie in [{lo:g}, {hi:g}], got {value!r}", key=key)
+    return ref
