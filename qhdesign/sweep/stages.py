@@ -148,7 +148,14 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
 
     if gate_voltage is None:
         raise InputError("the edge stage needs gate_voltage", key="options.gate_voltage")
-    with spec_keys(EDGE_KEYS):
+    values = {
+        "gate_voltage": gate_voltage,
+        "field": field,
+        "filling": filling,
+        "gap_energy": gap_energy,
+        "perimeter": perimeter,
+    }
+    with spec_keys(EDGE_KEYS, {k for k, v in values.items() if v is not None}):
         settings = EdgeSettings(
             gate_voltage_V=_quantity(gate_voltage, "voltage", "gate_voltage"),
             field_T=None if field is None else _quantity(field, "field", "field"),
@@ -257,7 +264,7 @@ def island_inputs(**options: Any):
             raise InputError(f"unknown island option; allowed: {', '.join(_ISLAND_OPTIONS)}", key=k)
     if "radius_m" not in geo:
         raise InputError("the island needs a radius (e.g. '0.8 um')", key="options.radius")
-    with spec_keys(ISLAND_KEYS):
+    with spec_keys(ISLAND_KEYS, options):
         geometry = IslandGeometry(**geo)
         settings = IslandSettings(**st)
         if mesh:
@@ -270,8 +277,9 @@ class spec_keys:
     ``mapping`` is re-raised keyed ``options.<spec key>`` (a sweep user reads spec keys, never
     command-line options or Python argument names)."""
 
-    def __init__(self, mapping: dict[str, str]):
+    def __init__(self, mapping: dict[str, str], given=()):
         self.mapping = mapping
+        self.given = set(given)  # spec keys the user wrote: named first
 
     def __enter__(self):
         return self
@@ -280,7 +288,8 @@ class spec_keys:
         if isinstance(exc, InputError) and exc.source is None and exc.key is not None:
             names = [k for k in (exc.key, *exc.related) if k in self.mapping]
             if names:
-                raise type(exc)(exc.message, key=f"options.{self.mapping[names[0]]}") from None
+                pick = next((n for n in names if self.mapping[n] in self.given), names[0])
+                raise type(exc)(exc.message, key=f"options.{self.mapping[pick]}") from None
         return False
 
 
@@ -289,7 +298,7 @@ def _island(stack, **options):
     from mpi4py import MPI  # one serial solve per design, as in _edge
 
     geometry, settings = island_inputs(**options)
-    with spec_keys(ISLAND_KEYS):
+    with spec_keys(ISLAND_KEYS, options):
         return _summary(solve_island(stack, geometry, settings, comm=MPI.COMM_SELF))
 
 
