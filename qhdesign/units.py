@@ -26,6 +26,7 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "area": ("[length]**2", "m**2", "1 um^2"),
     "velocity": ("[length]/[time]", "m/s", "5e4 m/s"),
     "electric_field": ("[electric_potential]/[length]", "V/m", "1e6 V/m"),
+    "mobility": ("[length]**2/[electric_potential]/[time]", "m**2/V/s", "1e6 cm^2/Vs"),
 }
 
 _NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d{1,3})?"
@@ -153,7 +154,9 @@ def parse_quantity(
         raise InputError(f"'{shorten(value)}' is not a finite number", source=source, key=key)
     ureg = registry()
     try:
-        q = ureg.Quantity(number, match["unit"].replace("^", "**"))
+        # "cm^2/Vs" is how mobilities are written: V times s in the denominator
+        unit = re.sub(r"/\s*Vs\b", "/(V*s)", match["unit"]).replace("^", "**")
+        q = ureg.Quantity(number, unit)
     except Exception:  # pint raises several unrelated types on garbage
         raise InputError(
             f"cannot read '{value}' as a {dimension.replace('_', ' ')}; "

@@ -110,9 +110,9 @@ def register(app: typer.Typer) -> None:
         """Capacitance matrix, K_I, K_L, K_IL and charging energy of an island in STACK_FILE."""
         from dataclasses import replace
 
+        from qhdesign.island_options import parse_filling
         from qhdesign.limits import check_refine
         from qhdesign.stack import load_stack
-        from qhdesign.sweep.stages import parse_filling
         from qhdesign.tf2d import IslandGeometry, IslandSettings, solve_island
         from qhdesign.tf2d.backend import load
 

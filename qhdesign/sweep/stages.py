@@ -85,6 +85,7 @@ def _bands_options(options: dict[str, Any], stage: str, stack=None):
             bo[key] = float(value)
         else:
             own = ["temperature", "gate_voltage" if stage == "bands" else "cool_bias"]
+            own += ["disorder", *_DISORDER_KEYS] if stage == "bands" else []
             raise InputError(
                 f"unknown option of stage '{stage}'; allowed: {', '.join(own + sorted(fields))}",
                 key=f"options.{key}",
@@ -104,12 +105,35 @@ EDGE_KEYS = {
     "gap_energy_J": "gap_energy",
     "perimeter_m": "perimeter",
 }
+#: Options of the ``bands`` stage that switch on the disorder estimate (spec value with unit
+#: -> ScatteringOptions field); ``disorder = true`` switches it on with the defaults.
+_DISORDER_KEYS = {
+    "background": ("volume_density", "background_m3"),
+    "roughness_height": ("length", "roughness_height_m"),
+    "roughness_length": ("length", "roughness_length_m"),
+    "min_mobility": ("mobility", "min_mobility_m2_Vs"),
+}
 
 
 def _bands(stack, **options):
     fn = _import("qhdesign.sp1d", "solve_bands", "bands")
+    dis = {k: options.pop(k) for k in list(options) if k in _DISORDER_KEYS}
+    on = options.pop("disorder", False)
+    if not isinstance(on, bool):
+        raise InputError("expected true or false", key="options.disorder")
     with spec_keys(BANDS_KEYS):
-        return _summary(fn(stack, **_bands_options(options, "bands", stack)))
+        result = fn(stack, **_bands_options(options, "bands", stack))
+    out = _summary(result)
+    if on or dis:
+        from qhdesign.sp1d.scattering import ScatteringOptions, scattering
+
+        kw = {_DISORDER_KEYS[k][1]: _quantity(v, _DISORDER_KEYS[k][0], k) for k, v in dis.items()}
+        try:
+            sopts = ScatteringOptions(**kw)
+        except InputError as exc:
+            raise InputError(exc.message, key=f"options.{exc.key}") from None
+        out.update(scattering(result, sopts).summary())
+    return out
 
 
 def _gate(stack, v_from=None, v_to=None, step=None, **options):
@@ -173,133 +197,29 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
     return flatten(d)
 
 
-#: Island options of a sweep spec: lengths (strings with units, or SI numbers).
-_ISLAND_LENGTHS = ("radius", "ring_width", "gate_offset", "split_gap", "outer_radius")
-_ISLAND_OPTIONS = (
-    *_ISLAND_LENGTHS,
-    "screening",
-    "surface",
-    "far",
-    "outer_well",
-    "filling",
-    "gap",
-    "degree",
-    "refine",
+from qhdesign.island_options import (  # noqa: E402  (front-end parsing shared with the CLI)
+    ISLAND_KEYS,
+    parse_filling,
+    spec_keys,
 )
-#: The island's argument names (error keys of the physics) -> the spec's option names.
-ISLAND_KEYS = {
-    **{f"{k}_m": k for k in _ISLAND_LENGTHS},
-    "gap_energy_J": "gap",
-    **{k: k for k in ("screening", "surface", "far", "outer_well", "filling", "degree")},
-    "refine": "refine",
-}
-
-
-def parse_filling(value: Any, key: str = "options.filling") -> float | None:
-    """A filling from a number or a fraction string ("1/3")."""
-    from fractions import Fraction
-
-    if value is None:
-        return None
-    try:
-        return float(Fraction(str(value).strip()))
-    except (ValueError, ZeroDivisionError):
-        raise InputError(
-            f"cannot read filling {shorten_value(value)}; give 1/m (1, 1/3, 1/5)", key=key
-        ) from None
-
-
-def shorten_value(value: Any) -> str:
-    from qhdesign.units import shorten
-
-    return repr(shorten(value)) if isinstance(value, str) else shorten(value)
-
-
-def island_inputs(**options: Any):
-    """Spec options of the island stage -> ``(IslandGeometry, IslandSettings)``.
-
-    Lengths and the gap are strings with units (or SI numbers for lengths), ``filling`` a number
-    or a fraction string; errors name ``options.<key>``.
-    """
-    from dataclasses import replace
-
-    from qhdesign.tf2d.island import IslandGeometry, IslandSettings
-
-    geo: dict[str, float] = {}
-    st: dict[str, Any] = {}
-    mesh: dict[str, Any] = {}
-    for key, value in options.items():
-        k = f"options.{key}"
-        if key in _ISLAND_LENGTHS:
-            if value is not None:
-                geo[f"{key}_m"] = _quantity(value, "length", key)
-        elif key in ("screening", "surface", "far"):
-            if value is not None:
-                st[key] = str(value)
-        elif key == "outer_well":
-            text = str(value).strip().lower()
-            if isinstance(value, bool) or text in ("true", "false"):
-                st[key] = value if isinstance(value, bool) else text == "true"
-            else:
-                raise InputError(f"expected true or false, got {shorten_value(value)}", key=k)
-        elif key == "filling":
-            st[key] = parse_filling(value, k)
-        elif key == "gap":
-            if value is not None:
-                # a quantity needs its unit (a bare 0.5 would be 0.5 J)
-                from qhdesign.units import parse_quantity
-
-                st["gap_energy_J"] = parse_quantity(value, "energy", key=k)
-        elif key == "degree":
-            if value not in (1, 2) or isinstance(value, bool):
-                raise InputError(
-                    f"element degree must be 1 or 2, got {shorten_value(value)}", key=k
-                )
-            mesh[key] = int(value)
-        elif key == "refine":
-            from qhdesign.limits import check_refine
-
-            mesh[key] = check_refine(value, key=k)
-        else:
-            raise InputError(f"unknown island option; allowed: {', '.join(_ISLAND_OPTIONS)}", key=k)
-    if "radius_m" not in geo:
-        raise InputError("the island needs a radius (e.g. '0.8 um')", key="options.radius")
-    with spec_keys(ISLAND_KEYS, options):
-        geometry = IslandGeometry(**geo)
-        settings = IslandSettings(**st)
-        if mesh:
-            settings = replace(settings, mesh=replace(settings.mesh, **mesh))
-    return geometry, settings
-
-
-class spec_keys:
-    """Context manager: an :class:`InputError` the physics keyed by an argument name in
-    ``mapping`` is re-raised keyed ``options.<spec key>`` (a sweep user reads spec keys, never
-    command-line options or Python argument names)."""
-
-    def __init__(self, mapping: dict[str, str], given=()):
-        self.mapping = mapping
-        self.given = set(given)  # spec keys the user wrote: named first
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, kind, exc, tb):
-        if isinstance(exc, InputError) and exc.source is None and exc.key is not None:
-            names = [k for k in (exc.key, *exc.related) if k in self.mapping]
-            if names:
-                pick = next((n for n in names if self.mapping[n] in self.given), names[0])
-                raise type(exc)(exc.message, key=f"options.{self.mapping[pick]}") from None
-        return False
 
 
 def _island(stack, **options):
-    solve_island = _import("qhdesign.tf2d", "solve_island", "island")
+    """Island capacitances plus the interferometer figures (``interferometer.*`` columns)."""
+    _import("qhdesign.tf2d", "solve_island", "island")
     from mpi4py import MPI  # one serial solve per design, as in _edge
 
-    geometry, settings = island_inputs(**options)
+    from qhdesign.island_figures import figure_columns, island_figures, split_island_options
+
+    cond, island_opts, gate_voltage = split_island_options(options, source_prefix="options.")
+    if gate_voltage is not None:
+        from qhdesign.island_figures import conditions_from_edge
+
+        cond = conditions_from_edge(stack, cond, gate_voltage, comm=MPI.COMM_SELF)
     with spec_keys(ISLAND_KEYS, options):
-        return _summary(solve_island(stack, geometry, settings, comm=MPI.COMM_SELF))
+        fig = island_figures(stack, cond, comm=MPI.COMM_SELF, keep_result=True, **island_opts)
+    res = fig.pop("_result")
+    return {**_summary(res), **figure_columns(fig)}
 
 
 #: Built-in stages: name -> (callable, one-line description).
