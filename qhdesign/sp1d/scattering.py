@@ -554,7 +554,9 @@ def fit_background(
     if well not in names:
         raise InputError(f"'{well}' is not a well; wells: {', '.join(names)}", key="well")
     if not (math.isfinite(measured_mobility_m2_Vs) and measured_mobility_m2_Vs > 0):
-        raise InputError("the measured mobility must be above 0 cm^2/Vs", key="measured_mobility_m2_Vs")
+        raise InputError(
+            "the measured mobility must be above 0 cm^2/Vs", key="measured_mobility_m2_Vs"
+        )
     unit = dataclasses.replace(o, background_m3=1e20)
     w = scattering(result, unit).well(well)
     if not w.sources:
