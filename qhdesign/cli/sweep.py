@@ -276,11 +276,14 @@ def register(app: typer.Typer) -> None:
                 )
             plan = build_plan(raw, source=str(spec), base_dir=spec.parent, allow_plugins=allow)
         if check:
+            from qhdesign.sweep.runner import check_plan
+
+            note = check_plan(plan)
             if _mpi_rank() == 0:
                 typer.echo(
                     f"{plan.source}: valid; {len(plan)} designs ({plan.kind}) of stage "
                     f"'{plan.stage}' over {', '.join(plan.parameters[:6])}"
-                    f"{' ...' if len(plan.parameters) > 6 else ''}"
+                    f"{' ...' if len(plan.parameters) > 6 else ''}; {note}"
                 )
             return
         out = out or Path(f"{spec.stem}.csv")

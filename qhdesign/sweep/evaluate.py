@@ -62,13 +62,18 @@ def evaluate_design(job: Job, values: Mapping[str, float]) -> tuple[dict | None,
     t0 = time.perf_counter()
     try:
         out = fn(stack, **{**dict(job.options), **option_values})
+        # the return value is checked inside the guard: a stage returning None (or a list) is a
+        # bug of that stage, recorded on its row, not the end of the sweep
+        if not isinstance(out, Mapping):
+            raise TypeError(f"the stage returned {type(out).__name__}, not a dict of outputs")
+        out = dict(out)
     except ConvergenceError as exc:
         return None, "not_converged", _one_line(exc), time.perf_counter() - t0
     except QHDesignError as exc:
         return None, "invalid", _one_line(exc), time.perf_counter() - t0
-    except Exception as exc:  # a bug in a stage: keep the sweep going, record it
+    except (Exception, SystemExit) as exc:  # a bug in a stage: keep the sweep going, record it
         return None, "error", f"{type(exc).__name__}: {_one_line(exc)}", time.perf_counter() - t0
-    return dict(out), "ok", "", time.perf_counter() - t0
+    return out, "ok", "", time.perf_counter() - t0
 
 
 def evaluate_chunk(

@@ -510,16 +510,27 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
 
 
 def _fraction(v: Any, key: str, source: str) -> float:
-    """A relative tolerance: a number (0.015) or a percentage string ("1.5 %")."""
+    """A relative tolerance: a percentage string ("1.5 %").
+
+    A bare number is refused: ``thickness = 5`` could mean 5 % or 500 % (it used to be read as
+    the fraction 5, i.e. 500 %).
+    """
+    from qhdesign.units import parse_number, shorten
+
     if isinstance(v, str) and v.strip().endswith("%"):
         try:
-            return float(v.strip()[:-1]) / 100.0
-        except ValueError:
+            return parse_number(v.strip()[:-1].strip()) / 100.0
+        except InputError:
             pass
-    elif isinstance(v, int | float) and not isinstance(v, bool):
-        return float(v)
+    if isinstance(v, int | float) and not isinstance(v, bool):
+        raise InputError(
+            f'{v!r} has no unit: write a relative tolerance as a percentage, e.g. "{v} %" or '
+            f'"{100 * v:g} %"',
+            source=source,
+            key=key,
+        )
     raise InputError(
-        f'expected a number or a percentage like "1.5 %", got {v!r}', source=source, key=key
+        f'expected a percentage like "1.5 %", got {shorten(v)!r}', source=source, key=key
     )
 
 

@@ -199,6 +199,7 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
 
 from qhdesign.island_options import (  # noqa: E402  (front-end parsing shared with the CLI)
     ISLAND_KEYS,
+    island_inputs,
     parse_filling,
     spec_keys,
 )
@@ -220,6 +221,41 @@ def _island(stack, **options):
         fig = island_figures(stack, cond, comm=MPI.COMM_SELF, keep_result=True, **island_opts)
     res = fig.pop("_result")
     return {**_summary(res), **figure_columns(fig)}
+
+
+def dry_run_options(stage: str, options: dict[str, Any]) -> None:
+    """Parse the options of a 2D stage as its evaluation would, without solving anything:
+    unknown names and bad values raise :class:`InputError` keyed ``options.<name>``."""
+    if stage == "edge":
+        allowed = ("gate_voltage", "field", "filling", "gap_energy", "perimeter")
+        for key in options:
+            if key not in allowed:
+                raise InputError(
+                    f"unknown option of stage 'edge'; allowed: {', '.join(allowed)}",
+                    key=f"options.{key}",
+                )
+        from qhdesign.tf2d.edge import EdgeSettings
+
+        o = options
+        if o.get("gate_voltage") is None:
+            raise InputError("the edge stage needs gate_voltage", key="options.gate_voltage")
+        with spec_keys(EDGE_KEYS, set(o)):
+            EdgeSettings(
+                gate_voltage_V=_quantity(o["gate_voltage"], "voltage", "gate_voltage"),
+                field_T=None if o.get("field") is None else _quantity(o["field"], "field", "field"),
+                filling=parse_filling(o.get("filling")),
+                gap_energy_J=None
+                if o.get("gap_energy") is None
+                else _quantity(o["gap_energy"], "energy", "gap_energy"),
+                perimeter_m=None
+                if o.get("perimeter") is None
+                else _quantity(o["perimeter"], "length", "perimeter"),
+            )
+    elif stage == "island":
+        from qhdesign.island_figures import split_island_options
+
+        _, island_opts, _ = split_island_options(options, source_prefix="options.")
+        island_inputs(**island_opts)
 
 
 #: Built-in stages: name -> (callable, one-line description).

@@ -21,8 +21,8 @@ import numpy as np
 import pytest
 from scipy import constants as sc
 
+from qhdesign.island_options import island_inputs
 from qhdesign.stack import load_stack
-from qhdesign.sweep.stages import island_inputs
 from qhdesign.tf2d import IslandColumn, solve_island
 from qhdesign.tf2d.island import PHI0, WellLine
 
@@ -125,7 +125,7 @@ MPI_SCRIPT = textwrap.dedent(
     import numpy as np
     from mpi4py import MPI
     from qhdesign.stack import load_stack
-    from qhdesign.sweep.stages import island_inputs
+    from qhdesign.island_options import island_inputs
     from qhdesign.tf2d import solve_island
 
     r = solve_island(load_stack(sys.argv[2]), *island_inputs(radius="0.6 um", ring_width="40 nm"))

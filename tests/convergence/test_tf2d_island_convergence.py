@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import constants as sc
 
-from qhdesign.sweep.stages import island_inputs
+from qhdesign.island_options import island_inputs
 from qhdesign.tf2d.axicap import AxiLine, AxiMeshOptions, AxiProblem, solve_capacitance
 from qhdesign.tf2d.island import IslandColumn, WellLine, solve_island
 

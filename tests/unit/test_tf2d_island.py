@@ -8,7 +8,7 @@ import math
 import pytest
 
 from qhdesign.errors import InputError
-from qhdesign.sweep.stages import island_inputs
+from qhdesign.island_options import island_inputs
 from qhdesign.tf2d import IslandGeometry, IslandSettings, solve_island
 
 
