@@ -351,7 +351,6 @@ def _build_layers(arr: Any, dopings: Any, src: str) -> tuple[tuple[Layer, ...], 
             "layer_thickness",
             f"{where}.thickness",
             src,
-            open_low=True,
         )
         if material == "AlGaAs":
             if "x" not in tab:

@@ -50,6 +50,16 @@ CALIBRATE_OPTIONS = {
 }
 
 
+def _e2_text(e2_J: float, occupied: bool) -> str:
+    """The second-subband flag line; a value that could not be computed is never called ok."""
+    from scipy import constants as sc
+
+    if math.isnan(e2_J):
+        return "second subband of the primary: not computed (no bound second level) [CHECK]"
+    head = f"second subband of the primary: E2 - EF = {e2_J / sc.e * 1e3:.2f} meV"
+    return head + (" [OCCUPIED or within margin]" if occupied else " (ok)")
+
+
 def _print_bands(r) -> None:
     from rich.console import Console
     from rich.table import Table
@@ -95,8 +105,7 @@ def _print_bands(r) -> None:
     console.print(f"surface charge: {r.surface_charge_C_m2 / sc.e * 1e-4:+.4g} e cm^-2")
     f = r.flags
     lines = [
-        f"second subband of the primary: E2 - EF = {f.e2_minus_ef_J / sc.e * 1e3:.2f} meV"
-        + (" [OCCUPIED or within margin]" if f.second_subband_occupied else " (ok)"),
+        _e2_text(f.e2_minus_ef_J, f.second_subband_occupied),
         "parallel conduction: "
         + (", ".join(f.parallel_layers) if f.parallel_conduction else "none"),
         "donor supply margin: "

@@ -26,6 +26,12 @@ StageFunc = Callable[..., dict[str, Any]]
 def _capacitor(stack, **options):
     from .capacitor import capacitor_stage
 
+    for key in options:
+        if key != "densities":
+            raise InputError(
+                "unknown option of stage 'capacitor'; allowed: densities", key=f"options.{key}"
+            )
+
     return capacitor_stage(stack, **options)
 
 
