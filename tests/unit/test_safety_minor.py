@@ -145,9 +145,7 @@ def test_a_zombie_parent_counts_as_gone():
 
 # ----------------------------------------------------------------- an empty primary well
 def test_a_layer_thinner_than_one_monolayer_is_refused():
-    from qhdesign.stack import load_stack, loads_stack
-
-    from qhdesign.stack import dump_document
+    from qhdesign.stack import dump_document, load_stack, loads_stack
 
     def with_primary(thickness: str) -> str:
         import tomllib
