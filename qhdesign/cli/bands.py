@@ -9,7 +9,7 @@ from pathlib import Path
 import typer
 
 from . import disorder as D
-from .common import guarded, option_quantity
+from .common import JsonOut, StackFile, Temperature, guarded, option_quantity
 
 
 def _load(stack_file: Path):
@@ -128,17 +128,15 @@ def register(app: typer.Typer) -> None:
     @app.command("bands")
     @guarded(options=BANDS_OPTIONS)
     def bands(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         gate: str | None = typer.Option(
             None, "--gate", help="Gate voltage (V; default: the stack's bias)."
         ),
-        temperature: str | None = typer.Option(
-            None, "--temperature", help='Solve temperature with unit, e.g. "10 mK".'
-        ),
+        temperature: Temperature = None,
         field: str | None = typer.Option(
             None, "--field", help='Perpendicular field for the filling-factor flag, e.g. "3 T".'
         ),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        json_out: JsonOut = None,
         plot: Path | None = typer.Option(None, "--plot", help="Write the band diagram."),
         background: str | None = typer.Option(None, "--background", help=D.BACKGROUND_HELP),
         roughness_height: str | None = typer.Option(
@@ -182,19 +180,17 @@ def register(app: typer.Typer) -> None:
     @app.command("gate")
     @guarded(options=GATE_OPTIONS)
     def gate_cmd(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         v_from: str = typer.Option(..., "--from", help="First gate voltage (V)."),
         v_to: str = typer.Option(..., "--to", help="Last gate voltage (V)."),
         step: str = typer.Option(..., "--step", help="Voltage step (V)."),
         cool_bias: str = typer.Option("0", "--cool-bias", help="Gate bias during cool-down (V)."),
-        temperature: str | None = typer.Option(
-            None, "--temperature", help='Solve temperature with unit, e.g. "300 mK".'
-        ),
+        temperature: Temperature = None,
         forward_limit: str = typer.Option(
             "0.5", "--forward-limit", help="Warn about gate leakage above this voltage (V)."
         ),
         csv_out: Path | None = typer.Option(None, "--csv", help="Write density vs voltage CSV."),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        json_out: JsonOut = None,
         plot: Path | None = typer.Option(None, "--plot", help="Write density vs gate voltage."),
     ) -> None:
         """Gate sweep with frozen donors: density per well, depletion thresholds, slopes."""
@@ -263,7 +259,7 @@ def register(app: typer.Typer) -> None:
     @app.command("calibrate")
     @guarded(options=CALIBRATE_OPTIONS)
     def calibrate_cmd(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         parameter: str | None = typer.Option(
             None,
             "--parameter",

@@ -6,14 +6,14 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded
+from .common import StackFile, guarded
 
 
 def register(app: typer.Typer) -> None:
     @app.command("check")
     @guarded
     def check(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         plot: Path | None = typer.Option(
             None, "--plot", help="Write a to-scale layer diagram (PNG/SVG/PDF by suffix)."
         ),

@@ -7,7 +7,8 @@ from __future__ import annotations
 import functools
 import sys
 from collections.abc import Callable, Mapping
-from typing import Any
+from pathlib import Path
+from typing import Annotated, Any
 
 import typer
 
@@ -221,3 +222,32 @@ def option_quantity(value: str | None, dimension: str, option: str) -> float | N
     from qhdesign.units import parse_quantity
 
     return parse_quantity(text, dimension, source=f"option {option}")
+
+
+# ------------------------------------------------------------------ shared options
+# One definition per option that several commands take (name, type, help), used as
+#   def cmd(stack_file: StackFile, json_out: JsonOut = None, refine: Refine = 1.0): ...
+StackFile = Annotated[Path, typer.Argument(help="Layer-stack TOML file.")]
+JsonOut = Annotated[Path | None, typer.Option("--json", help="Write results as JSON (SI).")]
+CsvOut = Annotated[Path | None, typer.Option("--csv", help="Write the table as CSV.")]
+PlotOut = Annotated[
+    Path | None, typer.Option("--plot", help="Write the figure (PNG/SVG/PDF by suffix).")
+]
+Refine = Annotated[
+    float,
+    typer.Option("--refine", help="Mesh refinement factor, 0.25 to 4 (1 = default mesh)."),
+]
+Temperature = Annotated[
+    str | None,
+    typer.Option("--temperature", help='Solve temperature with unit, e.g. "300 mK".'),
+]
+Surface = Annotated[
+    str | None,
+    typer.Option("--surface", help="Exposed surface: frozen (charge) or pinned (Fermi level)."),
+]
+GateBarrier = Annotated[
+    str | None,
+    typer.Option(
+        "--gate-barrier", help="Schottky barrier of the gate metal (default: the stack's)."
+    ),
+]

@@ -14,7 +14,7 @@ import typer
 
 from qhdesign.limits import check_refine
 
-from .common import guarded, option_quantity
+from .common import GateBarrier, JsonOut, Refine, StackFile, Surface, guarded, option_quantity
 
 
 def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
@@ -157,7 +157,7 @@ def register(app: typer.Typer) -> None:
     @app.command("edge")
     @guarded(options=EDGE_OPTIONS)
     def edge(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         gate_voltage: str = typer.Option(
             ..., "--gate-voltage", help="Depletion-gate bias, e.g. -0.8 or '-800 mV'."
         ),
@@ -176,16 +176,10 @@ def register(app: typer.Typer) -> None:
         perimeter: str | None = typer.Option(
             None, "--perimeter", help="Gate perimeter for dA/dV, e.g. '4 um'."
         ),
-        surface: str | None = typer.Option(
-            None, "--surface", help="Exposed surface: frozen (charge) or pinned (Fermi level)."
-        ),
-        gate_barrier: str | None = typer.Option(
-            None,
-            "--gate-barrier",
-            help="Schottky barrier of the gate metal (default: the stack's).",
-        ),
-        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        surface: Surface = None,
+        gate_barrier: GateBarrier = None,
+        refine: Refine = 1.0,
+        json_out: JsonOut = None,
         csv_out: Path | None = typer.Option(None, "--csv", help="Write n(x) per well as CSV."),
         plot: Path | None = typer.Option(None, "--plot", help="Write the edge figure (PNG/SVG)."),
         fields: Path | None = typer.Option(
@@ -242,21 +236,15 @@ def register(app: typer.Typer) -> None:
     @app.command("pinchoff")
     @guarded(options=PINCHOFF_OPTIONS)
     def pinchoff(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         gap: str = typer.Option(..., "--gap", help="Split-gate gap, e.g. '300 nm'."),
         v_start: str = typer.Option("0", "--from", help="First gate voltage of the sweep (V)."),
         v_stop: str = typer.Option("-5", "--to", help="Last gate voltage of the sweep (V)."),
         v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
-        surface: str | None = typer.Option(
-            None, "--surface", help="Exposed surface: frozen (charge) or pinned (Fermi level)."
-        ),
-        gate_barrier: str | None = typer.Option(
-            None,
-            "--gate-barrier",
-            help="Schottky barrier of the gate metal (default: the stack's).",
-        ),
-        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        surface: Surface = None,
+        gate_barrier: GateBarrier = None,
+        refine: Refine = 1.0,
+        json_out: JsonOut = None,
         csv_out: Path | None = typer.Option(None, "--csv", help="Write the sweep as CSV."),
         plot: Path | None = typer.Option(None, "--plot", help="Write the pinch-off figure."),
     ) -> None:

@@ -10,7 +10,7 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity
+from .common import JsonOut, Refine, StackFile, guarded, option_quantity
 
 
 def _print(res) -> None:
@@ -65,7 +65,7 @@ def register(app: typer.Typer) -> None:
     @app.command("island")
     @guarded(options=ISLAND_OPTIONS)
     def island(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         radius: str = typer.Option(
             ..., "--radius", help="Electronic radius of the island, e.g. '0.8 um'."
         ),
@@ -101,8 +101,8 @@ def register(app: typer.Typer) -> None:
             "--outer-well/--no-outer-well",
             help="Keep the primary well beyond the gate edge as a screening sheet.",
         ),
-        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        refine: Refine = 1.0,
+        json_out: JsonOut = None,
         plot: Path | None = typer.Option(
             None, "--plot", help="Write the potential maps u_I, u_L (PNG/SVG)."
         ),
