@@ -173,26 +173,66 @@ def guarded(
 
     @functools.wraps(func)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
+        restore = _watch_interrupts()
         try:
             check_output_paths(kwargs)
             return func(*args, **kwargs)
-        except QHDesignError as exc:
-            if isinstance(exc, InputError):
-                exc = translate(exc, mapping, _given_options())
-            one = exc.one_line() if hasattr(exc, "one_line") else str(exc)
-            _echo_error(one)
-            raise typer.Exit(EXIT_USER_ERROR) from None
-        except OSError as exc:
-            # reading or writing a file the checks could not foresee (disk full, a file removed
-            # meanwhile): the environment, not a bug
-            name = exc.filename or "output"
-            _echo_error(f"{name}: {exc.strerror or type(exc).__name__}")
-            raise typer.Exit(EXIT_USER_ERROR) from None
+        except Exception as exc:
+            if _INTERRUPTED["flag"]:
+                # Ctrl-C inside a PETSc callback (the 2D Newton residual) comes back as a
+                # petsc4py error, not as KeyboardInterrupt: it is still an interruption
+                typer.echo("interrupted", err=True)
+                sys.exit(130)
+            return _fail_cleanly(exc, mapping)
         except KeyboardInterrupt:
             typer.echo("interrupted", err=True)
             sys.exit(130)
+        finally:
+            restore()
 
     return wrapper
+
+
+#: Set when SIGINT arrives during a guarded command.
+_INTERRUPTED = {"flag": False}
+
+
+def _watch_interrupts() -> Callable[[], None]:
+    """Record Ctrl-C (then raise KeyboardInterrupt as Python does); returns the restorer."""
+    import signal
+    import threading
+
+    _INTERRUPTED["flag"] = False
+    if threading.current_thread() is not threading.main_thread():
+        return lambda: None
+    previous = signal.getsignal(signal.SIGINT)
+    if previous is not signal.default_int_handler:
+        return lambda: None  # SIGINT ignored or handled by someone else: leave it
+
+    def handler(signum, frame):
+        _INTERRUPTED["flag"] = True
+        raise KeyboardInterrupt
+
+    signal.signal(signal.SIGINT, handler)
+    return lambda: signal.signal(signal.SIGINT, previous)
+
+
+def _fail_cleanly(exc: Exception, mapping: Mapping[str, str]) -> Any:
+    """One line and exit 2 for a user error or an OS error; re-raise anything else (a bug,
+    which keeps its traceback, or a ``typer.Exit``)."""
+    if isinstance(exc, QHDesignError):
+        if isinstance(exc, InputError):
+            exc = translate(exc, mapping, _given_options())
+        one = exc.one_line() if hasattr(exc, "one_line") else str(exc)
+        _echo_error(one)
+        raise typer.Exit(EXIT_USER_ERROR) from None
+    if isinstance(exc, OSError):
+        # reading or writing a file the checks could not foresee (disk full, a file removed
+        # meanwhile): the environment, not a bug
+        name = exc.filename or "output"
+        _echo_error(f"{name}: {exc.strerror or type(exc).__name__}")
+        raise typer.Exit(EXIT_USER_ERROR) from None
+    raise exc
 
 
 def option_number(value: str | float | None, option: str) -> float | None:

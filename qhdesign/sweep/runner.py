@@ -140,7 +140,7 @@ class SweepSummary:
             counts += f", error {self.counts['error']} (stage bugs: see the error column)"
         out = [
             f"{self.new} designs evaluated ({counts}); {self.skipped} already in the CSV; "
-            f"{self.total} in the space",
+            f"{self.total} in the space; {self.new + self.skipped} rows in the CSV",
             f"wall time {self.wall_s:.2f} s, {self.rate:.1f} designs/s "
             f"({self.executor}, {self.workers} worker{'s' if self.workers != 1 else ''}, "
             f"chunk {self.chunk})",
@@ -310,6 +310,14 @@ def _exit_with_parent(parent_pid: int, period_s: float = 1.0) -> None:
 
 
 # ------------------------------------------------------------------------ the sweep
+#: Output columns that hold counts or yes/no values (written as integers in the CSV).
+INTEGER_COLUMNS = ("converged", "iterations")
+
+
+def _is_integer_column(name: str) -> bool:
+    return name in INTEGER_COLUMNS or name.startswith("flag_")
+
+
 def display_digits(plan) -> dict[str, int]:
     """Significant digits of each parameter column: 12 (hides the last-bit noise of the unit
     conversion, 25 nm not 24.999999999999996), or more where 12 would print two different
@@ -335,7 +343,10 @@ def _row(index, key, params, param_cols, outputs, columns_out, status, error, se
         d = 12 if digits is None else digits.get(p, 12)
         row.append(float(f"{params[p] / scale:.{d}g}"))
     for c in columns_out:
-        row.append(None if outputs is None else outputs.get(c, math.nan))
+        v = None if outputs is None else outputs.get(c, math.nan)
+        if _is_integer_column(c) and isinstance(v, float) and v.is_integer():
+            v = int(v)  # counts and yes/no flags read as integers: 1, not 1.0
+        row.append(v)
     row += [status, error, round(seconds, 6)]
     return row
 
