@@ -6,7 +6,7 @@ from pathlib import Path
 
 import typer
 
-from .common import StackFile, guarded
+from .common import JsonOut, StackFile, guarded
 
 
 def register(app: typer.Typer) -> None:
@@ -17,9 +17,7 @@ def register(app: typer.Typer) -> None:
         plot: Path | None = typer.Option(
             None, "--plot", help="Write a to-scale layer diagram (PNG/SVG/PDF by suffix)."
         ),
-        json_out: Path | None = typer.Option(
-            None, "--json", help="Write the validated stack in SI units as JSON."
-        ),
+        json_out: JsonOut = None,
     ) -> None:
         """Validate STACK_FILE and print its layers and wells (exit 2 if it is invalid)."""
         from rich.console import Console

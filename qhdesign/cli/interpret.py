@@ -8,11 +8,10 @@ from __future__ import annotations
 
 import math
 import re
-from pathlib import Path
 
 import typer
 
-from .common import guarded
+from .common import JsonOut, guarded
 
 _PM = re.compile(r"\+/-|\+-|±")
 
@@ -115,7 +114,7 @@ def register(app: typer.Typer) -> None:
             help="Measured phase jump per added quasiparticle, e.g. '0.29 turn +- 0.02 turn' "
             "(units rad, deg or turn).",
         ),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        json_out: JsonOut = None,
     ) -> None:
         """K_IL/K_I, the effective area and the coupling-corrected anyonic phase from measured
         periods (with propagated uncertainties)."""

@@ -131,3 +131,51 @@ def test_sweep_stages_name_spec_keys_never_options(stage, options, fragment):
         get_stage(stage)(stack, **options)
     msg = info.value.one_line()
     assert fragment in msg and "option --" not in msg
+
+
+# ----------------------------------------------------------------- issue 15, item 4 (CLI half)
+def test_shared_options_are_one_definition(app):
+    """--json, --refine, --surface, --gate-barrier, --temperature: one definition each (help
+    and default) in every command that takes them (island's --surface defaults to the stack's
+    own surface model and says so: it is left out)."""
+    import typer
+
+    cmd = typer.main.get_command(app)
+    seen: dict[str, set] = {}
+    for name in ("check", "bands", "edge", "pinchoff", "island", "interpret"):
+        for p in cmd.commands[name].params:
+            for opt in ("--json", "--refine", "--surface", "--gate-barrier", "--temperature"):
+                if opt in p.opts and not (name == "island" and opt == "--surface"):
+                    seen.setdefault(opt, set()).add((p.help, p.default))
+    assert set(seen) >= {"--json", "--refine", "--surface", "--gate-barrier", "--temperature"}
+    assert all(len(v) == 1 for v in seen.values()), seen
+
+
+@pytest.mark.parametrize(
+    "args",
+    [
+        ["edge", "--gate-voltage", "-0.5", "--refine", "0.2"],
+        ["pinchoff", "--gap", "300 nm", "--refine", "5"],
+        ["island", "--radius", "0.8 um", "--refine", "0.2"],
+    ],
+)
+def test_one_refine_range_everywhere(cli_runner, app, screened_path, args):
+    from conftest import assert_one_line_error
+
+    from qhdesign.limits import REFINE_RANGE, check_refine
+
+    # before: edge/pinchoff allowed [0.1, 8], island [0.25, 4], the island sweep stage [0.1, 8]
+    r = cli_runner.invoke(app, [args[0], str(screened_path), *args[1:]])
+    assert_one_line_error(r, "option --refine", "[0.25, 4]")
+    assert REFINE_RANGE == (0.25, 4.0)
+    with pytest.raises(InputError, match=r"\[0.25, 4\]"):
+        from qhdesign.island_options import island_inputs
+
+        island_inputs(radius="0.8 um", refine=0.2)
+    assert check_refine(4) == 4.0
+
+
+def test_the_cli_has_no_csv_builder_of_its_own():
+    # the edge and pinch-off CSVs come from the results' own table()
+    src = (PKG / "cli" / "edge.py").read_text()
+    assert "_csv_text" not in src and ".table()" in src
