@@ -22,6 +22,7 @@ __all__ = [
     "guarded",
     "option_number",
     "option_quantity",
+    "warn",
 ]
 
 EXIT_USER_ERROR = 2
@@ -120,6 +121,23 @@ def check_output_paths(kwargs: dict[str, Any]) -> None:
             check_figure_path(value, option)
 
 
+#: Warnings already printed by the running command (each is printed once per command).
+_WARNED: set[str] = set()
+
+
+def warn(text: str) -> None:
+    """Print ``warning: text`` on stderr once per command (rank 0 only under MPI).
+
+    A stage's result repeats the stack's warnings and a sweep meets the same condition at every
+    step; the user needs to read each one once.
+    """
+    key = " ".join(str(text).split())
+    if key in _WARNED or not _is_lead_rank():
+        return
+    _WARNED.add(key)
+    typer.echo(f"warning: {key}", err=True)
+
+
 def _given_options() -> set[str]:
     """Options the user typed (not defaults) of the running command."""
     try:
@@ -174,6 +192,7 @@ def guarded(
     @functools.wraps(func)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
         restore = _watch_interrupts()
+        _WARNED.clear()  # one command, one set of warnings
         try:
             check_output_paths(kwargs)
             return func(*args, **kwargs)

@@ -110,11 +110,12 @@ def register(app: typer.Typer) -> None:
         """Capacitance matrix, K_I, K_L, K_IL and charging energy of an island in STACK_FILE."""
         from dataclasses import replace
 
+        from qhdesign.fem.backend import load
+        from qhdesign.island import IslandGeometry, IslandSettings
         from qhdesign.island_options import parse_filling
         from qhdesign.limits import check_refine
+        from qhdesign.pipeline import solve_island
         from qhdesign.stack import load_stack
-        from qhdesign.tf2d import IslandGeometry, IslandSettings, solve_island
-        from qhdesign.tf2d.backend import load
 
         geometry = IslandGeometry(
             radius_m=option_quantity(radius, "length", "--radius"),

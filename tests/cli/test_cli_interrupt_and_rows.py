@@ -18,7 +18,7 @@ from conftest import SCREENED
 def test_an_interrupt_inside_a_solver_callback_is_interrupted_exit_130(
     cli_runner, app, monkeypatch
 ):
-    import qhdesign.tf2d as tf2d
+    import qhdesign.section as section
 
     def solve_edge(*args, **kwargs):
         # what petsc4py does with Ctrl-C inside the Python residual of SNES: the
@@ -28,7 +28,7 @@ def test_an_interrupt_inside_a_solver_callback_is_interrupted_exit_130(
         except KeyboardInterrupt:
             raise RuntimeError("error code 101 [0] SNESSolve() ...") from None
 
-    monkeypatch.setattr(tf2d, "solve_edge", solve_edge)
+    monkeypatch.setattr(section, "solve_edge", solve_edge)
     res = cli_runner.invoke(app, ["edge", str(SCREENED), "--gate-voltage", "-0.5"])
     assert res.exit_code == 130, res.output
     assert res.stderr.strip() == "interrupted"  # before: a petsc4py traceback, exit 1

@@ -22,6 +22,7 @@ PHYSICS = [
     "section",
     "island",
     "pipeline.py",
+    "sheets.py",
     "interferometer.py",
     "limits.py",
     "stack.py",
