@@ -124,23 +124,25 @@ def test_serial_sweep_writes_each_row_before_the_next_design(tmp_path):
 
 # ----------------------------------------------------------------- workers after a SIGKILL
 def test_a_zombie_parent_counts_as_gone():
+    import subprocess
+    import sys
+    import time
+
     from qhdesign.sweep.runner import process_alive
 
-    pid = os.fork()
-    if pid == 0:
-        os._exit(0)
+    child = subprocess.Popen([sys.executable, "-c", "pass"])
     try:
-        # wait until the child has exited (it stays a zombie: not reaped yet)
-        for _ in range(500):
-            with open(f"/proc/{pid}/stat", "rb") as fh:
+        # wait until the child has exited; not reaped yet, it stays a zombie
+        for _ in range(1000):
+            with open(f"/proc/{child.pid}/stat", "rb") as fh:
                 if b") Z" in fh.read():
                     break
-            __import__("time").sleep(0.01)
-        os.kill(pid, 0)  # signal 0 still succeeds on the zombie: the old check saw it alive
-        assert not process_alive(pid)
+            time.sleep(0.01)
+        os.kill(child.pid, 0)  # signal 0 still succeeds on the zombie: the old check saw it alive
+        assert not process_alive(child.pid)
         assert process_alive(os.getpid())
     finally:
-        os.waitpid(pid, 0)
+        child.wait()
 
 
 # ----------------------------------------------------------------- an empty primary well
