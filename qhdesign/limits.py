@@ -43,10 +43,12 @@ def check_gate_voltage(
     what: str = "gate voltage",
     barrier_name: str = "surface.barrier",
 ) -> float:
-    """The one gate-voltage rule of every stage: ``-20 V <= v < barrier / e``.
+    """The one gate-voltage rule of every stage: ``-20 V <= v <= barrier / e``.
 
-    At and above the Schottky barrier a metal gate conducts (forward current), so ``v`` equal to
-    the barrier is refused too, in 1D and in 2D alike.
+    Past the Schottky barrier a metal gate conducts (forward current), so a voltage above the
+    barrier is refused, in 1D and in 2D alike; the barrier itself (flat band under the gate) is
+    the last voltage accepted. (Before, the 1D stage refused v = barrier and the 2D stage
+    accepted it; the analytic 2D checks start at a zero barrier and 0 V.)
 
     Parameters
     ----------
@@ -64,16 +66,17 @@ def check_gate_voltage(
     vmax = barrier_J / sc.e
     if v is None or isinstance(v, bool) or not math.isfinite(v):
         raise InputError(f"{what} must be a finite number, got {v}", key=key)
-    if v >= vmax:
+    if v > vmax:
         raise InputError(
             f"{what} {v:+.3f} V is past the Schottky barrier ({vmax:.3f} eV, {barrier_name}): "
-            f"the gate would conduct; allowed {MIN_GATE_VOLTAGE_V:g} V up to below {vmax:+.3f} V",
+            f"the gate would conduct; allowed at or below {vmax:+.3f} V, down to "
+            f"{MIN_GATE_VOLTAGE_V:g} V",
             key=key,
         )
     if v < MIN_GATE_VOLTAGE_V:
         raise InputError(
             f"{what} {v:+.3f} V is below {MIN_GATE_VOLTAGE_V:g} V (gate breakdown range); "
-            f"allowed {MIN_GATE_VOLTAGE_V:g} V up to below {vmax:+.3f} V",
+            f"allowed {MIN_GATE_VOLTAGE_V:g} V up to {vmax:+.3f} V (at or below the barrier)",
             key=key,
         )
     return float(v)
