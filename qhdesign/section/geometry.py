@@ -16,7 +16,7 @@ import numpy as np
 
 from qhdesign.errors import InputError
 from qhdesign.fem.grid import graded_nodes
-from qhdesign.fem.tensor_mesh import TensorNumbering, build_tensor_mesh
+from qhdesign.fem.tensor_mesh import TensorModel, TensorNumbering, build_tensor_mesh
 
 from .model import CrossSection
 
@@ -192,13 +192,14 @@ def build_mesh(grid: StructuredGrid, section: CrossSection, comm, charged_levels
     dolfinx.io.gmsh.MeshData
         ``.mesh``, ``.cell_tags`` (layer index + 1), ``.facet_tags`` (see :data:`TAGS`).
     """
-    groups = _facet_groups(grid, charged_levels) if comm.rank == 0 else []
-    return build_tensor_mesh(
-        "qhdesign_cross_section",
-        grid.x_m,
-        grid.z_m,
-        grid.layer_of_interval,
-        len(section.layer_permittivity),
-        groups,
-        comm,
-    )
+    model = None
+    if comm.rank == 0:
+        model = TensorModel(
+            "qhdesign_cross_section",
+            grid.x_m,
+            grid.z_m,
+            grid.layer_of_interval,
+            len(section.layer_permittivity),
+            _facet_groups(grid, charged_levels),
+        )
+    return build_tensor_mesh(model, comm)
