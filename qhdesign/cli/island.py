@@ -93,8 +93,8 @@ def register(app: typer.Typer) -> None:
         ),
     ) -> None:
         """Capacitance matrix, K_I, K_L, K_IL and charging energy of an island in STACK_FILE."""
-        from qhdesign.errors import InputError
         from qhdesign.fem.backend import load
+        from qhdesign.fem.grid import check_refine
         from qhdesign.island import IslandGeometry
         from qhdesign.island.conductor import parse_filling
         from qhdesign.pipeline import solve_island
@@ -106,8 +106,7 @@ def register(app: typer.Typer) -> None:
             gate_offset_m=option_quantity(gate_offset, "length", "--gate-offset"),
             split_gap_m=option_quantity(split_gap, "length", "--split-gap"),
         )
-        if not 0.25 <= refine <= 4:
-            raise InputError("refine must lie in [0.25, 4]", source="option --refine")
+        check_refine(refine, source="option --refine")
         options = {
             "screening": screening,
             "surface": surface,

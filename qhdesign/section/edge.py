@@ -18,6 +18,7 @@ import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
+from qhdesign.results import Table, flatten
 
 from .geometry import GateLayout, MeshOptions
 from .model import CrossSection, _inverse_tf
@@ -176,6 +177,17 @@ class EdgeResult:
             "area_change_m2_per_V": self.area_change_m2_per_V,
             "solver": dict(self.info),
         }
+
+    def summary(self) -> dict[str, float]:
+        """Flat numbers of :meth:`to_dict` (``wells.<name>.<key>`` etc.), solver record left out."""
+        d = self.to_dict()
+        d.pop("solver", None)  # timings and mesh sizes: not design outputs
+        return flatten(d)
+
+    def table(self) -> Table:
+        """The n(x) profile: x (nm), each well's density (cm^-2), the primary filling (if B)."""
+        cols, rows = self.profile_table()
+        return Table(tuple(cols), rows)
 
     def profile_table(self) -> tuple[list[str], np.ndarray]:
         """Columns and rows of the n(x) table (x in nm, densities in cm^-2, filling)."""
