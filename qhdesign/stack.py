@@ -333,7 +333,16 @@ class Stack:
 
     # ----------------------------------------------------------------- parameter paths
     def get(self, path: str) -> Any:
-        """Value at a parameter path: SI float for quantities, float for numbers, else str."""
+        """Value at a parameter path: SI float for quantities, float for numbers, else str.
+
+        >>> stack = load_stack("stacks/ql2403_heterojunction.toml")  # from the repository root
+        >>> [layer.name for layer in stack.layers]
+        ['cap', 'doped', 'spacer', 'channel']
+        >>> import math
+        >>> math.isclose(stack.get("layers.spacer.thickness"), 50e-9)
+        True
+        >>> stack.get("layers.spacer.x")
+        0.32"""
         doc_path, kind = _resolve_path(self, path)
         node: Any = self.document
         for part in doc_path[:-1]:
@@ -361,6 +370,11 @@ class Stack:
 
         ``value`` is what the file would hold (``"30 nm"``, ``0.31``, ``"dx"``) or an SI float
         for a quantity (written back in the display unit: nm, cm^-2, eV, V, K).
+
+        >>> stack = load_stack("stacks/ql2403_heterojunction.toml")
+        >>> thicker = stack.with_value("layers.spacer.thickness", "60 nm")
+        >>> round(thicker.get("layers.spacer.thickness") * 1e9, 9), stack is not thicker
+        (60.0, True)
         """
         return self.with_values({path: value})
 

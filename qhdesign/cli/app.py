@@ -32,6 +32,9 @@ def build_app() -> typer.Typer:
         no_args_is_help=True,
         add_completion=False,
         pretty_exceptions_enable=False,
+        # plain help and usage errors: rendering them with rich costs ~0.3 s of imports at
+        # every start-up (measured with python -X importtime; docs/performance.md)
+        rich_markup_mode=None,
     )
 
     @app.callback()

@@ -488,8 +488,7 @@ def island_problem(
             if s.outer_well:
                 lines.append(sheet(f"{wl.name}_outside", wl.z_m, Rg, wl.dos_J_m2))
             continue
-        if wl.role == "primary":  # a second primary well: treated like a screening well
-            pass
+        # a second primary well is treated like a screening well
         if not (wl.density_m2 > EMPTY_DENSITY_M2 or math.isnan(wl.density_m2)):
             excluded.append(wl.name)
             continue

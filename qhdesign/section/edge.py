@@ -17,6 +17,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 from scipy import constants as sc
 
+from qhdesign import materials
 from qhdesign.errors import InputError
 from qhdesign.results import Table, flatten
 
@@ -41,9 +42,6 @@ __all__ = [
 
 #: Gate-voltage step of the finite difference for the edge shift per volt (V).
 VOLTAGE_STEP_V = 0.02
-#: |g*| of GaAs for the spin gap of odd integer strips (bare Zeeman, exchange enhancement
-#: ignored). From memory: g* = -0.44 for GaAs conduction electrons.
-G_FACTOR_GAAS = 0.44
 #: Most negative gate voltage accepted (V): beyond this a Schottky gate breaks down.
 MIN_GATE_VOLTAGE_V = -20.0
 
@@ -405,7 +403,9 @@ def _field_figures(sol: FieldSolution, section, ip: int, settings: EdgeSettings)
             if k % 2 == 0:
                 levels.append((float(k), hw_c, "Landau gap hbar*omega_c"))
             else:
-                gap = G_FACTOR_GAAS * sc.physical_constants["Bohr magneton"][0] * B
+                # bare Zeeman gap |g*| mu_B B of GaAs (exchange enhancement ignored)
+                g_star = abs(materials.electron_g_factor_gaas())
+                gap = g_star * sc.physical_constants["Bohr magneton"][0] * B
                 levels.append((float(k), gap, "bare Zeeman gap |g*| mu_B B"))
     if settings.gap_energy_J is not None and settings.filling is not None:
         if abs(settings.filling - round(settings.filling)) > 1e-9 and settings.filling < nu_bulk:

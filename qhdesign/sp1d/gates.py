@@ -218,6 +218,15 @@ def gate_response(
         Exposed surface, voltages past the barrier, bad temperature.
     ConvergenceError
         Any sweep point fails to converge (no partial result is returned).
+
+    Examples
+    --------
+    >>> from qhdesign.stack import load_stack
+    >>> res = gate_response(load_stack("stacks/ql2409_doped_well.toml"), 0.0, -0.2, 0.1)
+    >>> len(res.voltages_V), res.well_names
+    (3, ('well',))
+    >>> bool(res.density("well")[-1] < res.density("well")[0])  # a negative gate depletes
+    True
     """
     opts = options or BandsOptions()
     gated = stack.surface.kind == "exposed"

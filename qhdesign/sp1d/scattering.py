@@ -169,6 +169,12 @@ def level_broadening(quantum_lifetime_s: float) -> float:
     ----------
     T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982), section VI.B (level
     width hbar/(2 tau) of the self-consistent Born approximation's Lorentzian form).
+
+    Examples
+    --------
+    >>> from scipy import constants as sc
+    >>> level_broadening(1e-12) == sc.hbar / (2 * 1e-12)  # analytic: Gamma = hbar/(2 tau_q)
+    True
     """
     if not quantum_lifetime_s > 0.0:
         if math.isnan(quantum_lifetime_s):

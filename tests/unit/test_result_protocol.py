@@ -71,6 +71,7 @@ def test_table_refuses_rows_that_do_not_fit_the_columns():
         Table(("a", "b"), np.zeros((3, 3)))
 
 
+@pytest.mark.fem
 def test_constriction_and_pinchoff_results_follow_the_protocol():
     from qhdesign.section import MeshOptions, solve_constriction, solve_pinchoff
     from qhdesign.section.examples import screened_section
