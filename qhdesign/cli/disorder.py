@@ -7,7 +7,7 @@ import math
 
 import typer
 
-from .common import option_quantity
+from .common import option_quantity, warn
 
 #: ScatteringOptions validation key -> the CLI option that set it.
 OPTION_OF = {
@@ -80,6 +80,15 @@ def print_disorder(sr, console) -> None:
             f"{top.name} ({top.transport_rate_s / rt:.0%})",
         )
     console.print(t)
+    for w in sr.wells:
+        rt = sum(s.transport_rate_s for s in w.sources)
+        rq = sum(s.quantum_rate_s for s in w.sources)
+        if rt > 0 and rq > 0:
+            parts = ", ".join(
+                f"{s.name} {s.transport_rate_s / rt:.0%} ({s.quantum_rate_s / rq:.0%})"
+                for s in w.sources
+            )
+            console.print(f"{w.name} shares of 1/tau_t (1/tau_q): {parts}", soft_wrap=True)
     o = sr.options
     p = next((w for w in sr.wells if w.role == "primary"), None)
     if p is not None and not math.isnan(p.mobility_m2_per_Vs):
@@ -88,7 +97,7 @@ def print_disorder(sr, console) -> None:
             f"{o.min_mobility_m2_Vs * 1e4:.3g} cm^2/Vs" + (" [LOW]" if sr.low_mobility else " (ok)")
         )
     for w in sr.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
 
 
 def calibrate_mobility(stack_file, parameter, well, mobility, out, json_out) -> None:
@@ -114,7 +123,7 @@ def calibrate_mobility(stack_file, parameter, well, mobility, out, json_out) -> 
     mu = option_quantity(mobility, "mobility", "--mobility")
     stack = load_stack(stack_file)
     for w in stack.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
     r = solve_bands(stack)
     try:
         nb, sr = fit_background(r, well, mu)

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity
+from .common import guarded, option_quantity, warn
 
 
 def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
@@ -298,6 +298,15 @@ def register(app: typer.Typer) -> None:
             else:
                 text = "not pinched in the sweep"
             typer.echo(f"  {name}: {text}")
+        if res.parallel_path_wells:
+            vp = next((v for n, v in res.pinchoff_V.items() if res.roles.get(n) == "primary"), None)
+            where = "" if vp is None else f" at {vp:+.3f} V"
+            warn(
+                f"{', '.join(res.parallel_path_wells)} still conduct(s) under the constriction "
+                f"after the primary pinches off{where}: a parallel path around the "
+                "constriction. Sweep further, narrow the gap, or feed the screening wells fewer "
+                "donors"
+            )
         if json_out is not None:
             from qhdesign.io import atomic_write_json
 

@@ -30,6 +30,13 @@ def _ax(ax, **fig_kw):
     return ax.figure, ax
 
 
+def _nu_text(nu: float) -> str:
+    from fractions import Fraction
+
+    f = Fraction(nu).limit_denominator(9)
+    return str(f.numerator) if f.denominator == 1 else f"{f.numerator}/{f.denominator}"
+
+
 def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
     """n(x) of every well near the edge, with the lithographic and electronic edges and strips.
 
@@ -51,15 +58,29 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
     for w in result.wells:
         if w.edge_x_m is not None:
             ax.axvline(w.edge_x_m * 1e9, color=colours[w.name], ls="--", lw=1.0)
-    for s in result.strips:
+    for k, s in enumerate(result.strips):
         c = s["centre_m"] * 1e9
         a = s["width_m"] * 1e9
-        ax.axvspan(c - a / 2, c + a / 2, color="tab:purple", alpha=0.25, lw=0)
+        label = (
+            "incompressible strips (ν = "
+            + ", ".join(_nu_text(t["filling"]) for t in result.strips)
+            + ")"
+        )
+        ax.axvspan(
+            c - a / 2,
+            c + a / 2,
+            color="tab:purple",
+            alpha=0.25,
+            lw=0,
+            label=label if k == 0 else None,
+        )
     ax.set_xlim(*window_nm)
     ax.set_xlabel("x from the lithographic gate edge (nm)")
     ax.set_ylabel("sheet density (10$^{11}$ cm$^{-2}$)")
     ax.set_ylim(bottom=0)
-    ax.legend(loc="lower right", fontsize=8, title="wells (dashed: electronic edge)")
+    ax.legend(
+        loc="lower right", fontsize=8, title="wells (dashed: electronic edge)", framealpha=0.9
+    )
     if result.settings.field_T:
         ip = sol.sheet_names.index(result.primary)
         nu = sol.density_m2[ip] * sc.h / (sc.e * result.settings.field_T)
@@ -67,7 +88,8 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
         ax2.plot(x_nm[sel], nu[sel], color=colours[result.primary], lw=0.8, ls=":")
         ax2.set_ylabel(f"local filling of {result.primary} (dotted)")
         ax2.set_ylim(bottom=0)
-    ax.set_title(f"edge at V$_g$ = {result.settings.gate_voltage_V:g} V", fontsize=10)
+    vg = f"{result.settings.gate_voltage_V:g}".replace("-", "\u2212")
+    ax.set_title(f"edge at V$_g$ = {vg} V", fontsize=10)
     return fig
 
 
