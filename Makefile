@@ -43,7 +43,8 @@ demo: $(VENV)/.installed
 	  --contour "primary_mobility_cm^2/Vs=6e5" --out $(OUT)/setback_mobility.png
 	$(QH) edge $(STACK) --gate-voltage -1.0 --field 2 --filling 1 --perimeter "4 um" \
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
-	$(QH) island $(STACK) --radius "1.15 um" --filling 1/3 --gap "120 ueV" \
+	$(QH) island $(STACK) --gate-radius "1.25 um" --gate-voltage -1.0 --filling 1/3 --gap "120 ueV" \
+	  --field-range "11.5..14 T:20" --csv $(OUT)/island_vs_B.csv \
 	  --json $(OUT)/island.json --plot $(OUT)/island.png
 	$(QH) report $(STACK) --field "2 T" --edge-gate -1.0 --island "1.15 um" --filling 1/3 \
 	  --gap "120 ueV" -o $(OUT)/review.html --json $(OUT)/review.json

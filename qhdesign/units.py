@@ -27,6 +27,7 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "velocity": ("[length]/[time]", "m/s", "5e4 m/s"),
     "electric_field": ("[electric_potential]/[length]", "V/m", "1e6 V/m"),
     "mobility": ("[length]**2/[electric_potential]/[time]", "m**2/V/s", "1e6 cm^2/Vs"),
+    "time": ("[time]", "s", "1 ps"),
 }
 
 _BARE_NUMBER = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$")
