@@ -28,7 +28,6 @@ __all__ = [
     "atomic_write_json",
     "atomic_write_text",
     "check_writable",
-    "csv_text",
     "decode_text",
     "read_input_bytes",
 ]
@@ -216,19 +215,3 @@ def atomic_write_json(path: str | os.PathLike, obj: Any, *, source: str | None =
     """
     text = json.dumps(_finite_or_null(obj), indent=2, sort_keys=False, allow_nan=False)
     return atomic_write_text(path, text + "\n", source=source)
-
-
-def csv_text(columns, rows) -> str:
-    """CSV text of a numeric table: a header line, then one line per row (10 significant
-    digits; integers written as integers)."""
-
-    def cell(v) -> str:
-        if isinstance(v, bool):
-            return "1" if v else "0"
-        if isinstance(v, int) or (hasattr(v, "dtype") and getattr(v.dtype, "kind", "") in "iu"):
-            return str(int(v))
-        return f"{float(v):.10g}"
-
-    lines = [",".join(columns)]
-    lines += [",".join(cell(v) for v in row) for row in rows]
-    return "\n".join(lines) + "\n"

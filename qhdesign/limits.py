@@ -110,19 +110,5 @@ def check_solve_temperature(t: float, freeze_temperature: float, key: str = "tem
     return float(t)
 
 
-#: Mesh refinement factors accepted by every FEM stage (1 = the default mesh; cell sizes scale
-#: as 1/refine). Below 0.25 the meshes no longer resolve the sheets; above 4 a solve takes
-#: tens of times the default (docs/performance.md).
-REFINE_RANGE = (0.25, 4.0)
-
-
-def check_refine(value: object, key: str = "refine") -> float:
-    """A mesh refinement factor within :data:`REFINE_RANGE` (a plain number)."""
-    lo, hi = REFINE_RANGE
-    try:
-        ref = float(value) if not isinstance(value, bool) else math.nan
-    except (TypeError, ValueError):
-        ref = math.nan
-    if not lo <= ref <= hi:
-        raise InputError(f"refine must lie in [{lo:g}, {hi:g}], got {value!r}", key=key)
-    return ref
+# One mesh refinement range for every FEM stage (0.25 to 4), defined with the FEM grids.
+from qhdesign.fem.grid import REFINE_RANGE, check_refine  # noqa: E402

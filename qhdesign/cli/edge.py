@@ -219,7 +219,7 @@ def register(app: typer.Typer) -> None:
         if root and csv_out is not None:
             from qhdesign.io import atomic_write_text
 
-            atomic_write_text(csv_out, res.table())
+            atomic_write_text(csv_out, res.table().to_csv())
         if root and plot is not None:
             from qhdesign.plotting import save_figure, use_agg
 
@@ -305,7 +305,7 @@ def register(app: typer.Typer) -> None:
         if csv_out is not None:
             from qhdesign.io import atomic_write_text
 
-            atomic_write_text(csv_out, res.table())
+            atomic_write_text(csv_out, res.table().to_csv())
         if plot is not None:
             from qhdesign.plotting import save_figure, use_agg
 
@@ -346,7 +346,7 @@ def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot,
     if csv_out is not None:
         from qhdesign.io import atomic_write_text
 
-        atomic_write_text(csv_out, res.table())
+        atomic_write_text(csv_out, res.table().to_csv())
     if plot is not None:
         from qhdesign.plotting import save_figure, use_agg
 

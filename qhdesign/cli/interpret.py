@@ -86,7 +86,7 @@ def _fmt(v, s, scale, unit, digits=4) -> str:
 
 def register(app: typer.Typer) -> None:
     @app.command("interpret")
-    @guarded
+    @guarded(options={"filling": "--filling"})
     def interpret(
         period_compressible: str = typer.Option(
             ...,
@@ -122,7 +122,7 @@ def register(app: typer.Typer) -> None:
         from qhdesign.interpretation import Measured, Measurement, interpret_measurement
         from qhdesign.island_options import parse_filling
 
-        nu = parse_filling(filling)
+        nu = parse_filling(filling, key="filling")
         try:
             from qhdesign.interferometer import check_filling
 

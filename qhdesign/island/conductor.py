@@ -40,6 +40,7 @@ from scipy import constants as sc
 
 from qhdesign.errors import InputError
 from qhdesign.fem.capacitance import AxiLine, AxiMeshOptions, AxiProblem, solve_capacitance
+from qhdesign.results import Table
 
 __all__ = [
     "IslandColumn",
@@ -452,6 +453,14 @@ class IslandResult:
             "fixed_filling_window_mT": mT(p["fixed_filling_window_T"]),
         }
 
+    def table(self) -> Table:
+        """The Maxwell matrix and the elastance matrix, one row per conductor (0 = I, 1 = L)."""
+        C = 1e18 * self.capacitance_F
+        K = self.elastance_J / UEV
+        cols = ("conductor_index", "C_with_I_aF", "C_with_L_aF", "K_with_I_ueV", "K_with_L_ueV")
+        rows = np.column_stack(([0.0, 1.0], C[:, 0], C[:, 1], K[:, 0], K[:, 1]))
+        return Table(cols, rows)
+
 
 # ---------------------------------------------------------------------------- problem
 def island_problem(
@@ -479,8 +488,7 @@ def island_problem(
             if s.outer_well:
                 lines.append(sheet(f"{wl.name}_outside", wl.z_m, Rg, wl.dos_J_m2))
             continue
-        if wl.role == "primary":  # a second primary well: treated like a screening well
-            pass
+        # a second primary well is treated like a screening well
         if not (wl.density_m2 > EMPTY_DENSITY_M2 or math.isnan(wl.density_m2)):
             excluded.append(wl.name)
             continue
