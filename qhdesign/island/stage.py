@@ -472,9 +472,9 @@ def _lifetimes(section, lifetimes_s, st: OperatingSettings) -> tuple[dict, str]:
     """Quantum lifetime of every sheet (s) and where it comes from."""
     names = [s.name for s in section.sheets]
     if st.level_width_J is not None:
-        return {n: float("nan") for n in names}, "user width (--level-width)"
+        return {n: float("nan") for n in names}, "user width (level width given)"
     if st.quantum_lifetime_s is not None:
-        return {n: st.quantum_lifetime_s for n in names}, "user lifetime (--quantum-lifetime)"
+        return {n: st.quantum_lifetime_s for n in names}, "user lifetime (quantum lifetime given)"
     if lifetimes_s:
         out = {}
         for n in names:
