@@ -12,7 +12,7 @@ BASE_PY := $(shell for p in $(PYTHON_CANDIDATES); do \
     if $$p -c 'import sys; sys.exit(0 if sys.version_info >= (3, 12) else 1)' >/dev/null 2>&1; then \
       command -v $$p 2>/dev/null || echo $$p; break; fi; done)
 
-.PHONY: demo test bench lint venv clean validation browser
+.PHONY: demo test test-fast bench lint venv clean validation browser
 
 $(VENV)/.installed: pyproject.toml
 	@if [ -z "$(BASE_PY)" ]; then \
@@ -52,6 +52,10 @@ demo: $(VENV)/.installed
 
 test: $(VENV)/.installed
 	$(PY) -m pytest -q
+
+# The quick tier while iterating: everything but the slow (> ~20 s) and the mpiexec tests.
+test-fast: $(VENV)/.installed
+	$(PY) -m pytest -q -m "not slow and not mpi"
 
 # Regenerate the checked table of docs/validation.md from a run of the reference tests (each
 # records its check, source, tolerance and deviation; scripts/render_validation.py renders them).

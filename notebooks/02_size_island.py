@@ -35,7 +35,8 @@ UEV = 1e-6 * sc.e
 # The 1D stage runs once; each island radius is one axisymmetric solve.
 
 # %%
-from qhdesign.tf2d import solve_island
+from qhdesign.island_options import island_inputs
+from qhdesign.pipeline import solve_island
 
 stack = qhdesign.load_stack(root / "stacks" / "ql2417_screened.toml")
 column = island_column(stack)
@@ -44,7 +45,8 @@ n = column.primary.density_m2
 
 
 def evaluate(R):
-    res = solve_island(column, radius=R, filling=1 / 3)
+    geometry, settings = island_inputs(radius=R, filling=1 / 3)
+    res = solve_island(column, geometry, settings)
     return figures_from_result(res, cond, n)
 
 
@@ -145,7 +147,8 @@ predicted = evaluate(0.8e-6)
 print(f"the model predicted K_IL/K_I = {predicted['K_IL_over_K_I']:.3f} at R = 0.8 um")
 
 # %% [markdown]
-# Checks on the read-back: the inferred area and coupling reproduce the measured periods through
+# ## Checks: physical invariants
+# On the read-back: the inferred area and coupling reproduce the measured periods through
 # the forward closed forms (analytic inverse), and the corrected anyonic phase is consistent with
 # the Laughlin value 1/3 (Arovas, Schrieffer, Wilczek, Phys. Rev. Lett. 53, 722 (1984)) within
 # its propagated uncertainty.

@@ -32,7 +32,8 @@ G. F. Giuliani, G. Vignale, Quantum Theory of the Electron Liquid (Cambridge, 20
 (2D Hartree–Fock compressibility kappa_0 / kappa = 1 - sqrt(2) r_s / pi).
 J. P. Eisenstein, L. N. Pfeiffer, K. W. West, Phys. Rev. Lett. 68, 674 (1992) (negative
 compressibility of a 2D sheet measured; dmu/dn with the exchange term above).
-C. Weisbuch, C. Hermann, Phys. Rev. B 15, 816 (1977) (g* = -0.44 in GaAs).
+M. Oestreich, W. W. Ruehle, Phys. Rev. Lett. 74, 2315 (1995) (g* = -0.44 in GaAs; the
+materials table's value).
 """
 
 from __future__ import annotations
@@ -45,6 +46,7 @@ import numpy as np
 from scipy import constants as sc
 from scipy.special import erf
 
+from qhdesign import materials
 from qhdesign.errors import InputError
 
 __all__ = [
@@ -59,8 +61,9 @@ __all__ = [
     "zero_field_dos",
 ]
 
-#: |g*| of GaAs conduction electrons (Weisbuch & Hermann, Phys. Rev. B 15, 816 (1977): -0.44).
-G_FACTOR_GAAS = 0.44
+#: |g*| of GaAs conduction electrons, from the materials table (``gaas.g_factor``, -0.44 with
+#: its source there).
+G_FACTOR_GAAS = abs(materials.electron_g_factor_gaas())
 _MU_B = sc.physical_constants["Bohr magneton"][0]
 
 

@@ -11,6 +11,8 @@ import importlib
 
 import typer
 
+from .common import OneLineGroup
+
 #: Command modules, in the order their commands appear in ``--help``.
 COMMAND_MODULES = (
     "check",
@@ -42,6 +44,10 @@ def build_app() -> typer.Typer:
         no_args_is_help=True,
         add_completion=False,
         pretty_exceptions_enable=False,
+        # plain help and usage errors: rendering them with rich costs ~0.3 s of imports at
+        # every start-up (measured with python -X importtime; docs/performance.md)
+        rich_markup_mode=None,
+        cls=OneLineGroup,
     )
 
     @app.callback()

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity
+from .common import JsonOut, Refine, guarded, option_quantity
 
 
 def _print(res) -> None:
@@ -69,9 +69,38 @@ def _print_figures(f: dict) -> None:
     )
 
 
+#: Argument names of the island physics (error keys) -> options of ``island``.
+ISLAND_OPTIONS = {
+    "radius_m": "--radius",
+    "ring_width_m": "--ring-width",
+    "gate_offset_m": "--gate-offset",
+    "split_gap_m": "--split-gap",
+    "filling": "--filling",
+    "gap_energy_J": "--gap",
+    "screening": "--screening",
+    "surface": "--surface",
+    "far": "--far",
+    "refine": "--refine",
+    # the operating-point island (qhdesign.island.operating / response)
+    "gate_radius_m": "--gate-radius",
+    "electronic_radius_m": "--electronic-radius",
+    "gate_width_m": "--gate-width",
+    "gate_voltage_V": "--gate-voltage",
+    "bulk_shape": "--bulk-charge",
+    "gap_J": "--gap",
+    "gap_kind": "--gap-kind",
+    "field_T": "--field",
+    "temperature_K": "--temperature",
+    "level_width_J": "--level-width",
+    "quantum_lifetime_s": "--quantum-lifetime",
+    "g_factor": "--g-factor",
+    "r_threshold": "--r-threshold",
+}
+
+
 def register(app: typer.Typer) -> None:
     @app.command("island")
-    @guarded
+    @guarded(options=ISLAND_OPTIONS)
     def island(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         gate_radius: str | None = typer.Option(
@@ -163,7 +192,7 @@ def register(app: typer.Typer) -> None:
             "--outer-well/--no-outer-well",
             help="LEGACY (--radius): primary well beyond the gate edge as a sheet.",
         ),
-        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
+        refine: Refine = 1.0,
         electron_temperature: str = typer.Option(
             "20 mK",
             "--electron-temperature",
@@ -174,21 +203,23 @@ def register(app: typer.Typer) -> None:
             "--edge-velocity",
             help="Edge velocity for T0 (default: the operating point's strip, else 2e4 m/s).",
         ),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        json_out: JsonOut = None,
         plot: Path | None = typer.Option(
             None, "--plot", help="Write the figure (n(r) and, with --field-range, K's vs B)."
         ),
     ) -> None:
         """K_I, K_L, K_IL, charging energy, periods and window of an island in STACK_FILE."""
-        from qhdesign.errors import InputError
 
         if radius is None:
             from .island_op import run
 
             return run(stack_file, dict(locals()))
+        from dataclasses import replace
+
         from qhdesign.fem.backend import load
-        from qhdesign.island import IslandGeometry
-        from qhdesign.island.conductor import parse_filling
+        from qhdesign.island import IslandGeometry, IslandSettings
+        from qhdesign.island_options import parse_filling
+        from qhdesign.limits import check_refine
         from qhdesign.pipeline import solve_island
         from qhdesign.stack import load_stack
 
@@ -198,8 +229,6 @@ def register(app: typer.Typer) -> None:
             gate_offset_m=option_quantity(gate_offset, "length", "--gate-offset"),
             split_gap_m=option_quantity(split_gap, "length", "--split-gap"),
         )
-        if not 0.25 <= refine <= 4:
-            raise InputError("refine must lie in [0.25, 4]", source="option --refine")
         from qhdesign.island_figures import (
             conditions_from_edge,
             figures_from_result,
@@ -207,7 +236,7 @@ def register(app: typer.Typer) -> None:
             split_island_options,
         )
 
-        cond, qh, gate_v = split_island_options(
+        cond, _, gate_v = split_island_options(
             {
                 "filling": filling,
                 "gap": gap,
@@ -219,23 +248,21 @@ def register(app: typer.Typer) -> None:
             },
             source_prefix="--",
         )
-        if gap is None:
-            qh.pop("filling", None)
-        options = {
-            "screening": screening,
-            "surface": surface,
-            "far": far,
-            "outer_well": outer_well,
-            "filling": parse_filling(filling),
-            "gap": qh.get("gap"),  # the quasiparticle gap ("... J"), parsed by the stage
-            "refine": refine,
-        }
+        settings = IslandSettings(
+            screening=screening,
+            surface=surface,
+            far=far,
+            outer_well=outer_well,
+            filling=parse_filling(filling, key="filling"),
+            gap_energy_J=cond.gap_qp_J,  # the quasiparticle gap (an activation gap halved)
+        )
+        settings = replace(settings, mesh=replace(settings.mesh, refine=check_refine(refine)))
         stack = load_stack(stack_file)
         column = island_column(stack)
         if gate_v is not None:
             cond = conditions_from_edge(stack, cond, gate_v)
-        res = solve_island(column, geometry, keep_potentials=plot is not None, **options)
-        figures = figures_from_result(res, cond, getattr(column, "primary", None).density_m2)
+        res = solve_island(column, geometry, settings, keep_potentials=plot is not None)
+        figures = figures_from_result(res, cond, column.primary.density_m2)
         MPI, _ = load()
         if MPI.COMM_WORLD.rank != 0:
             return

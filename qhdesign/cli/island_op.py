@@ -49,9 +49,9 @@ def parse_field_range(text: str) -> tuple[float, ...]:
 def run(stack_file: Path, o: dict) -> None:
     """Run the operating-point island from the CLI options ``o`` (names as the typer parameters)."""
     from qhdesign.fem.backend import load
-    from qhdesign.island.conductor import parse_filling
     from qhdesign.island.operating import GATE_WIDTH_M, IslandDevice
     from qhdesign.island.stage import OperatingSettings
+    from qhdesign.island_options import parse_filling
     from qhdesign.pipeline import solve_island_operating
     from qhdesign.section.geometry import MeshOptions
     from qhdesign.stack import load_stack
@@ -74,7 +74,7 @@ def run(stack_file: Path, o: dict) -> None:
         gate_width_m=option_quantity(o["gate_width"], "length", "--gate-width") or GATE_WIDTH_M,
     )
     kw = {
-        "filling": parse_filling(o["filling"] or "1/3"),
+        "filling": parse_filling(o["filling"] or "1/3", key="filling"),
         "gap_J": option_quantity(o["gap"], "energy", "--gap"),
         "gap_kind": o["gap_kind"],
         "field_T": option_quantity(o["field"], "field", "--field"),
@@ -97,8 +97,9 @@ def run(stack_file: Path, o: dict) -> None:
             "--csv writes the --field-range table; give --field-range", source="option --csv"
         )
     refine = o["refine"]
-    if not 0.25 <= refine <= 4:
-        raise InputError("refine must lie in [0.25, 4]", source="option --refine")
+    from qhdesign.fem.grid import check_refine
+
+    check_refine(refine, source="option --refine")
     stack = load_stack(stack_file)
     res = solve_island_operating(
         stack, device, settings, fields_T=fields, mesh_options=MeshOptions(refine=refine)

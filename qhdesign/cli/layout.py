@@ -96,14 +96,14 @@ def register(app: typer.Typer) -> None:
 
         from qhdesign.errors import InputError
         from qhdesign.fem.backend import load
+        from qhdesign.fem.grid import check_refine
         from qhdesign.layout import load_layout
         from qhdesign.layout.layoutfile import check_voltage
         from qhdesign.layout.model3d import Layout3DOptions
         from qhdesign.layout.stage import solve_layout
         from qhdesign.stack import load_stack
 
-        if not 0.25 <= refine <= 4:
-            raise InputError("refine must lie in [0.25, 4]", source="option --refine")
+        check_refine(refine, source="option --refine")
         if fields is not None and fields.suffix.lower() != ".xdmf":
             raise InputError(
                 "fields are written as XDMF: give a .xdmf file", source="option --fields"

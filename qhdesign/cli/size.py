@@ -110,12 +110,15 @@ def register(app: typer.Typer) -> None:
         column = island_column(stack)
         if gate_v is not None:
             cond = conditions_from_edge(stack, cond, gate_v)
-        from qhdesign.tf2d import solve_island
+        from qhdesign.pipeline import solve_island
 
         density = column.primary.density_m2
 
+        from qhdesign.island_options import island_inputs
+
         def evaluate(R: float) -> dict:
-            res = solve_island(column, radius=R, **geo, **qh)
+            geometry, settings = island_inputs(radius=R, **geo, **qh)
+            res = solve_island(column, geometry, settings)
             return figures_from_result(res, cond, density)
 
         result = size_island(evaluate, targets, lo, hi, points=points)

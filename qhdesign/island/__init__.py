@@ -14,22 +14,7 @@ through :func:`qhdesign.pipeline.solve_island_operating`. These load DOLFINx ins
 
 from __future__ import annotations
 
-from .conductor import (
-    IslandColumn,
-    IslandGeometry,
-    IslandResult,
-    IslandSettings,
-    WellLine,
-    column_from_sheet_model,
-    solve_island,
-)
+from . import conductor
+from .conductor import *  # noqa: F403  (the conductor model's public names)
 
-__all__ = [
-    "IslandColumn",
-    "IslandGeometry",
-    "IslandResult",
-    "IslandSettings",
-    "WellLine",
-    "column_from_sheet_model",
-    "solve_island",
-]
+__all__ = list(conductor.__all__)

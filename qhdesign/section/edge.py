@@ -11,13 +11,15 @@ Definitions of edge, healing length, cut and strips: :mod:`qhdesign.section.prof
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 from scipy import constants as sc
 
+from qhdesign import materials
 from qhdesign.errors import InputError
+from qhdesign.limits import MIN_GATE_VOLTAGE_V, check_field, check_gate_voltage  # noqa: F401
+from qhdesign.results import Table, flatten
 
 from .geometry import GateLayout, MeshOptions
 from .model import CrossSection, _inverse_tf
@@ -40,11 +42,6 @@ __all__ = [
 
 #: Gate-voltage step of the finite difference for the edge shift per volt (V).
 VOLTAGE_STEP_V = 0.02
-#: |g*| of GaAs for the spin gap of odd integer strips (bare Zeeman, exchange enhancement
-#: ignored). From memory: g* = -0.44 for GaAs conduction electrons.
-G_FACTOR_GAAS = 0.44
-#: Most negative gate voltage accepted (V): beyond this a Schottky gate breaks down.
-MIN_GATE_VOLTAGE_V = -20.0
 
 
 @dataclass(frozen=True)
@@ -77,29 +74,24 @@ class EdgeSettings:
     def __post_init__(self):
         if self.filling is not None and (self.field_T is None or self.field_T == 0.0):
             raise InputError(
-                "a filling needs a magnetic field: give --field B with B > 0 T",
-                source="option --field",
+                "a filling needs a magnetic field B > 0 T", key="field_T", related=("filling",)
             )
-        if self.field_T is not None and not self.field_T > 0:
-            raise InputError(
-                f"field must be > 0 T, got {self.field_T:g} T", source="option --field"
-            )
+        check_field(self.field_T, "field_T")
         if self.filling is not None and not self.filling > 0:
-            raise InputError(
-                f"filling must be > 0, got {self.filling:g}", source="option --filling"
-            )
+            raise InputError(f"filling must be > 0, got {self.filling:g}", key="filling")
         if self.gap_energy_J is not None and not self.gap_energy_J > 0:
-            raise InputError("gap energy must be > 0", source="option --gap-energy")
+            raise InputError("gap energy must be > 0", key="gap_energy_J")
         if self.gap_energy_J is not None and (
             self.filling is None or abs(self.filling - round(self.filling)) < 1e-9
         ):
             raise InputError(
-                "--gap-energy is the gap of a fractional --filling (e.g. --filling 1/3); "
+                "a gap energy is the gap of a fractional filling (e.g. 1/3); "
                 "integer strips use the Landau or spin gap",
-                source="option --gap-energy",
+                key="gap_energy_J",
+                related=("filling",),
             )
         if self.perimeter_m is not None and not self.perimeter_m > 0:
-            raise InputError("perimeter must be > 0", source="option --perimeter")
+            raise InputError("perimeter must be > 0", key="perimeter_m")
 
 
 @dataclass(frozen=True)
@@ -177,6 +169,17 @@ class EdgeResult:
             "solver": dict(self.info),
         }
 
+    def summary(self) -> dict[str, float]:
+        """Flat numbers of :meth:`to_dict` (``wells.<name>.<key>`` etc.), solver record left out."""
+        d = self.to_dict()
+        d.pop("solver", None)  # timings and mesh sizes: not design outputs
+        return flatten(d)
+
+    def table(self) -> Table:
+        """The n(x) profile: x (nm), each well's density (cm^-2), the primary filling (if B)."""
+        cols, rows = self.profile_table()
+        return Table(tuple(cols), rows)
+
     def profile_table(self) -> tuple[list[str], np.ndarray]:
         """Columns and rows of the n(x) table (x in nm, densities in cm^-2, filling)."""
         sol = self.solution
@@ -189,14 +192,9 @@ class EdgeResult:
         return cols, np.column_stack(data)
 
 
-def _check_gate_voltage(section: CrossSection, v: float) -> None:
-    limit = section.gate_barrier_J / sc.e
-    if not (MIN_GATE_VOLTAGE_V <= v <= limit) or not math.isfinite(v):
-        raise InputError(
-            f"gate voltage {v:g} V is outside the allowed range "
-            f"[{MIN_GATE_VOLTAGE_V:g} V, {limit:.3g} V] (above it the Schottky gate conducts)",
-            source="option --gate-voltage",
-        )
+def _check_gate_voltage(section: CrossSection, v: float, key: str = "gate_voltage_V") -> None:
+    """The one gate-voltage rule (:func:`qhdesign.limits.check_gate_voltage`)."""
+    check_gate_voltage(v, section.gate_barrier_J, key, barrier_name="the gate's barrier")
 
 
 def _primary(section: CrossSection) -> int:
@@ -263,7 +261,7 @@ def _check_electrons(sol: FieldSolution, section: CrossSection, v: float) -> Non
         raise InputError(
             f"gate voltage {v:g} V leaves no electrons anywhere in the cross-section "
             f"(|x| <= {sol.x_m[-1] * 1e6:.2f} um); use a less negative voltage",
-            source="option --gate-voltage",
+            key="gate_voltage_V",
         )
 
 
@@ -393,7 +391,9 @@ def _field_figures(sol: FieldSolution, section, ip: int, settings: EdgeSettings)
             if k % 2 == 0:
                 levels.append((float(k), hw_c, "Landau gap hbar*omega_c"))
             else:
-                gap = G_FACTOR_GAAS * sc.physical_constants["Bohr magneton"][0] * B
+                # bare Zeeman gap |g*| mu_B B of GaAs (exchange enhancement ignored)
+                g_star = abs(materials.electron_g_factor_gaas())
+                gap = g_star * sc.physical_constants["Bohr magneton"][0] * B
                 levels.append((float(k), gap, "bare Zeeman gap |g*| mu_B B"))
     if settings.gap_energy_J is not None and settings.filling is not None:
         if abs(settings.filling - round(settings.filling)) > 1e-9 and settings.filling < nu_bulk:
