@@ -266,8 +266,8 @@ def option_number(value: str | float | None, option: str) -> float | None:
 def option_quantity(value: str | None, dimension: str, option: str) -> float | None:
     """Parse a CLI option value with a unit (``"-0.4 V"``, ``"30 nm"``); ``None`` passes through.
 
-    Every dimensional option needs its unit, except voltages (and fields, read in tesla): a plain
-    number given to a voltage option is read in volts (``--gate-voltage -0.4``), since negative
+    Every dimensional option needs its unit, except voltages: a plain number given to a voltage
+    option is read in volts (``--gate-voltage -0.4``), since negative
     bare numbers are what people type for gate biases. A plain number must be finite and
     decimal (no ``nan``, no ``inf``).
     """
@@ -276,7 +276,7 @@ def option_quantity(value: str | None, dimension: str, option: str) -> float | N
     from qhdesign.units import _BARE_NUMBER
 
     text = str(value).strip()
-    if dimension in ("voltage", "field") and _BARE_NUMBER.match(text):
+    if dimension == "voltage" and _BARE_NUMBER.match(text):
         return option_number(text, option)
     from qhdesign.units import parse_quantity
 

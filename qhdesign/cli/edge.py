@@ -14,7 +14,17 @@ import typer
 
 from qhdesign.limits import check_refine
 
-from .common import GateBarrier, JsonOut, Refine, StackFile, Surface, guarded, option_quantity, warn
+from .common import (
+    GateBarrier,
+    JsonOut,
+    Refine,
+    StackFile,
+    Surface,
+    guarded,
+    option_number,
+    option_quantity,
+    warn,
+)
 
 
 def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
@@ -53,7 +63,12 @@ PINCHOFF_OPTIONS = {
 
 
 def _field(value: str | None) -> float | None:
-    """A field option: a bare number is read in tesla; the range is the physics' rule."""
+    """A field option of ``edge``: a bare number is read in tesla (as documented there); the
+    range is the physics' rule."""
+    from qhdesign.units import _BARE_NUMBER
+
+    if value is not None and _BARE_NUMBER.match(value.strip()):
+        return option_number(value, "--field")
     return option_quantity(value, "field", "--field")
 
 
