@@ -56,6 +56,7 @@ _MODEL_KEYS: dict[str, Any] = {
     "gap_fraction": "number",
     "permittivity": ("alloy", "uniform"),
     "uniform_permittivity": "number",
+    "exchange_correlation": ("none", "hedin-lundqvist", "perdew-zunger"),
 }
 _SURFACE_KEYS: dict[str, Any] = {
     "kind": ("exposed", "gate"),
@@ -224,6 +225,9 @@ class Stack:
     gap_fraction : float
     permittivity_model : {"alloy", "uniform"}
     uniform_permittivity : float
+    exchange_correlation : {"none", "hedin-lundqvist", "perdew-zunger"}
+        LDA exchange–correlation potential in the 1D Schrödinger equation (``models.
+        exchange_correlation``); see :mod:`qhdesign.sp1d.xc`.
     """
 
     name: str
@@ -237,6 +241,7 @@ class Stack:
     gap_fraction: float = 0.65
     permittivity_model: str = "alloy"
     uniform_permittivity: float = 12.9
+    exchange_correlation: str = "none"
     source: str = field(default="<memory>", compare=False)
     document: dict = field(default_factory=dict, compare=False, repr=False)
     warnings: tuple[str, ...] = field(default=(), compare=False, repr=False)
@@ -405,6 +410,7 @@ class Stack:
                 "gap_fraction": self.gap_fraction,
                 "permittivity": self.permittivity_model,
                 "uniform_permittivity": self.uniform_permittivity,
+                "exchange_correlation": self.exchange_correlation,
             },
             "surface": {
                 "kind": self.surface.kind,
