@@ -50,7 +50,7 @@ def test_exchange_potential_is_kohn_sham_gaspar(n_cm3):
 
 
 def test_gaas_effective_bohr_radius():
-    a_star, ha_star = xc.effective_units(0.067, 12.9)
+    a_star, _ = xc.effective_units(0.067, 12.9)
     assert a_star == pytest.approx(12.9 / 0.067 * A0, rel=1e-12)
     assert a_star == pytest.approx(10.19e-9, abs=0.01e-9)
 

@@ -127,6 +127,6 @@ def test_exchange_correlation_key_reads_validates_and_sweeps():
     assert stack.to_dict()["models"]["exchange_correlation"] == "perdew-zunger"
     assert load_stack(SCREENED).exchange_correlation == "none"
     assert stack.with_value("models.exchange_correlation", "none").exchange_correlation == "none"
-    with pytest.raises(StackError, match="models.exchange_correlation") as exc:
+    with pytest.raises(StackError, match=r"models\.exchange_correlation") as exc:
         loads_stack(text + '\n[models]\nexchange_correlation = "slater"\n')
     assert "hedin-lundqvist" in str(exc.value)
