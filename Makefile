@@ -12,7 +12,7 @@ BASE_PY := $(shell for p in $(PYTHON_CANDIDATES); do \
     if $$p -c 'import sys; sys.exit(0 if sys.version_info >= (3, 12) else 1)' >/dev/null 2>&1; then \
       command -v $$p 2>/dev/null || echo $$p; break; fi; done)
 
-.PHONY: demo test bench lint venv clean
+.PHONY: demo test bench lint venv clean validation browser
 
 $(VENV)/.installed: pyproject.toml
 	@if [ -z "$(BASE_PY)" ]; then \
@@ -36,6 +36,11 @@ demo: $(VENV)/.installed
 	$(QH) plot-sweep $(OUT)/setback.csv --x layers.setback_upper.thickness \
 	  --y layers.setback_lower.thickness --color "primary_density_cm^-2" \
 	  --contour "primary_density_cm^-2=1.0e11" --out $(OUT)/setback_window.png
+	@rm -f $(OUT)/setback_mobility.csv $(OUT)/setback_mobility.csv.sweep.json
+	$(QH) sweep sweeps/ql2417_setback_mobility.toml --out $(OUT)/setback_mobility.csv
+	$(QH) plot-sweep $(OUT)/setback_mobility.csv --x layers.setback_upper.thickness \
+	  --y layers.setback_lower.thickness --color "primary_mobility_cm^2/Vs" \
+	  --contour "primary_mobility_cm^2/Vs=6e5" --out $(OUT)/setback_mobility.png
 	$(QH) edge $(STACK) --gate-voltage -1.0 --field 2 --filling 1 --perimeter "4 um" \
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
 	$(QH) island $(STACK) --radius "1.15 um" --filling 1/3 --gap "120 ueV" \
@@ -44,6 +49,21 @@ demo: $(VENV)/.installed
 
 test: $(VENV)/.installed
 	$(PY) -m pytest -q
+
+# Regenerate the checked table of docs/validation.md from a run of the reference tests (each
+# records its check, source, tolerance and deviation; scripts/render_validation.py renders them).
+validation: $(VENV)/.installed
+	@rm -f results/validation.json; mkdir -p results
+	QHDESIGN_VALIDATION_JSON=results/validation.json $(PY) -m pytest -q -m "not mpi" tests/reference
+	$(PY) scripts/render_validation.py results/validation.json docs/validation.md
+
+# Headless Chromium (Debian package) for the browser test of the design review; installs with
+# apt-get as root, only where it is missing.
+browser:
+	@command -v chromium >/dev/null 2>&1 || { \
+	  if [ "$$(id -u)" = 0 ]; then apt-get update && apt-get install -y chromium; \
+	  else echo "error: chromium is missing; install it as root: apt-get install -y chromium" >&2; exit 2; fi; }
+	@chromium --version
 
 bench: $(VENV)/.installed
 	@for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done

@@ -26,6 +26,7 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "area": ("[length]**2", "m**2", "1 um^2"),
     "velocity": ("[length]/[time]", "m/s", "5e4 m/s"),
     "electric_field": ("[electric_potential]/[length]", "V/m", "1e6 V/m"),
+    "mobility": ("[length]**2/[electric_potential]/[time]", "m**2/V/s", "1e6 cm^2/Vs"),
 }
 
 _BARE_NUMBER = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$")
@@ -99,7 +100,7 @@ def parse_quantity(
         )
     ureg = registry()
     try:
-        q = ureg.Quantity(text.replace("^", "**"))
+        q = ureg.Quantity(re.sub(r"/\s*Vs\b", "/(V*s)", text).replace("^", "**"))
     except Exception:  # pint raises several unrelated types on garbage
         raise InputError(
             f"cannot read '{value}' as a {dimension.replace('_', ' ')}; "

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import typer
 
+from . import disorder as D
 from .common import guarded, option_quantity
 
 
@@ -116,11 +117,22 @@ def register(app: typer.Typer) -> None:
         ),
         json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
         plot: Path | None = typer.Option(None, "--plot", help="Write the band diagram."),
+        background: str | None = typer.Option(None, "--background", help=D.BACKGROUND_HELP),
+        roughness_height: str | None = typer.Option(
+            None, "--roughness-height", help=D.ROUGH_H_HELP
+        ),
+        roughness_length: str | None = typer.Option(
+            None, "--roughness-length", help=D.ROUGH_L_HELP
+        ),
+        min_mobility: str | None = typer.Option(None, "--min-mobility", help=D.MIN_MOB_HELP),
     ) -> None:
-        """Self-consistent subbands and the charge in each well (donors frozen at freeze-out)."""
+        """Self-consistent subbands and the charge in each well (donors frozen at freeze-out),
+        with a disorder estimate per well (mobility, quantum lifetime, level broadening)."""
         from qhdesign.errors import InputError
         from qhdesign.sp1d import BandsOptions, solve_bands
+        from qhdesign.sp1d.scattering import scattering
 
+        dis = D.disorder_options(background, roughness_height, roughness_length, min_mobility)
         stack = _load(stack_file)
         v = option_quantity(gate, "voltage", "--gate")
         t = _temperature(temperature)
@@ -134,11 +146,15 @@ def register(app: typer.Typer) -> None:
 
             check_gate_voltage(stack, v, "--gate")
         r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
+        sr = scattering(r, dis)
         _print_bands(r)
+        from rich.console import Console
+
+        D.print_disorder(sr, Console(width=110))
         if json_out is not None:
             from qhdesign.io import atomic_write_json
 
-            atomic_write_json(json_out, r.to_dict())
+            atomic_write_json(json_out, sr.merge_into(r.to_dict()))
             typer.echo(f"wrote {json_out}")
         if plot is not None:
             from qhdesign.plotting import save_figure
@@ -233,8 +249,11 @@ def register(app: typer.Typer) -> None:
     @guarded
     def calibrate_cmd(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
-        parameter: str = typer.Option(
-            ..., "--parameter", help="Stack parameter path to fit, e.g. surface.barrier."
+        parameter: str | None = typer.Option(
+            None,
+            "--parameter",
+            help="Stack parameter path to fit, e.g. surface.barrier (with --mobility: "
+            "background, the default).",
         ),
         well: str = typer.Option(..., "--well", help="Well whose measurement is given."),
         density: str | None = typer.Option(
@@ -249,16 +268,36 @@ def register(app: typer.Typer) -> None:
             help='Search interval for the parameter, "LOW..HIGH" with units '
             '(e.g. "0.6 eV..0.8 eV"); default +-50% of its value.',
         ),
-        out: Path = typer.Option(..., "--out", help="Write the calibrated stack (TOML) here."),
+        out: Path | None = typer.Option(
+            None, "--out", help="Write the calibrated stack (TOML) here (not with --mobility)."
+        ),
         json_out: Path | None = typer.Option(None, "--json", help="Write the fit as JSON."),
+        mobility: str | None = typer.Option(
+            None,
+            "--mobility",
+            help='Measured mobility of --well, e.g. "1.2e6 cm^2/Vs": fits the background '
+            "impurity density of the disorder estimate (use it as bands --background).",
+        ),
     ) -> None:
-        """Fit one stack parameter to a measured density or threshold; write the new stack."""
+        """Fit one stack parameter to a measured density or threshold and write the new stack;
+        or fit the background impurity density to a measured mobility."""
         from qhdesign.errors import InputError
         from qhdesign.sp1d import calibrate
 
+        given = [x is not None for x in (density, threshold, mobility)]
+        if sum(given) != 1:
+            raise InputError(
+                "give exactly one of --density or --threshold (or --mobility)", source="options"
+            )
+        if mobility is not None:
+            D.calibrate_mobility(stack_file, parameter, well, mobility, out, json_out)
+            return
+        for value, option in ((parameter, "--parameter"), (out, "--out")):
+            if value is None:
+                raise InputError(
+                    "required with --density or --threshold", source=f"option {option}"
+                )
         stack = _load(stack_file)
-        if (density is None) == (threshold is None):
-            raise InputError("give exactly one of --density or --threshold", source="options")
         if density is not None:
             target, measured = "density", option_quantity(density, "sheet_density", "--density")
         else:

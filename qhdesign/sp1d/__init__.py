@@ -6,6 +6,8 @@ Public entry points (all SI inside; energies relative to the Fermi level of the 
 - :func:`gate_response` -> :class:`GateResult` (gate sweep with frozen donors, thresholds)
 - :func:`calibrate` -> :class:`CalibrationResult` (fit one stack parameter to a measurement)
 - :func:`sheet_model` -> :class:`SheetModel` (per-well sheets for the 2D stage)
+- :func:`qhdesign.sp1d.scattering.scattering` -> :class:`ScatteringResult` (disorder estimate
+  per well: mobility, lifetimes) and :func:`level_broadening` (Gamma = hbar / (2 tau_q))
 """
 
 from __future__ import annotations
@@ -14,6 +16,7 @@ from .calibrate import CalibrationResult, calibrate
 from .gates import GateResult, gate_response
 from .options import BandsOptions
 from .results import BandsResult
+from .scattering import ScatteringOptions, ScatteringResult, level_broadening
 from .selfconsistent import SolveOptions
 from .sheets import SheetModel, WellSheet, sheet_model
 from .solve import freeze_out, solve_bands
@@ -23,12 +26,15 @@ __all__ = [
     "BandsResult",
     "CalibrationResult",
     "GateResult",
+    "ScatteringOptions",
+    "ScatteringResult",
     "SheetModel",
     "SolveOptions",
     "WellSheet",
     "calibrate",
     "freeze_out",
     "gate_response",
+    "level_broadening",
     "sheet_model",
     "solve_bands",
 ]

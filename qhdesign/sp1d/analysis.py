@@ -239,6 +239,7 @@ def build_results(
                 lowest_subband_J=float(en[mine[0]]) if mine else math.nan,
                 subbands=tuple(mine),
                 filling_factor=nu,
+                permittivity_rel=float(p.permittivity),
             )
         )
     # doped layers
@@ -252,6 +253,8 @@ def build_results(
             donors_m2=float(don_layer[i]),
             ionized_m2=float(ion_layer[i]),
             electrons_m2=float(par_layer[i]),
+            z_top_m=float(prof[i].z_top),
+            z_bottom_m=float(prof[i].z_bottom),
         )
         for i in layout.doped_layers
     )

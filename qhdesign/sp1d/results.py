@@ -30,6 +30,7 @@ class WellResult:
     lowest_subband_J: float
     subbands: tuple[int, ...]
     filling_factor: float = math.nan
+    permittivity_rel: float = math.nan
 
 
 @dataclass(frozen=True)
@@ -51,6 +52,8 @@ class DopingResult:
     donors_m2: float
     ionized_m2: float
     electrons_m2: float
+    z_top_m: float = math.nan
+    z_bottom_m: float = math.nan
 
     @property
     def ionized_fraction(self) -> float:

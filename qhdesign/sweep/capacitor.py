@@ -11,7 +11,7 @@ at ``V`` the node potentials ``phi`` solve the charge balance
 and the density added to well ``i`` is ``dn_i = C_q,i phi_i / e``. For one well this is the series
 formula ``1/C = d/eps + 1/C_q`` (Luryi, Appl. Phys. Lett. 52, 501 (1988)); for a screening well
 above a primary well it reduces to ``e dn_p/dV = C1 C_b / (C1 + C_qs + C_b)`` with
-``C_b = C2 C_qp / (C2 + C_qp)`` (PHYSICS.md sec. 4).
+``C_b = C2 C_qp / (C2 + C_qp)`` (docs/derivations.md, section 4).
 
 With the zero-bias densities given, the gate is swept down piecewise-linearly: a well that empties
 stops screening (its node keeps zero charge change), the slopes are recomputed, and so on until the

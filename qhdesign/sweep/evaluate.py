@@ -48,16 +48,18 @@ def apply_values(stack, values: Mapping[str, float]):
 
 def evaluate_design(job: Job, values: Mapping[str, float]) -> tuple[dict | None, str, str, float]:
     """Evaluate one design: ``(outputs or None, status, error text, stage seconds)``."""
+    from .stage_options import split_values
     from .stages import get_stage
 
+    stack_values, option_values = split_values(values)  # "options.<name>" are stage options
     try:
-        stack = apply_values(job.stack, values)
+        stack = apply_values(job.stack, stack_values)
     except QHDesignError as exc:
         return None, "invalid", _one_line(exc), 0.0
     fn = get_stage(job.stage)
     t0 = time.perf_counter()
     try:
-        out = fn(stack, **dict(job.options))
+        out = fn(stack, **{**dict(job.options), **option_values})
     except ConvergenceError as exc:
         return None, "not_converged", _one_line(exc), time.perf_counter() - t0
     except QHDesignError as exc:

@@ -66,6 +66,20 @@ _PATH_UNITS = {
 }
 
 
+#: Display units of swept stage options (``options.<name>``).
+_OPTION_UNITS = {
+    **{n: ("nm", 1e-9) for n in ("radius", "ring_width", "gate_offset", "split_gap")},
+    "outer_radius": ("nm", 1e-9),
+    "perimeter": ("nm", 1e-9),
+    "gap": ("ueV", 1.602176634e-25),
+    "gap_energy": ("ueV", 1.602176634e-25),
+    "temperature": ("mK", 1e-3),
+    "field": ("T", 1.0),
+    "edge_velocity": ("m/s", 1.0),
+    "gate_voltage": ("V", 1.0),
+}
+
+
 def param_column(path: str) -> tuple[str, float]:
     """CSV column name of a parameter and the SI value of its display unit.
 
@@ -74,6 +88,9 @@ def param_column(path: str) -> tuple[str, float]:
     """
     if path.startswith("tol."):
         return path, 1.0
+    if path.startswith("options."):  # a swept stage option (qhdesign.sweep.stage_options)
+        unit = _OPTION_UNITS.get(path[len("options.") :])
+        return (f"{path}_{unit[0]}", unit[1]) if unit else (path, 1.0)
     parts = path.split(".")
     if len(parts) == 3 and parts[0] == "doping":
         # doping.<layer>.sheet is the same parameter as layers.<layer>.doping.sheet
@@ -300,11 +317,21 @@ def stage_modules(stage: str) -> tuple[str, ...]:
 
 
 def probe(plan) -> tuple[dict | None, str, str, float]:
-    """Evaluate the nominal (unmodified) stack twice and keep the second timing (warm imports)."""
+    """Evaluate the nominal (unmodified) stack twice and keep the second timing (warm imports).
+
+    Swept stage options (``options.<name>``) have no nominal value: the probe takes the first
+    design's (an island sweep over ``options.radius`` needs some radius).
+    """
+    from .stage_options import OPTION_PREFIX
+
     job = Job(plan.stage, plan.stack, plan.options)
-    out, status, error, t = evaluate_design(job, {})
+    first: dict = {}
+    if any(p.startswith(OPTION_PREFIX) for p in plan.parameters):
+        design = plan.values_of(next(iter(plan.space)))
+        first = {k: v for k, v in design.items() if k.startswith(OPTION_PREFIX)}
+    out, status, error, t = evaluate_design(job, first)
     if status == "ok" and t < 1.0:
-        out, status, error, t = evaluate_design(job, {})
+        out, status, error, t = evaluate_design(job, first)
     return out, status, error, t
 
 

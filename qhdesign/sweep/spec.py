@@ -152,7 +152,11 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
     kind = space_tab.get("kind")
     if kind not in SPACE_KINDS:
         raise err(f"got {kind!r}; allowed: {', '.join(SPACE_KINDS)}", key="space.kind")
-    space, signature = _build_space(kind, space_tab, stack, source)
+    from .stage_options import OptionAwareStack
+
+    # stage options swept as "options.<name>" are checked by the option-aware view of the stack
+    vstack = OptionAwareStack(stack, stage)
+    space, signature = _build_space(kind, space_tab, vstack, source)
     if len(space) == 0:
         raise err("the space has no designs", key="space")
     if len(space) > MAX_DESIGNS:
@@ -170,7 +174,7 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
         source=source,
         signature=signature,
     )
-    _check_corners(plan, source)
+    _check_corners(plan, source, vstack)
     return plan
 
 
@@ -359,7 +363,8 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
                 key="space.tolerance.doping_cells",
             )
         try:
-            space = GrowthMonteCarlo.from_stack(stack, plan, samples, seed, cells)
+            base = getattr(stack, "stack", stack)  # the real stack under an OptionAwareStack
+            space = GrowthMonteCarlo.from_stack(base, plan, samples, seed, cells)
         except InputError as exc:
             raise InputError(exc.message, source=source, key=f"space.{exc.key}") from None
         sig = {
@@ -483,12 +488,12 @@ def parse_tolerance(tab: Any, source: str) -> TolerancePlan:
         ) from None
 
 
-def _check_corners(plan: SweepPlan, source: str) -> None:
+def _check_corners(plan: SweepPlan, source: str, vstack=None) -> None:
     """Every corner of the space must give a valid stack (joint check of the range ends)."""
     for corner in plan.space.corners():
         values = plan.values_of(corner)
         try:
-            apply_values(plan.stack, values)
+            apply_values(vstack if vstack is not None else plan.stack, values)
         except QHDesignError as exc:
             key = getattr(exc, "key", None)
             shown = ", ".join(

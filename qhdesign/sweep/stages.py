@@ -79,6 +79,7 @@ def _bands_options(options: dict[str, Any], stage: str):
             bo[key] = float(value)
         else:
             own = ["temperature", "gate_voltage" if stage == "bands" else "cool_bias"]
+            own += ["disorder", *_DISORDER_KEYS] if stage == "bands" else []
             raise InputError(
                 f"unknown option of stage '{stage}'; allowed: {', '.join(own + sorted(fields))}",
                 key=f"options.{key}",
@@ -88,9 +89,34 @@ def _bands_options(options: dict[str, Any], stage: str):
     return kw
 
 
+#: Options of the ``bands`` stage that switch on the disorder estimate (spec value with unit
+#: -> ScatteringOptions field); ``disorder = true`` switches it on with the defaults.
+_DISORDER_KEYS = {
+    "background": ("volume_density", "background_m3"),
+    "roughness_height": ("length", "roughness_height_m"),
+    "roughness_length": ("length", "roughness_length_m"),
+    "min_mobility": ("mobility", "min_mobility_m2_Vs"),
+}
+
+
 def _bands(stack, **options):
     fn = _import("qhdesign.sp1d", "solve_bands", "bands")
-    return _summary(fn(stack, **_bands_options(options, "bands")))
+    dis = {k: options.pop(k) for k in list(options) if k in _DISORDER_KEYS}
+    on = options.pop("disorder", False)
+    if not isinstance(on, bool):
+        raise InputError("expected true or false", key="options.disorder")
+    result = fn(stack, **_bands_options(options, "bands"))
+    out = _summary(result)
+    if on or dis:
+        from qhdesign.sp1d.scattering import ScatteringOptions, scattering
+
+        kw = {_DISORDER_KEYS[k][1]: _quantity(v, _DISORDER_KEYS[k][0], k) for k, v in dis.items()}
+        try:
+            sopts = ScatteringOptions(**kw)
+        except InputError as exc:
+            raise InputError(exc.message, key=f"options.{exc.key}") from None
+        out.update(scattering(result, sopts).summary())
+    return out
 
 
 def _gate(stack, v_from=None, v_to=None, step=None, **options):
@@ -144,10 +170,20 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
 
 
 def _island(stack, **options):
-    solve_island = _import("qhdesign.tf2d", "solve_island", "island")
+    """Island capacitances plus the interferometer figures (``interferometer.*`` columns)."""
+    _import("qhdesign.tf2d", "solve_island", "island")
     from mpi4py import MPI  # one serial solve per design, as in _edge
 
-    return _summary(solve_island(stack, comm=MPI.COMM_SELF, **options))
+    from qhdesign.island_figures import figure_columns, island_figures, split_island_options
+
+    cond, island_opts, gate_voltage = split_island_options(options, source_prefix="options.")
+    if gate_voltage is not None:
+        from qhdesign.island_figures import conditions_from_edge
+
+        cond = conditions_from_edge(stack, cond, gate_voltage, comm=MPI.COMM_SELF)
+    fig = island_figures(stack, cond, comm=MPI.COMM_SELF, keep_result=True, **island_opts)
+    res = fig.pop("_result")
+    return {**_summary(res), **figure_columns(fig)}
 
 
 #: Built-in stages: name -> (callable, one-line description).

@@ -21,7 +21,7 @@ Capacitance by energy: with u_i the solution for conductor i at 1 V and every ot
 0 V, C_ij = a(u_i, u_j), where a is the full symmetric bilinear form (field energy, sheet terms,
 Robin term). This is the Galerkin reaction charge, which converges at twice the rate of the
 energy-norm error; flux integrals over a conductor converge slowly at the edge singularity
-(DOLFINX-NOTES.md).
+(they were tried and measured worse).
 
 Mesh: the tensor product of a graded r-node list and a graded z-level list (fine at every line
 end and every boundary-kind change, where the field is singular; coarse far away), each

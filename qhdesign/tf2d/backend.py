@@ -1,7 +1,7 @@
 """Load the DOLFINx stack in the order it needs: mpi4py's MPI before dolfinx.
 
-``libmpi`` is found only when ``mpi4py.MPI`` is loaded first (DOLFINX-NOTES.md); keeping the
-order in one function protects it from import sorting.
+``libmpi`` is found only when ``mpi4py.MPI`` is loaded first (observed with the DOLFINx 0.11
+wheels); keeping the order in one function protects it from import sorting.
 """
 
 from __future__ import annotations
@@ -29,7 +29,7 @@ def mesh_from_gmsh(build_model, comm):
 
     gmsh is started here (not interruptible, quiet) unless it already runs, and finalized only if
     started here. Facets are ghosted (``GhostMode.shared_facet``): interior-facet (sheet)
-    integrals need it in parallel (DOLFINX-NOTES.md).
+    integrals need it in parallel (facets on a process boundary need both neighbouring cells).
 
     Returns
     -------

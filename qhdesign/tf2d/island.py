@@ -18,7 +18,7 @@ infinite mutual capacitance). Everything else is at the Fermi level of the conta
   the far boundary; far boundary: Robin monopole condition or grounded.
 
 Maxwell matrix C of {I, L} by the energy form (:mod:`qhdesign.tf2d.axicap`); K = e^2 C^-1.
-Our derivations (PHYSICS.md section 6, not taken from a paper): K~ = K_L - K_IL^2/K_I,
+Our derivations (docs/derivations.md sections 10-11, not taken from a paper): K~ = K_L - K_IL^2/K_I,
 E_C = K~/2, periods dB_comp = Phi0/A and dB_inc = (e/e*) Phi0/(A (1 - K_IL/K_I)), and the
 fixed-filling window dB_window = (Phi0/(nu A)) [e*/e + (e/e*) Delta_qp/E_C] with e*/e = nu = 1/m.
 
@@ -340,13 +340,15 @@ class IslandResult:
 
     @property
     def K_tilde_J(self) -> float:
-        """K~ = K_L - K_IL^2/K_I (our derivation, PHYSICS.md section 6)."""
+        """K~ = K_L - K_IL^2/K_I (our derivation, docs/derivations.md section 10)."""
         return self.K_L_J - self.K_IL_J**2 / self.K_I_J
 
     @property
     def charging_energy_J(self) -> float:
-        """E_C = K~/2 (our derivation, PHYSICS.md section 6). K~ = e^2/C_LL exactly (C_LL: the
-        bulk's Maxwell self-capacitance, the edge ring held at the contacts' potential)."""
+        """E_C = K~/2 (our derivation, docs/derivations.md section 10).
+
+        K~ = e^2/C_LL exactly (C_LL: the bulk's Maxwell self-capacitance, the edge ring held at
+        the contacts' potential)."""
         return 0.5 * self.K_tilde_J
 
     @property
@@ -356,7 +358,10 @@ class IslandResult:
         return float(C[0, 0] + C[1, 1] + 2.0 * C[0, 1])
 
     def periods_T(self) -> dict[str, float | None]:
-        """Flux periods and the fixed-filling window (T); our derivation (PHYSICS.md section 6)."""
+        """Flux periods and the fixed-filling window (T).
+
+        Our derivation (docs/derivations.md section 11).
+        """
         A = self.geometry.area_m2
         out: dict[str, float | None] = {
             "compressible_period_T": PHI0 / A,

@@ -59,7 +59,7 @@ def gated_sweep():
 
 
 def test_gate_slope_equals_series_capacitance():
-    # issue 3 / PHYSICS.md §4: once only the primary is left, dn/dV = C/e with
+    # issue 3 / docs/derivations.md §3: once only the primary is left, dn/dV = C/e with
     # 1/C = sum t_i/eps_i (gate to the wavefunction centroid) + 1/C_q, C_q = e^2 m*/(pi hbar^2)
     # (S. Luryi, Appl. Phys. Lett. 52, 501 (1988)); tolerance 2% from the issue.
     st = stack(GATED)
@@ -96,7 +96,7 @@ def test_thresholds_agree_with_finite_differences():
     step = abs(v[1] - v[0])
     t_top = g.thresholds_V["screen_upper"]
     t_pri = g.thresholds_V["primary"]
-    # wells empty from the top down (PHYSICS.md §4)
+    # wells empty from the top down (docs/derivations.md §4)
     assert g.depletion_order[:2] == ("screen_upper", "primary")
     # (1) the primary's dn/dV jumps where the screening well above it empties: the largest
     # second difference of n_primary sits at the screening well's threshold
@@ -144,7 +144,8 @@ def test_grid_independence_per_well_density():
 
 
 def test_independent_of_starting_guess():
-    # PHYSICS.md §2 (Trellakis et al. 1997): result independent of the starting guess, < 1e-6 V
+    # Trellakis et al., J. Appl. Phys. 81, 7880 (1997): result independent of the starting
+    # guess, < 1e-6 V
     st = stack(SCREENED)
     fr = freeze_out(st)
     opts = TIGHT
@@ -185,7 +186,7 @@ def test_sheet_model_matches_bands():
     for s, w in zip(sm.sheets, r.wells, strict=True):
         assert s.density_m2 == w.sheet_density_m2
         assert s.z_top_m <= s.z_m <= s.z_bottom_m
-        # 2D DOS m*/(pi hbar^2) of GaAs: 2.7988e10 cm^-2 meV^-1 (PHYSICS.md header, [D])
+        # 2D DOS m*/(pi hbar^2) of GaAs: 2.7988e10 cm^-2 meV^-1 (analytic, docs/derivations.md §1)
         assert s.dos_J_m2 * 1e-3 * sc.e / 1e4 == pytest.approx(2.7988e10, rel=1e-4)
     # the frozen fixed charge integrates to the ionised donors
     h = np.diff(r.z_m)

@@ -2,7 +2,8 @@
 
 Sources: the 1D per-well densities are the reference the 2D far field must reproduce (issue 4:
 within 1 %); the edge may move by less than 1 nm between the default mesh and a mesh twice as
-fine (issue 4); serial and ``mpiexec -n 2`` agree to 1e-8 relative (issue 4, DESIGN.md).
+fine (issue 4); serial and ``mpiexec -n 2`` agree to 1e-8 relative (issue 4; determinism,
+docs/architecture.md).
 """
 
 from __future__ import annotations

@@ -5,7 +5,7 @@ Sources: capacitance-matrix properties (symmetric, positive diagonal, negative o
 non-negative row sums) are analytic facts of electrostatics (J. D. Jackson, Classical
 Electrodynamics, 3rd ed., sec. 1.11); the screening-plane trends are the brief's physics (closer
 grounded planes decouple edge and bulk); the quantum-capacitance shift eps/(e^2 D) = a_B*/4 is
-PHYSICS.md sec. 4 [D] (Luryi, Appl. Phys. Lett. 52, 501 (1988)).
+docs/derivations.md sec. 2 (Luryi, Appl. Phys. Lett. 52, 501 (1988)).
 """
 
 from __future__ import annotations
@@ -26,7 +26,8 @@ from qhdesign.tf2d import IslandColumn, solve_island
 from qhdesign.tf2d.island import PHI0, WellLine
 
 ROOT = Path(__file__).resolve().parents[2]
-D_GAAS = 0.067 * sc.m_e / (np.pi * sc.hbar**2)  # 2D DOS with spin, m* = 0.067 (PHYSICS sec. 0)
+# 2D DOS with spin, m* = 0.067 (analytic, docs/derivations.md sec. 1)
+D_GAAS = 0.067 * sc.m_e / (np.pi * sc.hbar**2)
 Z_PRIMARY = 300e-9
 
 
@@ -58,7 +59,7 @@ def test_stack_path_end_to_end(stack_island):
     assert all(isinstance(v, float) and np.isfinite(v) for v in s.values())
     assert s["area_um2"] == pytest.approx(np.pi * 0.8**2, rel=1e-12)  # analytic: pi R^2
     assert s["compressible_period_mT"] == pytest.approx(1e3 * PHI0 / (np.pi * 0.8e-6**2))
-    # PHYSICS sec. 6 [D], nu = 1/3: window A/Phi0 = 1 + 9 Delta/E_C
+    # docs/derivations.md sec. 11 (our derivation), nu = 1/3: window A/Phi0 = 1 + 9 Delta/E_C
     window = s["fixed_filling_window_mT"] * 1e-3 * np.pi * 0.8e-6**2 / PHI0
     assert window == pytest.approx(1 + 9 * 0.05e3 / s["E_C_ueV"], rel=1e-12)
     # K~ = K_L - K_IL^2/K_I equals e^2/C_LL exactly (2x2 inverse, analytic)
@@ -95,7 +96,7 @@ def test_grounded_planes_decouple_edge_and_bulk(setback_scan):
 @pytest.mark.parametrize("setback", [20e-9, 40e-9])
 def test_thomas_fermi_sheet_equals_shifted_plane(setback):
     # a linear TF sheet screens like a grounded plane moved away by eps/(e^2 D) = a_B*/4
-    # (2.55 nm at kappa 12.9; PHYSICS sec. 4 [D]); exact for uniform fields, fringes differ
+    # (2.55 nm at kappa 12.9; docs/derivations.md sec. 2); exact for uniform fields, fringes differ
     delta = 12.9 * sc.epsilon_0 / (sc.e**2 * D_GAAS)
     assert delta == pytest.approx(2.55e-9, abs=0.01e-9)
     tf = solve_island(column(setback), radius="0.5 um", screening="tf", outer_well=False)

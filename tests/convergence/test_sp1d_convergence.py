@@ -46,7 +46,7 @@ def test_second_order_decay():
 
 def test_predictor_corrector_beats_under_relaxation():
     # Trellakis et al., J. Appl. Phys. 81, 7880 (1997): the predictor-corrector iteration needs
-    # far fewer outer iterations than plain under-relaxed mixing (PHYSICS.md §2 check). The
+    # far fewer outer iterations than plain under-relaxed mixing. The
     # mixing loop here: Schrödinger at phi_k, density frozen, Poisson (linear in phi with that
     # density, classical/donor charge still solved with it), phi_{k+1} = phi_k + a (phi* - phi_k).
     from qhdesign.sp1d import freeze_out

@@ -30,14 +30,21 @@ def well_grid(width: float) -> np.ndarray:
     return z
 
 
-def test_infinite_square_well():
+def test_infinite_square_well(record_check):
     # analytic: E_n = n^2 pi^2 hbar^2 / (2 m* L^2); L = 10 nm, m* = 0.067 m0
-    # (PHYSICS.md §3 lists 56.124, 224.496, 505.115 meV for these parameters)
+    # (analytic: 56.124, 224.496, 505.115 meV for these parameters)
     L, m = 10e-9, 0.067
     z = well_grid(L)
     en, psi = solve_subbands(z, np.zeros(len(z)), np.full(len(z) - 1, m), 3)
     n = np.arange(1, 4)
     exact = n**2 * np.pi**2 * sc.hbar**2 / (2 * m * sc.m_e * L**2)
+    record_check(
+        "infinite well L = 10 nm, m* = 0.067: E_1..E_3 (default grid)",
+        "analytic n²π²ħ²/(2m*L²)",
+        en,
+        exact,
+        REL,
+    )
     np.testing.assert_allclose(en, exact, rtol=REL)
     np.testing.assert_allclose(exact / MEV, [56.124, 224.496, 505.115], rtol=2e-5)
     # normalisation sum w psi^2 = 1 (analytic: |psi|^2 integrates to one)
@@ -112,8 +119,8 @@ mass = {m_b}
     ("L_nm", "m_b"),
     [(10.0, 0.0919), (20.0, 0.0919), (20.0, 0.067)],
 )
-def test_finite_square_well_default_grid(L_nm, m_b):
-    # V0 = 259.1 meV, m_w = 0.067: GaAs in Al0.3Ga0.7As (PHYSICS.md §3 parameters);
+def test_finite_square_well_default_grid(L_nm, m_b, record_check):
+    # V0 = 259.1 meV, m_w = 0.067: GaAs in Al0.3Ga0.7As (docs/derivations.md §12 for V0);
     # check values from the transcendental equations solved with scipy above.
     v0 = 0.2591
     stack = loads_stack(finite_well_stack(L_nm, v0, m_b))
@@ -125,13 +132,22 @@ def test_finite_square_well_default_grid(L_nm, m_b):
     u = dev.node_offset()[q0 : q1 + 1]
     exact = finite_well_levels(L_nm * 1e-9, v0 * sc.e, 0.067, m_b)
     en, _ = solve_subbands(z, u, dev.mass[q0:q1], len(exact))
+    record_check(
+        f"finite well (BenDaniel–Duke), V0 = 259.1 meV, L = {L_nm:g} nm, m_b = {m_b}: "
+        f"all {len(exact)} bound levels",
+        "transcendental matching equations solved with scipy brentq",
+        en,
+        exact,
+        REL,
+    )
     np.testing.assert_allclose(en, exact, rtol=REL)
-    # (PHYSICS.md §3 [D] lists 30.837, 121.295, 249.236 meV for L = 10 nm; the scipy roots with
+    # (values the team computed earlier list 30.837, 121.295, 249.236 meV for L = 10 nm; the
+    # scipy roots with
     # CODATA constants are 30.8354, 121.2901, 249.2147 meV, 5e-5 to 9e-5 lower: the [D] values
     # are not used as check values.)
 
 
-def test_triangular_well_airy_zeros():
+def test_triangular_well_airy_zeros(record_check):
     # analytic: E_n = (hbar^2/2m*)^(1/3) (eF)^(2/3) |a_n|, a_n zeros of Ai (scipy.special.ai_zeros)
     F, m = 1e6, 0.067
     L = 200e-9
@@ -141,8 +157,22 @@ def test_triangular_well_airy_zeros():
     en, psi = solve_subbands(z, u, np.full(len(z) - 1, m), 3)
     a = -ai_zeros(3)[0]
     exact = (sc.hbar**2 / (2 * m * sc.m_e)) ** (1 / 3) * (sc.e * F) ** (2 / 3) * a
+    record_check(
+        "triangular well F = 1e6 V/m: E_1..E_3",
+        "Airy zeros (scipy.special.ai_zeros), E_n = (ħ²/2m*)^(1/3) (eF)^(2/3) |a_n|",
+        en,
+        exact,
+        REL,
+    )
     np.testing.assert_allclose(en, exact, rtol=REL)
     # <z>_0 = 2 E_0 / (3 e F) (analytic, virial theorem for a linear potential)
     w = np.concatenate(([0.5 * (z[1] - z[0])], 0.5 * (z[2:] - z[:-2]), [0.5 * (z[-1] - z[-2])]))
     zbar = np.sum(w * z * psi[0] ** 2)
+    record_check(
+        "triangular well F = 1e6 V/m: ⟨z⟩ of the lowest level",
+        "analytic ⟨z⟩_0 = 2E_0/(3eF) (virial theorem, linear potential)",
+        zbar,
+        2 * exact[0] / (3 * sc.e * F),
+        REL,
+    )
     assert zbar == pytest.approx(2 * exact[0] / (3 * sc.e * F), rel=REL)

@@ -19,7 +19,7 @@ Exact identities checked as well (analytic, our derivations, docs/models.md):
 - hard-wall sum rule (the force of the electrons on the wall equals the electrostatic force on
   them): (hbar^2 / 2m*) N_s psi'(0)^2 = (e^2 / eps) (N_depl N_s + N_s^2 / 2);
 - one occupied subband at 10 mK: E_F - E_0 = pi hbar^2 N_s / m*.
-Parameters: m* = 0.067 m0, kappa = 12.9 (PHYSICS.md §3).
+Parameters: m* = 0.067 m0, kappa = 12.9 (docs/derivations.md §5).
 """
 
 from __future__ import annotations
@@ -101,7 +101,7 @@ CASES = [(1e15, 5e14), (2e15, 1e15), (1e15, 1e15)]
 
 
 @pytest.mark.parametrize(("ns", "n_depl"), CASES)
-def test_hartree_heterojunction_against_scipy_bvp(ns, n_depl):
+def test_hartree_heterojunction_against_scipy_bvp(ns, n_depl, record_check):
     length = (sc.hbar**2 * EPS / (2 * M * sc.m_e * sc.e**2 * ns)) ** (1 / 3)
     e_unit = sc.hbar**2 / (2 * M * sc.m_e * length**2)
     e0_ref, mean_x_ref, _ = hartree_reference(n_depl / ns)
@@ -118,6 +118,25 @@ def test_hartree_heterojunction_against_scipy_bvp(ns, n_depl):
     assert st.energies_J[0] < 0.0 < st.energies_J[1]
     # subband energy above the wall and <z>: our tolerance 5e-4 (measured 8e-5 ... 9e-5 and
     # 1.4e-4 ... 1.5e-4 on this grid)
+    case = f"N_s = {ns * 1e-4:.0e}, N_depl = {n_depl * 1e-4:.0e} cm^-2"
+    hartree_src = (
+        "Hartree model of Ando, Fowler, Stern, Rev. Mod. Phys. 54, 437 (1982), Sec. III, solved "
+        "independently in dimensionless form by scipy.integrate.solve_bvp"
+    )
+    record_check(
+        f"self-consistent Hartree heterojunction, hard wall, {case}: E_0 above the wall",
+        hartree_src,
+        st.energies_J[0] - st.U_J[0],
+        e0_ref * e_unit,
+        5e-4,
+    )
+    record_check(
+        f"self-consistent Hartree heterojunction, hard wall, {case}: ⟨z⟩",
+        hartree_src,
+        float(np.sum(w * dev.z * psi**2)),
+        mean_x_ref * length,
+        5e-4,
+    )
     assert st.energies_J[0] - st.U_J[0] == pytest.approx(e0_ref * e_unit, rel=5e-4)
     assert float(np.sum(w * dev.z * psi**2)) == pytest.approx(mean_x_ref * length, rel=5e-4)
     # hard-wall sum rule, psi'(0) from the quadratic through the wall and the next two nodes
@@ -125,6 +144,20 @@ def test_hartree_heterojunction_against_scipy_bvp(ns, n_depl):
     z1, z2 = dev.z[1], dev.z[2]
     slope = np.linalg.solve(np.array([[z1, z1**2], [z2, z2**2]]), psi[1:3])[0]
     lhs = sc.hbar**2 / (2 * M * sc.m_e) * ns * slope**2
+    record_check(
+        f"hard-wall sum rule (ħ²/2m*) N_s ψ'(0)² = (e²/ε)(N_depl N_s + N_s²/2), {case}",
+        "analytic (our derivation, docs/models.md 'Hard-wall sum rule')",
+        lhs,
+        sc.e**2 / EPS * (n_depl * ns + 0.5 * ns**2),
+        2e-4,
+    )
     assert lhs == pytest.approx(sc.e**2 / EPS * (n_depl * ns + 0.5 * ns**2), rel=2e-4)
     # E_F - E_0 = pi hbar^2 N_s / m* (one subband, 10 mK); E_F = 0
+    record_check(
+        f"E_F − E_0 = πħ²N_s/m* with one subband at 10 mK, {case}",
+        "analytic, docs/derivations.md §1",
+        -st.energies_J[0],
+        np.pi * sc.hbar**2 * ns / (M * sc.m_e),
+        1e-9,
+    )
     assert -st.energies_J[0] == pytest.approx(np.pi * sc.hbar**2 * ns / (M * sc.m_e), rel=1e-9)

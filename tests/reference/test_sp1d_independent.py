@@ -19,6 +19,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
 import pytest
 from indep_sp1d import Device, solve
 from scipy import constants as sc
@@ -49,15 +50,35 @@ def independent(stack):
 
 
 @pytest.mark.parametrize("text", [SCREENED_IONISED, WIDE_WELL], ids=["screened", "wide_well"])
-def test_densities_and_levels_match_an_independent_solver(text):
+def test_densities_and_levels_match_an_independent_solver(text, record_check):
     stack = loads_stack(text, source="test.toml")
     r = solve_bands(stack)
     dens, levels = independent(stack)
+    src = (
+        "independent second 1D solver written apart from qhdesign.sp1d (numpy/scipy, uniform "
+        "grid, whole domain quantum), Richardson-extrapolated (tests/reference/indep_sp1d.py)"
+    )
+    record_check(
+        f"{stack.name}: per-well sheet densities ({len(r.wells)} wells)",
+        src,
+        [w.sheet_density_m2 for w in r.wells],
+        [dens[w.name] for w in r.wells],
+        2e-4,
+    )
     for w in r.wells:
         # tolerance ours: 2e-4 relative (grid errors of both solvers ~1e-5; measured <= 3e-5)
         assert w.sheet_density_m2 == pytest.approx(dens[w.name], rel=2e-4), w.name
     occupied = [sb.energy_J for sb in r.subbands if sb.energy_J < 5 * MEV]
     assert len(occupied) >= 2
+    record_check(
+        f"{stack.name}: occupied subband energies ({len(occupied)} levels)",
+        src,
+        np.array(occupied) / MEV * 1e3,
+        np.array(levels[: len(occupied)]) / MEV * 1e3,
+        5.0,
+        kind="abs",
+        unit="ueV",
+    )
     for k, e in enumerate(occupied):
         # tolerance ours: 5 ueV (measured <= 0.5 ueV)
         assert abs(e - levels[k]) < 5e-3 * MEV, k

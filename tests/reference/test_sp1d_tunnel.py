@@ -79,7 +79,7 @@ def double_well(a1: float, b: float, a2: float, h: float):
         (9e-9, 25e-9),
     ],
 )
-def test_symmetric_double_well_against_matching_equations(a, b):
+def test_symmetric_double_well_against_matching_equations(a, b, record_check):
     exact = symmetric_splitting(a, b)  # 4.70 meV down to 0.96 neV
     gaps = [anticrossing_gap(*double_well(a, b, a, h)) for h in (0.1e-9, 0.05e-9)]
     errors = [g / exact - 1.0 for g in gaps]
@@ -87,6 +87,16 @@ def test_symmetric_double_well_against_matching_equations(a, b):
     assert 3.6 < errors[0] / errors[1] < 4.4
     # our tolerances: 1e-3 at 0.05 nm (measured 4e-5 ... 9e-4, growing with the barrier) and
     # 1e-4 after Richardson extrapolation (measured <= 5.3e-5, at the 1 neV gap)
+    src = "E_odd − E_even from the matching equations of the symmetric double well, scipy brentq"
+    case = f"wells {a * 1e9:g} nm, barrier {b * 1e9:g} nm"
+    record_check(f"tunnel splitting, {case}, h = 0.05 nm", src, gaps[1], exact, 1e-3)
+    record_check(
+        f"tunnel splitting, {case}, Richardson from h = 0.1 and 0.05 nm",
+        src,
+        (4.0 * gaps[1] - gaps[0]) / 3.0,
+        exact,
+        1e-4,
+    )
     assert abs(errors[1]) < 1e-3
     assert abs((4.0 * gaps[1] - gaps[0]) / 3.0 / exact - 1.0) < 1e-4
 
@@ -94,7 +104,7 @@ def test_symmetric_double_well_against_matching_equations(a, b):
 @pytest.mark.parametrize(
     ("a1", "b", "a2"), [(10e-9, 5e-9, 11e-9), (9e-9, 6e-9, 12e-9), (20e-9, 12e-9, 21e-9)]
 )
-def test_asymmetric_pair_against_scipy_minimisation(a1, b, a2):
+def test_asymmetric_pair_against_scipy_minimisation(a1, b, a2, record_check):
     z, u, mass, mid = double_well(a1, b, a2, 0.1e-9)
     step = (z > mid).astype(float)
 
@@ -112,6 +122,14 @@ def test_asymmetric_pair_against_scipy_minimisation(a1, b, a2):
         gap_meV, bounds=(d0 - 5.0, d0 + 5.0), method="bounded", options={"xatol": 1e-10}
     )
     got = anticrossing_gap(z, u, mass, mid) / MEV
+    record_check(
+        f"tunnel splitting of an asymmetric pair {a1 * 1e9:g}/{b * 1e9:g}/{a2 * 1e9:g} nm",
+        "minimum of the gap over the detuning, scipy.optimize.minimize_scalar on LAPACK "
+        "eigenvalues",
+        got,
+        ref.fun,
+        1e-6,
+    )
     assert got == pytest.approx(ref.fun, rel=1e-6)
     # and it is a minimum: detuning either way opens the gap
     assert gap_meV(ref.x + 0.01) > got and gap_meV(ref.x - 0.01) > got

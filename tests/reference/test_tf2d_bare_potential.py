@@ -2,7 +2,7 @@
 
 Half-plane gate over x < 0 and a strip gate of width w, both on a pinned surface (phi = 0 on the
 exposed part), in a semi-infinite uniform dielectric. The exact potential at depth z is
-(analytic, Laplace equation in the half-plane; PHYSICS.md section 5, attributed to Davies,
+(analytic, Laplace equation in the half-plane; docs/derivations.md section 6, attributed to Davies,
 Larkin, Sukhorukov, J. Appl. Phys. 77, 4504 (1995)):
 
     half-plane: phi = (V_g/pi) (pi/2 - arctan(x/z))
@@ -62,16 +62,36 @@ def _solve(layout, exact):
     return sol.x_m, sol.phi_V[k]
 
 
-def test_half_plane_gate_matches_exact_laplace_solution():
+def test_half_plane_gate_matches_exact_laplace_solution(record_check):
     x, phi = _solve(GateLayout.single_edge(), half_plane)
     err = np.abs(phi - half_plane(x, D + 0 * x))
+    record_check(
+        "bare potential of a half-plane gate at depth d = 100 nm, pinned surface (all nodes)",
+        "exact Laplace solution (V_g/π)(π/2 − arctan(x/d)), docs/derivations.md §6; Davies, "
+        "Larkin, Sukhorukov, J. Appl. Phys. 77, 4504 (1995) (from memory)",
+        phi / VG,
+        half_plane(x, D + 0 * x) / VG,
+        1e-4,
+        kind="abs",
+        unit="V_g",
+    )
     assert np.max(err) / abs(VG) < 1e-4  # issue 4: 1e-4 of V_g
     # and the potential under the gate edge is half the gate voltage (analytic)
     assert np.interp(0.0, x, phi) == pytest.approx(VG / 2, abs=1e-4 * abs(VG))
 
 
 @pytest.mark.parametrize("width", [100e-9, 300e-9])
-def test_strip_gate_matches_exact_laplace_solution(width):
+def test_strip_gate_matches_exact_laplace_solution(width, record_check):
     x, phi = _solve(GateLayout.strip(width), strip(width))
     err = np.abs(phi - strip(width)(x, D + 0 * x))
+    record_check(
+        f"bare potential of a strip gate w = {width * 1e9:g} nm at depth 100 nm (all nodes)",
+        "exact Laplace solution (V_g/π)[arctan((x+w/2)/d) − arctan((x−w/2)/d)], "
+        "docs/derivations.md §6",
+        phi / VG,
+        strip(width)(x, D + 0 * x) / VG,
+        1e-4,
+        kind="abs",
+        unit="V_g",
+    )
     assert np.max(err) / abs(VG) < 1e-4  # issue 4: 1e-4 of V_g

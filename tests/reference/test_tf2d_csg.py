@@ -7,8 +7,8 @@ one plane inside a uniform dielectric. In the metallic limit the electron densit
 
 and the gate sits at V_g = -pi e n0 l / (2 eps) relative to the 2DEG (our derivation from the
 complex potential w = i (e n0 / 2 eps)[zeta - sqrt(zeta^2 - l^2) + l ln(zeta + sqrt(zeta^2 -
-l^2))], PHYSICS.md section 5 [D]), so the depleted width 2l = 4 eps V_g / (pi e n0) is linear
-in V_g / n0. The outer boundary of the finite box gets this exact potential.
+l^2))], docs/derivations.md section 7), so the depleted width 2l = 4 eps V_g / (pi e n0) is
+linear in V_g / n0. The outer boundary of the finite box gets this exact potential.
 
 Thomas–Fermi is the metallic limit only beyond a few screening lengths a = 2 eps/(e^2 D) from the
 edge; the sheet here has ten times the GaAs density of states (a = 0.51 nm) so that the region
@@ -80,14 +80,22 @@ def runs():
     return {(n0, l): _solve(n0, l) for n0, l in [(2e15, 100e-9), (2e15, 200e-9), (4e15, 100e-9)]}
 
 
-def test_density_profile_matches_csg_beyond_five_screening_lengths(runs):
+def test_density_profile_matches_csg_beyond_five_screening_lengths(runs, record_check):
     for (n0, l), (_, x, n) in runs.items():
         sel = (x > l + 5 * SCREENING) & (x < 0.5 * H)
         csg = n0 * np.sqrt((x[sel] - l) / (x[sel] + l))  # CSG 1992
+        record_check(
+            f"coplanar gate: n(x) beyond 5 screening lengths (10x GaAs DOS), "
+            f"n0 = {n0 * 1e-4:.2g} cm^-2, l = {l * 1e9:g} nm",
+            "Chklovskii, Shklovskii, Glazman, Phys. Rev. B 46, 4026 (1992): n0 √((x−l)/(x+l))",
+            n[sel],
+            csg,
+            0.03,
+        )
         assert np.max(np.abs(n[sel] / csg - 1)) < 0.03, (n0, l)
 
 
-def test_depleted_width_is_linear_in_gate_voltage_over_density(runs):
+def test_depleted_width_is_linear_in_gate_voltage_over_density(runs, record_check):
     widths, ratios = [], []
     for (n0, l), (v_gate, x, n) in runs.items():
         edge = crossing_from_bulk(x, n, 0.01 * n0)
@@ -96,6 +104,14 @@ def test_depleted_width_is_linear_in_gate_voltage_over_density(runs):
         ratios.append(width / (abs(v_gate) / n0))
         # 2l = 4 eps V_g/(pi e n0): our derivation from CSG's complex potential (module doc)
         expect = 4 * sc.epsilon_0 * EPS_R * abs(v_gate) / (np.pi * sc.e * n0)
+        record_check(
+            f"coplanar gate: depleted width, n0 = {n0 * 1e-4:.2g} cm^-2, V_g = {v_gate:.3g} V",
+            "4εV_g/(πen0), derived from the complex potential of Chklovskii, Shklovskii, "
+            "Glazman, Phys. Rev. B 46, 4026 (1992) (docs/derivations.md §7)",
+            width,
+            expect,
+            0.03,
+        )
         assert width == pytest.approx(expect, rel=0.03)
     # doubling V_g at fixed n0 doubles the width; doubling both keeps it
     assert np.ptp(ratios) / np.mean(ratios) < 0.03

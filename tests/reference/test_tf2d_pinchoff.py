@@ -4,11 +4,11 @@ A single Thomas–Fermi sheet at depth d in a uniform dielectric, a pinned surfa
 gap), gates at V_g over |x| > w/2 (gate barrier 0), a zero-field bottom far below (20 um), and a
 neutralising donor sheet. At pinch-off the well is empty everywhere (it is cut under the gates
 first), so the potential is the bare one. For a gap of width w in a gate plane over a half-space
-(exact Laplace solution; PHYSICS.md section 5) the potential at the centre at depth d is
+(exact Laplace solution; docs/derivations.md section 6) the potential at the centre at depth d is
 V_g [1 - (2/pi) arctan(w/2d)] plus the x-independent donor part; a wide gate depletes the sheet
 at V_dep = -e n0 (d/eps + 1/(e^2 D)) (series capacitance of the dielectric and the 2D quantum
 capacitance, Luryi, Appl. Phys. Lett. 52, 501 (1988)). Hence (our derivation; the "quick design"
-formula of PHYSICS.md section 5, here exact)
+formula of docs/derivations.md section 6, here exact)
 
     V_pinch = V_dep / [1 - (2/pi) arctan(w / 2d)].
 
@@ -31,7 +31,7 @@ Z_DONOR = 50e-9
 
 
 @pytest.mark.parametrize("gap", [200e-9, 400e-9])
-def test_split_gate_pinch_off_matches_bare_potential(gap):
+def test_split_gate_pinch_off_matches_bare_potential(gap, record_check):
     dd = 1e-13
     section = CrossSection(
         layer_z_m=np.array([0.0, 20e-6]),
@@ -55,5 +55,13 @@ def test_split_gate_pinch_off_matches_bare_potential(gap):
         v_step=-0.1,
         mesh_options=MeshOptions(h_max_z_m=2e-6, half_width_m=4e-6),
         options=SolverOptions(exposed="pinned"),
+    )
+    record_check(
+        f"split-gate pinch-off, single sheet at d = 100 nm, gap w = {gap * 1e9:g} nm",
+        "V_dep/[1 − (2/π)arctan(w/2d)], exact bare-potential result (docs/derivations.md §6); "
+        "quantum capacitance: Luryi, Appl. Phys. Lett. 52, 501 (1988)",
+        res.pinchoff_V["well"],
+        expect,
+        0.005,
     )
     assert res.pinchoff_V["well"] == pytest.approx(expect, rel=0.005)

@@ -63,7 +63,8 @@ def test_vmr_conduction_band_offset(x, dec_mev):
 
 
 def test_gamma_x_crossover_near_042():
-    # VMR alloy rule: Gamma and X gaps cross near x = 0.42 at T = 0 (PHYSICS.md sec. 1, derived)
+    # VMR alloy rule: Gamma and X gaps cross near x = 0.42 at T = 0 (docs/derivations.md
+    # sec. 12, derived)
     import numpy as np
 
     xs = np.linspace(0.35, 0.5, 15001)

@@ -23,7 +23,8 @@ MEV = 1e-3 * sc.e
 
 
 def test_subband_density_check_values():
-    # PHYSICS.md §2 [D]: E_F - E_i = 1 meV, m* = 0.067: 2.7988e10 cm^-2 at 10 mK, 2.8504e10 at 4 K
+    # analytic (docs/derivations.md §1): E_F - E_i = 1 meV, m* = 0.067: 2.7988e10 cm^-2 at
+    # 10 mK, 2.8504e10 at 4 K
     d = subband_dos(0.067)
     n_mk = subband_sheet_density(-1 * MEV, d, sc.k * 0.01)
     n_4k = subband_sheet_density(-1 * MEV, d, sc.k * 4.0)

@@ -1,4 +1,7 @@
-"""The capacitor-ladder stage against closed-form series-capacitor results (PHYSICS.md sec. 4)."""
+"""The capacitor-ladder stage against closed-form series-capacitor results.
+
+Closed forms derived in docs/derivations.md sec. 4.
+"""
 
 from __future__ import annotations
 
@@ -17,7 +20,7 @@ CQ = e**2 * 0.067 * electron_mass / (math.pi * hbar**2)  # Luryi, APL 52, 501 (1
 
 
 def test_quantum_capacitance_value():
-    # PHYSICS.md sec. 4 [D]: C_q = 4.484 uF/cm^2 for m* = 0.067 m0
+    # docs/derivations.md sec. 2: C_q = 4.484 uF/cm^2 for m* = 0.067 m0
     assert quantum_capacitance(0.067) * 1e6 / 1e4 == pytest.approx(4.484, abs=0.001)
 
 
@@ -26,7 +29,8 @@ def test_single_well_is_the_series_formula():
     (s,) = ladder_slopes(EPS / d, [], [CQ])
     # analytic (Luryi 1988): e dn/dV = 1 / (d/eps + 1/C_q)
     assert s == pytest.approx(1 / (d / EPS + 1 / CQ) / e, rel=1e-12)
-    # PHYSICS.md sec. 4 [D]: geometric coupling eps/(e d) = 7.1e11 cm^-2/V at 100 nm (C_q -> inf)
+    # docs/derivations.md sec. 2: geometric coupling eps/(e d) = 7.1e11 cm^-2/V at 100 nm
+    # (C_q -> inf)
     (s_geo,) = ladder_slopes(EPS / d, [], [1e6 * CQ])
     assert s_geo / 1e4 == pytest.approx(7.1e11, abs=0.05e11)
 
@@ -35,10 +39,11 @@ def test_screening_well_above_primary_matches_the_two_well_formula():
     c1, c2 = EPS / 60e-9, EPS / 30e-9
     s_scr, s_pri = ladder_slopes(c1, [c2], [CQ, CQ])
     cb = c2 * CQ / (c2 + CQ)
-    # PHYSICS.md sec. 4 [D]: e dn_p/dV = C1 C_b/(C1 + C_qs + C_b), e dn_s/dV = C1 C_qs/(...)
+    # docs/derivations.md sec. 4 (our derivation): e dn_p/dV = C1 C_b/(C1 + C_qs + C_b),
+    # e dn_s/dV = C1 C_qs/(...)
     assert s_pri == pytest.approx(c1 * cb / (c1 + CQ + cb) / e, rel=1e-12)
     assert s_scr == pytest.approx(c1 * CQ / (c1 + CQ + cb) / e, rel=1e-12)
-    # PHYSICS.md sec. 4 example [D]: 8.30e10 cm^-2/V, 7.3 % of the total (to the quoted digits)
+    # docs/derivations.md sec. 4 example: 8.30e10 cm^-2/V, 7.3 % of the total (to the quoted digits)
     assert s_pri / 1e4 == pytest.approx(8.30e10, abs=0.005e10)
     assert s_pri / (s_pri + s_scr) == pytest.approx(0.073, abs=0.0005)
 
@@ -93,7 +98,8 @@ def test_stage_on_a_stack_reproduces_the_two_well_example():
     stack = loads_stack(_TWO_WELLS, source="two_wells")
     out = capacitor_stage(stack)
     assert out["depth_primary_nm"] == pytest.approx(90.0, rel=1e-12)
-    assert out["dn_dV_main_cm^-2/V"] == pytest.approx(8.30e10, abs=0.005e10)  # PHYSICS.md sec. 4
+    # docs/derivations.md sec. 4 example
+    assert out["dn_dV_main_cm^-2/V"] == pytest.approx(8.30e10, abs=0.005e10)
     assert out["primary_share"] == pytest.approx(0.073, abs=0.0005)
     # once the screening well is empty: single-well series formula at d = 90 nm
     unscr = 1 / (90e-9 / EPS + 1 / CQ) / e / 1e4

@@ -75,7 +75,8 @@ def test_sweep_stage_gives_flat_floats(screened_path):
     assert all(isinstance(v, float) for v in row.values())
     assert 0 < row["K_IL_over_K_I"] < 1
     assert math.isnan(row["fixed_filling_window_mT"])  # no gap given
-    # PHYSICS sec. 6 [D]: incompressible period = (e/e*) Phi0/(A (1 - r)) = 3 * compressible/(1 - r)
+    # docs/derivations.md sec. 11 (our derivation): incompressible period
+    # = (e/e*) Phi0/(A (1 - r)) = 3 * compressible/(1 - r)
     expect = 3 * row["compressible_period_mT"] / (1 - row["K_IL_over_K_I"])
     assert row["incompressible_period_mT"] == pytest.approx(expect, rel=1e-12)
 

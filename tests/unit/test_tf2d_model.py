@@ -91,7 +91,8 @@ def test_calibration_puts_each_sheet_at_its_1d_density():
 
 
 def test_thomas_fermi_density_limits():
-    # analytic: degenerate limit n = D * E; PHYSICS.md 2: 2.7988e10 cm^-2 per meV at 10 mK
+    # analytic: degenerate limit n = D * E; docs/derivations.md sec. 1: 2.7988e10 cm^-2 per meV
+    # at 10 mK
     n = thomas_fermi_density(1e-3 * sc.e, GAAS_DOS_J_M2, sc.k * 0.01)
     assert n * 1e-4 == pytest.approx(2.7988e10, rel=1e-4)
     assert thomas_fermi_density(-1.0 * sc.e, GAAS_DOS_J_M2, sc.k * 0.01) == 0.0
