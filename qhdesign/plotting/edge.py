@@ -5,6 +5,8 @@ Each function takes an optional ``ax`` and returns the figure (Agg-safe).
 
 from __future__ import annotations
 
+from fractions import Fraction
+
 import numpy as np
 
 __all__ = ["plot_edge", "plot_edge_profiles", "plot_pinchoff", "plot_potential_map"]
@@ -51,10 +53,26 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
     for w in result.wells:
         if w.edge_x_m is not None:
             ax.axvline(w.edge_x_m * 1e9, color=colours[w.name], ls="--", lw=1.0)
+    flagged = False
     for s in result.strips:
         c = s["centre_m"] * 1e9
         a = s["width_m"] * 1e9
-        ax.axvspan(c - a / 2, c + a / 2, color="tab:purple", alpha=0.25, lw=0)
+        if s.get("narrower_than_lB"):
+            # the strip model does not hold: hatched in red, labelled with the ratio to l_B
+            flagged = True
+            ax.axvspan(c - a / 2, c + a / 2, facecolor="none", edgecolor="tab:red", hatch="///")
+            ax.annotate(
+                f"\u03bd={Fraction(s['filling']).limit_denominator(20)}: "
+                f"{s['width_over_lB']:.2g} l$_B$",
+                (c, 0.0),
+                xytext=(0, 12),
+                textcoords="offset points",
+                ha="center",
+                fontsize=7,
+                color="tab:red",
+            )
+        else:
+            ax.axvspan(c - a / 2, c + a / 2, color="tab:purple", alpha=0.25, lw=0)
     ax.set_xlim(*window_nm)
     ax.set_xlabel("x from the lithographic gate edge (nm)")
     ax.set_ylabel("sheet density (10$^{11}$ cm$^{-2}$)")
@@ -67,7 +85,11 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
         ax2.plot(x_nm[sel], nu[sel], color=colours[result.primary], lw=0.8, ls=":")
         ax2.set_ylabel(f"local filling of {result.primary} (dotted)")
         ax2.set_ylim(bottom=0)
-    ax.set_title(f"edge at V$_g$ = {result.settings.gate_voltage_V:g} V", fontsize=10)
+    title = f"edge at V$_g$ = {result.settings.gate_voltage_V:g} V"
+    if flagged:
+        crit = result.settings.strip_min_width_lB
+        title += f"; hatched red: strip narrower than {crit:g} l$_B$ (model does not hold)"
+    ax.set_title(title, fontsize=10)
     return fig
 
 

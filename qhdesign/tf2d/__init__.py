@@ -1,4 +1,4 @@
-"""2D Thomas–Fermi cross-sections on DOLFINx: depletion edges, healing, strips, pinch-off.
+"""2D Thomas–Fermi cross-sections on DOLFINx: depletion edges, rise and tail, strips, pinch-off.
 
 The only package that imports dolfinx, gmsh, mpi4py and petsc4py; they load inside the functions
 that need them, so importing this package is light. Entry points: :func:`solve_edge`,
