@@ -332,6 +332,10 @@ def conditions_from_edge(stack, cond: QHConditions, gate_voltage_V: float, comm=
     return replace(cond, field_T=B, edge_velocity_m_s=v, edge_shift_m_per_V=res.edge_shift_m_per_V)
 
 
+#: Sweep-column code of the regime verdict (a CSV row holds numbers only).
+REGIME_INDEX = {"AB": 0, "crossover": 1, "CD": 2}
+
+
 def figure_columns(fig: dict) -> dict:
     """Figures as sweep columns (display units in the names; NaN where undefined)."""
 
@@ -350,7 +354,8 @@ def figure_columns(fig: dict) -> dict:
         "interferometer.window_mT": s("window_T", 1e3),
         "interferometer.window_thermal_mT": s("window_thermal_T", 1e3),
         "interferometer.phase_jump_over_2pi": s("phase_jump_rad", 1 / (2 * math.pi)),
-        "interferometer.regime": fig["regime"],
+        # a sweep row holds numbers only: 0 = AB, 1 = crossover, 2 = CD (docs/interferometer.md)
+        "interferometer.regime_index": float(REGIME_INDEX[fig["regime"]]),
         "interferometer.dA_I_dV_um2_per_V": s("dA_I_dV_m2_per_V", 1e12),
         "interferometer.period_gate_mV": s("period_gate_V", 1e3),
         "interferometer.edge_velocity_m_per_s": s("edge_velocity_m_per_s"),
