@@ -41,7 +41,6 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSe
         from qhdesign.sp1d.sheets import sheet_model
     except ImportError as exc:  # the 1D stage is a separate issue
         raise InputError(f"the 1D stage is not available ({exc})") from None
-    refuse_gate_dielectric(stack, "the 2D stage")
     result = solve_bands(stack)
     section = cross_section_from_sheet_model(
         sheet_model(stack, result), gate_barrier_J=gate_barrier_J
@@ -62,6 +61,18 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None) -> CrossSe
         for w in result.wells:
             n_cell[(zc >= w.z_top_m) & (zc <= w.z_bottom_m)] = 0.0
         changes["charge_C_m3"] = np.asarray(section.charge_C_m3) - sc.e * n_cell
+    t_d = float(getattr(stack.surface, "dielectric_thickness", 0.0) or 0.0)
+    if stack.surface.kind == "gate" and t_d > 0.0:
+        # the 1D grid starts at z = -t (the dielectric holds no charge): keep the semiconductor
+        keep = np.asarray(section.charge_z_m) > 0.0
+        edges = np.asarray(section.charge_edges_m)
+        changes |= {
+            "charge_z_m": np.asarray(section.charge_z_m)[keep],
+            "charge_C_m3": np.asarray(changes.get("charge_C_m3", section.charge_C_m3))[keep],
+            "charge_edges_m": edges[edges >= -1e-15] if edges.size else edges,
+            "gate_dielectric_thickness_m": t_d,
+            "gate_dielectric_permittivity": float(stack.surface.dielectric_permittivity),
+        }
     prof = stack.profile()
     sub = stack.substrate
     if sub.kind in ("back_gate", "pinned"):
