@@ -45,6 +45,8 @@ demo: $(VENV)/.installed
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
 	$(QH) island $(STACK) --radius "1.15 um" --filling 1/3 --gap "120 ueV" \
 	  --json $(OUT)/island.json --plot $(OUT)/island.png
+	$(QH) report $(STACK) --field "2 T" --edge-gate -1.0 --island "1.15 um" --filling 1/3 \
+	  --gap "120 ueV" -o $(OUT)/review.html --json $(OUT)/review.json
 	@echo "demo results in $(OUT)/"
 
 test: $(VENV)/.installed

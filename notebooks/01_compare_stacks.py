@@ -35,7 +35,7 @@ for path in stacks:
 
 # %% [markdown]
 # ## A parameter path changes one value and re-validates
-# Moving the upper screening well 4 nm closer to the primary well:
+# Moving the upper screening well 12 nm closer to the primary well (36 nm -> 24 nm):
 
 # %%
 screened = qhdesign.load_stack(root / "stacks" / "ql2417_screened.toml")

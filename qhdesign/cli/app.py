@@ -12,7 +12,7 @@ import importlib
 import typer
 
 #: Command modules, in the order their commands appear in ``--help``.
-COMMAND_MODULES = ("check", "bands", "edge", "island", "size", "interpret", "sweep")
+COMMAND_MODULES = ("check", "bands", "edge", "island", "size", "interpret", "sweep", "report")
 
 
 def _version_callback(value: bool) -> None:

@@ -9,7 +9,7 @@ from pathlib import Path
 import typer
 
 from . import disorder as D
-from .common import guarded, option_quantity
+from .common import guarded, option_quantity, warn
 
 
 def _load(stack_file: Path):
@@ -17,7 +17,7 @@ def _load(stack_file: Path):
 
     stack = load_stack(stack_file)
     for w in stack.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
     return stack
 
 
@@ -80,9 +80,16 @@ def _print_bands(r) -> None:
         )
     console.print(f"surface charge: {r.surface_charge_C_m2 / sc.e * 1e-4:+.4g} e cm^-2")
     f = r.flags
+    prim = next(w for w in r.wells if w.role == "primary")
     lines = [
+        f"primary well: {prim.sheet_density_m2 * 1e-4:.3g} cm^-2"
+        + (" [EMPTY: no usable channel]" if f.primary_empty else " (ok)"),
         f"second subband of the primary: E2 - EF = {f.e2_minus_ef_J / sc.e * 1e3:.2f} meV"
-        + (" [OCCUPIED or within margin]" if f.second_subband_occupied else " (ok)"),
+        + (
+            " [OCCUPIED or within margin]"
+            if f.second_subband_occupied
+            else (" (primary empty)" if f.primary_empty else " (ok)")
+        ),
         "parallel conduction: "
         + (", ".join(f.parallel_layers) if f.parallel_conduction else "none"),
         "donor supply margin: "
@@ -98,7 +105,7 @@ def _print_bands(r) -> None:
     for line in lines:
         console.print(line)
     for w in r.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
 
 
 def register(app: typer.Typer) -> None:
@@ -227,7 +234,7 @@ def register(app: typer.Typer) -> None:
                 f"  dn/dV (cm^-2/V) from {seg['from_V']:+.3f} to {seg['to_V']:+.3f} V: {slopes}"
             )
         for w in g.warnings:
-            typer.echo(f"warning: {w}", err=True)
+            warn(w)
         if csv_out is not None:
             from qhdesign.io import atomic_write_text
 
@@ -255,9 +262,16 @@ def register(app: typer.Typer) -> None:
             help="Stack parameter path to fit, e.g. surface.barrier (with --mobility: "
             "background, the default).",
         ),
-        well: str = typer.Option(..., "--well", help="Well whose measurement is given."),
+        well: str | None = typer.Option(
+            None, "--well", help="Well whose measurement is given (not with --hall-density)."
+        ),
         density: str | None = typer.Option(
             None, "--density", help='Measured zero-bias sheet density, e.g. "2.1e11 cm^-2".'
+        ),
+        hall_density: str | None = typer.Option(
+            None,
+            "--hall-density",
+            help='Measured total (Hall) density of all wells together, e.g. "4.7e11 cm^-2".',
         ),
         threshold: str | None = typer.Option(
             None, "--threshold", help="Measured depletion threshold of the well (V)."
@@ -284,10 +298,15 @@ def register(app: typer.Typer) -> None:
         from qhdesign.errors import InputError
         from qhdesign.sp1d import calibrate
 
-        given = [x is not None for x in (density, threshold, mobility)]
+        given = [x is not None for x in (density, hall_density, threshold, mobility)]
         if sum(given) != 1:
             raise InputError(
-                "give exactly one of --density or --threshold (or --mobility)", source="options"
+                "give exactly one of --density, --hall-density or --threshold (or --mobility)",
+                source="options",
+            )
+        if well is None and hall_density is None:
+            raise InputError(
+                "required: the well whose measurement is given", source="option --well"
             )
         if mobility is not None:
             D.calibrate_mobility(stack_file, parameter, well, mobility, out, json_out)
@@ -295,11 +314,15 @@ def register(app: typer.Typer) -> None:
         for value, option in ((parameter, "--parameter"), (out, "--out")):
             if value is None:
                 raise InputError(
-                    "required with --density or --threshold", source=f"option {option}"
+                    "required with --density, --hall-density or --threshold",
+                    source=f"option {option}",
                 )
         stack = _load(stack_file)
         if density is not None:
             target, measured = "density", option_quantity(density, "sheet_density", "--density")
+        elif hall_density is not None:
+            target = "total"
+            measured = option_quantity(hall_density, "sheet_density", "--hall-density")
         else:
             target, measured = "threshold", option_quantity(threshold, "voltage", "--threshold")
         bracket = None
@@ -310,7 +333,7 @@ def register(app: typer.Typer) -> None:
         )
         typer.echo(
             f"{parameter}: fitted {res.fitted_value:.6g} (SI), was {res.initial_value:.6g}; "
-            f"reproduces the measured {target} of {well} "
+            f"reproduces the measured {target} of {res.well} "
             f"({res.achieved:.6g} vs {res.measured:.6g} SI) after {res.evaluations} solves"
         )
         from qhdesign.io import atomic_write_json, atomic_write_text

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded
+from .common import guarded, warn
 
 
 def register(app: typer.Typer) -> None:
@@ -31,7 +31,7 @@ def register(app: typer.Typer) -> None:
 
         stack = load_stack(stack_file)
         for w in stack.warnings:
-            typer.echo(f"warning: {w}", err=True)
+            warn(w)
         console = Console(width=120)
         top = stack.surface
         top_text = (

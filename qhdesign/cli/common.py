@@ -82,6 +82,23 @@ def check_output_paths(kwargs: dict[str, Any]) -> None:
             check_figure_path(value, option)
 
 
+#: Warnings already printed by the running command (each is printed once per command).
+_WARNED: set[str] = set()
+
+
+def warn(text: str) -> None:
+    """Print ``warning: text`` on stderr once per command (rank 0 only under MPI).
+
+    A stage's result repeats the stack's warnings and a sweep meets the same condition at every
+    step; the user needs to read each one once.
+    """
+    key = " ".join(str(text).split())
+    if key in _WARNED or not _is_lead_rank():
+        return
+    _WARNED.add(key)
+    typer.echo(f"warning: {key}", err=True)
+
+
 def guarded(func: Callable[..., Any]) -> Callable[..., Any]:
     """Wrap a command: a :class:`QHDesignError` becomes one line on stderr and exit code 2.
 
@@ -90,6 +107,7 @@ def guarded(func: Callable[..., Any]) -> Callable[..., Any]:
 
     @functools.wraps(func)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
+        _WARNED.clear()  # one command, one set of warnings
         try:
             check_output_paths(kwargs)
             return func(*args, **kwargs)

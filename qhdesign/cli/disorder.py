@@ -7,7 +7,7 @@ import math
 
 import typer
 
-from .common import option_quantity
+from .common import option_quantity, warn
 
 #: ScatteringOptions validation key -> the CLI option that set it.
 OPTION_OF = {
@@ -88,7 +88,7 @@ def print_disorder(sr, console) -> None:
             f"{o.min_mobility_m2_Vs * 1e4:.3g} cm^2/Vs" + (" [LOW]" if sr.low_mobility else " (ok)")
         )
     for w in sr.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
 
 
 def calibrate_mobility(stack_file, parameter, well, mobility, out, json_out) -> None:
@@ -114,7 +114,7 @@ def calibrate_mobility(stack_file, parameter, well, mobility, out, json_out) -> 
     mu = option_quantity(mobility, "mobility", "--mobility")
     stack = load_stack(stack_file)
     for w in stack.warnings:
-        typer.echo(f"warning: {w}", err=True)
+        warn(w)
     r = solve_bands(stack)
     try:
         nb, sr = fit_background(r, well, mu)

@@ -12,13 +12,13 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity
+from .common import guarded, option_quantity, warn
 
 
 def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
     from qhdesign.errors import InputError
+    from qhdesign.pipeline import section_from_stack
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d import section_from_stack
 
     stack = load_stack(stack_file)
     barrier = option_quantity(gate_barrier, "energy", "--gate-barrier")
@@ -86,7 +86,7 @@ def _positive_length(value: str | None, option: str) -> float | None:
 
 
 def _is_root() -> bool:
-    from qhdesign.tf2d.backend import load
+    from qhdesign.fem.backend import load
 
     MPI, _ = load()
     return MPI.COMM_WORLD.rank == 0
@@ -229,7 +229,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Depletion edge of STACK_FILE under a gate: width, rise, tail, strips, lever arm."""
         from qhdesign.errors import InputError
-        from qhdesign.tf2d import EdgeSettings, MeshOptions, SolverOptions
+        from qhdesign.section import EdgeSettings, MeshOptions, SolverOptions
 
         v = option_quantity(gate_voltage, "voltage", "--gate-voltage")
         b = _field(field)
@@ -262,7 +262,7 @@ def register(app: typer.Typer) -> None:
         if w is not None:
             _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields)
             return
-        from qhdesign.tf2d import solve_edge
+        from qhdesign.section import solve_edge
 
         res = solve_edge(section, settings, mesh, opts)
         if fields is not None:  # collective: every rank writes its part
@@ -315,7 +315,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Centre density of a split-gate constriction vs gate voltage; pinch-off per well."""
         from qhdesign.errors import InputError
-        from qhdesign.tf2d import MeshOptions, SolverOptions, solve_pinchoff
+        from qhdesign.section import MeshOptions, SolverOptions, solve_pinchoff
 
         w = _positive_length(gap, "--gap")
         a = option_quantity(v_start, "voltage", "--from")
@@ -349,6 +349,15 @@ def register(app: typer.Typer) -> None:
             else:
                 text = "not pinched in the sweep"
             typer.echo(f"  {name}: {text}")
+        if res.parallel_path_wells:
+            vp = next((v for n, v in res.pinchoff_V.items() if res.roles.get(n) == "primary"), None)
+            where = "" if vp is None else f" at {vp:+.3f} V"
+            warn(
+                f"{', '.join(res.parallel_path_wells)} still conduct(s) under the constriction "
+                f"after the primary pinches off{where}: a parallel path around the "
+                "constriction. Sweep further, narrow the gap, or feed the screening wells fewer "
+                "donors"
+            )
         if json_out is not None:
             from qhdesign.io import atomic_write_json
 
@@ -378,7 +387,7 @@ def register(app: typer.Typer) -> None:
 
 
 def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields):
-    from qhdesign.tf2d import solve_constriction
+    from qhdesign.section import solve_constriction
 
     res = solve_constriction(section, w, v, mesh, opts)
     if fields is not None:  # collective: every rank writes its part

@@ -9,6 +9,18 @@ _WELL_COLOURS = {"primary": "#b03a2e", "screening": "#2471a3"}
 _DOPING_COLOUR = "#e67e22"
 
 
+def volts_text(v: float) -> str:
+    """A voltage for a figure label with a true minus sign (U+2212), e.g. "−0.523 V"."""
+    return f"{v:+.3f} V".replace("-", "\u2212")
+
+
+def _electrons_text(n_m2: float) -> str:
+    """Free electrons of a doped layer, for its label ("no free electrons" or a density)."""
+    if n_m2 < 1e9:  # 1e5 cm^-2: nothing a measurement would see
+        return "no free electrons"
+    return f"electrons: {n_m2 * 1e-4:.2g} cm$^{{-2}}$"
+
+
 def plot_bands(result, ax=None, *, window_nm: tuple[float, float] | None = None):
     """Band diagram of a 1D solution over the whole stack, and zoomed on the wells.
 
@@ -118,7 +130,7 @@ def _draw_bands(result, ax, window, *, full: bool) -> None:
             ax.text(
                 0.5 * (a + b),
                 0.98,
-                f"{d.name}\n{d.electrons_m2 * 1e-4:.2g} e/cm$^2$",
+                f"{d.name}\n{_electrons_text(d.electrons_m2)}",
                 transform=ax.get_xaxis_transform(),
                 ha="center",
                 va="top",
@@ -232,19 +244,21 @@ def plot_gate(result, ax=None):
         ls = "-" if role == "primary" else ("--" if i == 0 else "-.")
         n = result.density_m2[i] * 1e-4
         nmax = max(nmax, float(n.max()))
-        ax.plot(v, n, color=colour, ls=ls, lw=1.5, label=f"{name} ({role})")
         t = result.thresholds_V.get(name, float("nan"))
+        empties = f", empties at {volts_text(t)}" if np.isfinite(t) else ""
+        ax.plot(v, n, color=colour, ls=ls, lw=1.5, label=f"{name} ({role}){empties}")
         if np.isfinite(t):
             ax.axvline(t, color=colour, lw=0.7, ls=":")
             ax.annotate(
-                f"{t:+.3f} V",
+                volts_text(t),
                 (t, 0),
-                xytext=(2, 4),
+                xytext=(3, 10),
                 textcoords="offset points",
                 fontsize=7,
                 color=colour,
                 rotation=90,
                 va="bottom",
+                bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none", "alpha": 0.85},
             )
             slope = result.geometric_slope_m2_V.get(name)
             if slope:

@@ -5,8 +5,6 @@ Each function takes an optional ``ax`` and returns the figure (Agg-safe).
 
 from __future__ import annotations
 
-from fractions import Fraction
-
 import numpy as np
 
 __all__ = ["plot_edge", "plot_edge_profiles", "plot_pinchoff", "plot_potential_map"]
@@ -32,6 +30,13 @@ def _ax(ax, **fig_kw):
     return ax.figure, ax
 
 
+def _nu_text(nu: float) -> str:
+    from fractions import Fraction
+
+    f = Fraction(nu).limit_denominator(9)
+    return str(f.numerator) if f.denominator == 1 else f"{f.numerator}/{f.denominator}"
+
+
 def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
     """n(x) of every well near the edge, with the lithographic and electronic edges and strips.
 
@@ -54,7 +59,12 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
         if w.edge_x_m is not None:
             ax.axvline(w.edge_x_m * 1e9, color=colours[w.name], ls="--", lw=1.0)
     flagged = False
-    for s in result.strips:
+    label = (
+        "incompressible strips (ν = "
+        + ", ".join(_nu_text(t["filling"]) for t in result.strips)
+        + ")"
+    )
+    for k, s in enumerate(result.strips):
         c = s["centre_m"] * 1e9
         a = s["width_m"] * 1e9
         if s.get("narrower_than_lB"):
@@ -62,8 +72,7 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
             flagged = True
             ax.axvspan(c - a / 2, c + a / 2, facecolor="none", edgecolor="tab:red", hatch="///")
             ax.annotate(
-                f"\u03bd={Fraction(s['filling']).limit_denominator(20)}: "
-                f"{s['width_over_lB']:.2g} l$_B$",
+                f"\u03bd={_nu_text(s['filling'])}: {s['width_over_lB']:.2g} l$_B$",
                 (c, 0.0),
                 xytext=(0, 12),
                 textcoords="offset points",
@@ -72,12 +81,21 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
                 color="tab:red",
             )
         else:
-            ax.axvspan(c - a / 2, c + a / 2, color="tab:purple", alpha=0.25, lw=0)
+            ax.axvspan(
+                c - a / 2,
+                c + a / 2,
+                color="tab:purple",
+                alpha=0.25,
+                lw=0,
+                label=label if k == 0 else None,
+            )
     ax.set_xlim(*window_nm)
     ax.set_xlabel("x from the lithographic gate edge (nm)")
     ax.set_ylabel("sheet density (10$^{11}$ cm$^{-2}$)")
     ax.set_ylim(bottom=0)
-    ax.legend(loc="lower right", fontsize=8, title="wells (dashed: electronic edge)")
+    ax.legend(
+        loc="lower right", fontsize=8, title="wells (dashed: electronic edge)", framealpha=0.9
+    )
     if result.settings.field_T:
         ip = sol.sheet_names.index(result.primary)
         nu = sol.density_m2[ip] * sc.h / (sc.e * result.settings.field_T)
@@ -85,7 +103,8 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
         ax2.plot(x_nm[sel], nu[sel], color=colours[result.primary], lw=0.8, ls=":")
         ax2.set_ylabel(f"local filling of {result.primary} (dotted)")
         ax2.set_ylim(bottom=0)
-    title = f"edge at V$_g$ = {result.settings.gate_voltage_V:g} V"
+    vg = f"{result.settings.gate_voltage_V:g}".replace("-", "\u2212")
+    title = f"edge at V$_g$ = {vg} V"
     if flagged:
         crit = result.settings.strip_min_width_lB
         title += f"; hatched red: strip narrower than {crit:g} l$_B$ (model does not hold)"

@@ -13,7 +13,7 @@ import numpy as np
 
 from qhdesign.errors import InputError
 
-__all__ = ["design_window", "histograms", "line_plot", "plot_sweep_table"]
+__all__ = ["axis_label", "design_window", "histograms", "line_plot", "plot_sweep_table"]
 
 
 def _plt():
@@ -97,10 +97,10 @@ def design_window(
     ok = table.ok & np.isfinite(cs)
     if _spans_area(xs[ok], ys[ok]):
         m = ax.tricontourf(_tri(xs[ok], ys[ok]), cs[ok], levels=20, cmap="viridis")
-        fig.colorbar(m, ax=ax, label=cc)
+        fig.colorbar(m, ax=ax, label=axis_label(cc))
     else:
         m = ax.scatter(xs[ok], ys[ok], c=cs[ok], cmap="viridis")
-        fig.colorbar(m, ax=ax, label=cc)
+        fig.colorbar(m, ax=ax, label=axis_label(cc))
     for name, value in contours:
         col = table.resolve(name, "output")
         v = table.data[col].astype(float)
@@ -141,8 +141,8 @@ def design_window(
     if failed.any():
         ax.plot(xs[failed], ys[failed], "x", color="r", ms=5, label="failed design")
         ax.legend(loc="best", fontsize=8)
-    ax.set_xlabel(xc)
-    ax.set_ylabel(yc)
+    ax.set_xlabel(axis_label(xc))
+    ax.set_ylabel(axis_label(yc))
     title = "hatched: infeasible"
     if crit:
         import textwrap
@@ -162,56 +162,151 @@ def _crit_text(name: str, bounds: tuple[float, float]) -> str:
     return f"{lo:g} <= {name} <= {hi:g}"
 
 
-def line_plot(table, x: str, outputs: Sequence[str], criteria=None, ax=None):
-    """Outputs against one swept parameter; infeasible designs circled, failed ones dashed.
+#: Unit suffixes of CSV columns (``primary_density_cm^-2``), longest first when matched.
+_UNITS = (
+    "cm^-2/V", "cm^2/Vs", "cm^-2", "cm^-3", "m/s", "km/s", "ueV", "meV", "eV", "nm", "um",
+    "mT", "aF", "mK", "K", "V", "T", "s", "%",
+)  # fmt: skip
+_PRETTY = (("^-2", "\u207b\u00b2"), ("^-3", "\u207b\u00b3"), ("^2", "\u00b2"), ("ueV", "\u00b5eV"))
 
-    When other parameters vary too (a grid), one line is drawn per combination of their values
-    (up to 10; beyond that the designs are shown as points).
+
+def _words(name: str) -> str:
+    """``primary_density`` -> "primary density"; symbols stay joined: ``K_IL_over_K_I`` ->
+    "K_IL/K_I", ``E_C`` -> "E_C"."""
+    tokens = [t for t in name.split("_") if t]
+    if not tokens:
+        return name
+
+    def sym(t: str) -> bool:
+        return len(t) == 1 or any(c.isupper() for c in t)
+
+    out, prev, slash = tokens[0], tokens[0], False
+    for tok in tokens[1:]:
+        if tok == "over":
+            slash = True
+            continue
+        if slash:
+            out += "/" + tok
+        elif sym(prev) and sym(tok):
+            out += "_" + tok
+        else:
+            out += " " + tok
+        prev, slash = tok, False
+    return out
+
+
+def _name_unit(column: str) -> tuple[str, str]:
+    label = axis_label(column)
+    if label.endswith(")") and " (" in label:
+        name, unit = label[:-1].rsplit(" (", 1)
+        return name, unit
+    return label, ""
+
+
+def _value_text(column: str, value: float) -> str:
+    """``setback_lower thickness = 26 nm`` for a legend entry."""
+    name, unit = _name_unit(column)
+    return f"{name} = {value:g}{' ' + unit if unit else ''}"
+
+
+def axis_label(column: str) -> str:
+    """A readable axis label from a CSV column: quantity, then the unit in brackets.
+
+    ``layers.setback_upper.thickness_nm`` -> "setback_upper thickness (nm)";
+    ``primary_density_cm^-2`` -> "primary density (cm⁻²)"; ``dn_dV_primary_cm^-2/V`` ->
+    "dn/dV primary (cm⁻²/V)". Layer names keep their underscores (they are the user's names).
+    """
+    name, unit = column, ""
+    for u in sorted(_UNITS, key=len, reverse=True):
+        if column.endswith("_" + u):
+            name, unit = column[: -len(u) - 1], u
+            break
+    for prefix in ("layers.", "doping."):
+        if name.startswith(prefix):
+            name = name[len(prefix) :].replace(".", " ")
+            break
+    else:
+        name = " ".join(_words(part) for part in name.replace("dn_dV", "dn/dV").split("."))
+    for a, b in _PRETTY:
+        unit = unit.replace(a, b)
+    if unit == "um":
+        unit = "\u00b5m"
+    return f"{name} ({unit})" if unit else name
+
+
+def _varies_within(values: np.ndarray, xs: np.ndarray) -> bool:
+    """True when ``values`` take more than one value at some x (an independent parameter);
+    False when they follow x (zipped or linked with it)."""
+    return any(len(set(values[xs == xv].tolist())) > 1 for xv in np.unique(xs))
+
+
+def line_plot(table, x: str, outputs: Sequence[str], criteria=None, ax=None):
+    """Each output against one swept parameter: one panel per output, one curve per design line.
+
+    Parameters that follow x (a zip sweep of both setbacks, a linked parameter) are named in the
+    x label, not drawn as separate designs. Parameters that vary independently of x (a grid)
+    give one curve per combination of their values (up to 10, beyond that points), with the
+    legend outside the data. Infeasible designs are circled, failed ones marked by a red dashed
+    line. With ``ax``, every output is drawn on that one axis.
     """
     plt = _plt()
-    if ax is None:
-        fig, ax = plt.subplots(figsize=(6.4, 4.2), layout="constrained")
-    else:
-        fig = ax.figure
     xc = table.resolve(x, "parameter")
-    xs = table.data[xc]
+    xs = table.data[xc].astype(float)
     others = [
         p
         for p in table.parameters
         if p != xc and table.data[p].dtype != object and len(set(table.data[p])) > 1
     ]
-    groups: dict[tuple, np.ndarray] = {}
-    keys = list(zip(*(table.data[p] for p in others), strict=True)) if others else [()] * len(xs)
+    indep = [p for p in others if _varies_within(table.data[p], xs)]
+    follow = [p for p in others if p not in indep]
+    groups: dict[tuple, list[int]] = {}
+    keys = list(zip(*(table.data[p] for p in indep), strict=True)) if indep else [()] * len(xs)
     for i, k in enumerate(keys):
         groups.setdefault(k, []).append(i)
     as_points = len(groups) > 10
     crit = _criteria(table, criteria)
     bad = ~feasible_mask(table, crit)
-    for name in outputs:
-        col = table.resolve(name, "output")
+    cols = [table.resolve(name, "output") for name in outputs]
+    if ax is None:
+        fig, axes = plt.subplots(
+            len(cols), 1, sharex=True, squeeze=False, layout="constrained",
+            figsize=(7.4, 1.0 + 2.4 * len(cols)),
+        )  # fmt: skip
+        axes = list(axes[:, 0])
+    else:
+        fig, axes = ax.figure, [ax] * len(cols)
+    failed = ~table.ok
+    for k_out, (col, a) in enumerate(zip(cols, axes, strict=True)):
         v = table.data[col].astype(float)
         for gi, (k, idx) in enumerate(groups.items()):
             idx = np.asarray(idx)
             idx = idx[np.argsort(xs[idx], kind="stable")]
             sel = idx[table.ok[idx]]
-            label = col if gi == 0 or not k else None
             if k and not as_points:
-                label = f"{col}: " + ", ".join(
-                    f"{p}={val:g}" for p, val in zip(others, k, strict=True)
-                )
-            style = "o" if as_points else "o-"
-            ax.plot(
-                xs[sel], v[sel], style, ms=3, label=label, color=None if not as_points else "C0"
-            )
+                label = ", ".join(_value_text(p, val) for p, val in zip(indep, k, strict=True))
+            elif len(set(axes)) == 1 and len(cols) > 1:
+                label = axis_label(col) if gi == 0 else None
+            else:
+                label = None
+            a.plot(
+                xs[sel], v[sel], "o" if as_points else "o-", ms=3, label=label,
+                color=f"C{k_out}" if as_points or (len(set(axes)) == 1 and not k) else f"C{gi}",
+            )  # fmt: skip
             nb = sel[bad[sel]]
             if nb.size:
-                ax.plot(xs[nb], v[nb], "o", mfc="none", mec="k", ms=7)
-    failed = ~table.ok
-    for xv in np.unique(xs[failed]):
-        ax.axvline(xv, color="r", lw=0.8, ls="--")
-    ax.set_xlabel(xc)
-    ax.legend(fontsize=7)
-    ax.set_title("circled: infeasible; red dashed: failed design", fontsize=8)
+                a.plot(xs[nb], v[nb], "o", mfc="none", mec="k", ms=7)
+        for xv in np.unique(xs[failed]):
+            a.axvline(xv, color="r", lw=0.8, ls="--")
+        if len(set(axes)) > 1:
+            a.set_ylabel(axis_label(col), fontsize=9)
+    xlabel = axis_label(xc)
+    if follow:
+        xlabel += "; " + ", ".join(axis_label(p) for p in follow) + " follow"
+    axes[-1].set_xlabel(xlabel)
+    handles = [h for h in axes[0].get_legend_handles_labels()[1] if h]
+    if handles:  # outside the data, to the right of the first panel
+        axes[0].legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0)
+    axes[0].set_title("circled: infeasible; red dashed: failed design", fontsize=8)
     return fig
 
 
@@ -246,13 +341,30 @@ def histograms(table, outputs: Sequence[str], criteria=None):
             )
         for q, ls in zip(np.percentile(v[sel], [5, 50, 95]), (":", "-", ":"), strict=True):
             ax.axvline(q, color="k", ls=ls, lw=1)
-        ax.set_xlabel(col, fontsize=8)
+        ax.set_xlabel(axis_label(col), fontsize=8)
         ax.set_title("P5 / P50 / P95 marked", fontsize=8)
         if crit:
             ax.legend(fontsize=7)
     for ax in list(axes.flat)[n:]:
         ax.set_visible(False)
     return fig
+
+
+#: Bookkeeping columns left out of the default choice of outputs to plot.
+_BOOKKEEPING = {"converged", "iterations", "temperature_K", "gate_V", "charge_balance_relative"}
+
+
+def _informative(table, outputs: Sequence[str]) -> list[str]:
+    """Outputs worth a default plot: not bookkeeping, not constant over the solved designs."""
+    out = []
+    for o in outputs:
+        if o in _BOOKKEEPING:
+            continue
+        v = table.data[o].astype(float)[table.ok]
+        v = v[np.isfinite(v)]
+        if v.size and np.ptp(v) > 1e-12 * max(1.0, float(np.max(np.abs(v)))):
+            out.append(o)
+    return out or list(outputs)
 
 
 def plot_sweep_table(table, x=None, y=None, color=(), contours=(), criteria=None):
@@ -269,7 +381,7 @@ def plot_sweep_table(table, x=None, y=None, color=(), contours=(), criteria=None
         return design_window(table, x, y, color[0] if color else outputs[0], contours, criteria)
     if contours:
         raise InputError("--contour needs a map (--x and --y)", source="option --contour")
-    shown = color or outputs[:6]
+    shown = color or _informative(table, outputs)[:6]
     if not shown:
         raise InputError("the CSV has no numeric outputs", source=table.source)
     if x is not None:

@@ -312,6 +312,7 @@ def build_results(
             donors_total > 0 and margin < options.supply_margin_fraction * donors_total
         ),
         forward_leakage=bool(gate_voltage > options.forward_limit_V),
+        primary_empty=bool(prim.sheet_density_m2 < options.empty_primary_m2),
     )
     others = {
         layout.layer_names[i]: float(par_layer[i])

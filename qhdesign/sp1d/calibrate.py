@@ -1,7 +1,8 @@
 """Calibration: fit one stack parameter so that one measured number is reproduced.
 
-Targets: the zero-bias sheet density of a named well, or the depletion threshold (gate voltage)
-of a named well. The parameter is any stack parameter path (``surface.barrier``,
+Targets: the zero-bias sheet density of a named well, the total zero-bias density of all wells
+(what a Hall measurement of the whole wafer gives), or the depletion threshold (gate voltage) of a
+named well. The parameter is any stack parameter path (``surface.barrier``,
 ``doping.delta_upper.sheet``, ...). The fit is a bracketed root search (Brent's method,
 ``scipy.optimize.brentq``) on model minus measurement; every evaluation is a full freeze-out plus
 low-temperature solve of the modified stack.
@@ -22,7 +23,7 @@ from .solve import check_gate_voltage, freeze_out, solve_at, solve_bands
 
 __all__ = ["CalibrationResult", "calibrate", "threshold_voltage"]
 
-TARGETS = ("density", "threshold")
+TARGETS = ("density", "total", "threshold")
 
 
 @dataclass(frozen=True)
@@ -40,7 +41,7 @@ class CalibrationResult:
     stack: object
 
     def to_dict(self) -> dict:
-        unit = "m2" if self.target == "density" else "V"
+        unit = "V" if self.target == "threshold" else "m2"
         return {
             "parameter": self.parameter,
             "initial_value_SI": self.initial_value,
@@ -107,7 +108,7 @@ def calibrate(
     parameter: str,
     *,
     target: str,
-    well: str,
+    well: str | None = None,
     measured: float,
     bracket: tuple[float, float] | None = None,
     options: BandsOptions | None = None,
@@ -121,10 +122,11 @@ def calibrate(
     parameter
         Stack parameter path (``surface.barrier``, ``doping.delta_upper.sheet``).
     target
-        ``"density"`` (zero-bias sheet density of ``well``, m^-2) or ``"threshold"``
-        (depletion voltage of ``well``, V).
+        ``"density"`` (zero-bias sheet density of ``well``, m^-2), ``"total"`` (zero-bias sheet
+        density summed over all wells, m^-2: the Hall density of a wafer whose wells all
+        conduct in parallel) or ``"threshold"`` (depletion voltage of ``well``, V).
     well
-        Name of a well layer.
+        Name of a well layer (not used by ``"total"``).
     measured
         The measured value (SI).
     bracket
@@ -142,10 +144,10 @@ def calibrate(
             f"target must be one of {', '.join(TARGETS)}, got '{target}'", key="--target"
         )
     names = [lay.name for lay in stack.layers]
-    if well not in names or stack.layers[names.index(well)].well is None:
+    if target != "total" and (well not in names or stack.layers[names.index(well)].well is None):
         wells = ", ".join(lay.name for lay in stack.wells())
         raise InputError(f"'{well}' is not a well; wells: {wells}", key="--well")
-    if not math.isfinite(measured) or (target == "density" and measured <= 0):
+    if not math.isfinite(measured) or (target != "threshold" and measured <= 0):
         raise InputError("the measured density must be > 0", key="--measured")
     p0 = stack.get(parameter)
     if not isinstance(p0, float):
@@ -164,6 +166,9 @@ def calibrate(
         if target == "density":
             r = solve_bands(s, options=opts)
             val = r.well(well).sheet_density_m2
+        elif target == "total":
+            r = solve_bands(s, options=opts)
+            val = sum(w.sheet_density_m2 for w in r.wells)
         else:
             val = threshold_voltage(s, well, options=opts)
         achieved[p] = val
@@ -172,8 +177,8 @@ def calibrate(
     a, b = bracket
     fa, fb = model(a), model(b)
     if fa * fb > 0:
-        unit = "cm^-2" if target == "density" else "V"
-        scale = 1e4 if target == "density" else 1.0
+        unit = "V" if target == "threshold" else "cm^-2"
+        scale = 1.0 if target == "threshold" else 1e4
         raise InputError(
             f"the measured {target} {measured / scale:.4g} {unit} is not reached for {parameter} "
             f"in [{a:.4g}, {b:.4g}] (SI): the model gives {achieved[a] / scale:.4g} to "
@@ -189,7 +194,7 @@ def calibrate(
         initial_value=float(p0),
         fitted_value=float(p),
         target=target,
-        well=well,
+        well=well if target != "total" else "all wells",
         measured=float(measured),
         achieved=float(val),
         evaluations=evals[0],

@@ -24,7 +24,7 @@ from scipy.optimize import brentq
 from ..errors import ConvergenceError, InputError
 from .analysis import cell_electrons, per_layer, subband_wells
 from .options import BandsOptions
-from .solve import _check_temperature, check_gate_voltage, freeze_out, solve_at
+from .solve import METAL_GATE_NOTE, _check_temperature, check_gate_voltage, freeze_out, solve_at
 
 __all__ = ["GateResult", "gate_response", "geometric_slope"]
 
@@ -361,10 +361,7 @@ def gate_response(
         geo[names[k]] = geometric_slope(stack, cen, p.mass * sc.m_e / (np.pi * sc.hbar**2))
     warn = []
     if gated:
-        warn.append(
-            "exposed surface: the sweep lays a metal gate on it with the surface barrier; the "
-            "frozen surface-state charge sits at the metal and does not act on the wells"
-        )
+        warn.append(METAL_GATE_NOTE)
     if par_any.any():
         layers_par = [
             dnames[i] for i in range(len(dnames)) if (dop[i] > opts.parallel_threshold_m2).any()

@@ -44,6 +44,9 @@ class BandsOptions:
     forward_limit_V
         Warn about forward-bias gate leakage above this gate voltage (V). Default +0.5 V
         (common practice for Ti/Au Schottky gates on GaAs heterostructures at low temperature).
+    empty_primary_m2
+        Flag (as failing) a primary well holding less than this (m^-2). Default 1e10 cm^-2
+        (common practice: below it a GaAs 2DEG does not conduct as a usable channel).
     """
 
     solve: SolveOptions = field(default_factory=SolveOptions)
@@ -57,3 +60,4 @@ class BandsOptions:
     tunnel_threshold_J: float = 10e-6 * sc.e
     supply_margin_fraction: float = 0.1
     forward_limit_V: float = 0.5
+    empty_primary_m2: float = 1e14

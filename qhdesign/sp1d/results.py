@@ -76,6 +76,7 @@ class Flags:
     donor_supply_margin_m2: float = math.nan
     donor_supply_low: bool = False
     forward_leakage: bool = False
+    primary_empty: bool = False
 
 
 @dataclass(frozen=True)
@@ -203,6 +204,7 @@ class BandsResult:
                 "donor_supply_margin_m2": f.donor_supply_margin_m2,
                 "donor_supply_low": f.donor_supply_low,
                 "forward_leakage": f.forward_leakage,
+                "primary_empty": f.primary_empty,
             },
             "grid": {
                 "nodes": len(self.z_m),
@@ -262,6 +264,7 @@ class BandsResult:
         out["flag_poor_screening"] = float(f.poor_screening)
         out["flag_tunnel_coupled"] = float(f.tunnel_coupled)
         out["flag_donor_supply_low"] = float(f.donor_supply_low)
+        out["flag_primary_empty"] = float(f.primary_empty)
         return out
 
 

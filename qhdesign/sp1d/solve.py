@@ -256,6 +256,15 @@ def solve_bands(
     return assemble(stack, frozen, st, v, opts, fraction, gated=gated)
 
 
+#: Printed (once) whenever a gate voltage is applied to a stack with a bare surface.
+METAL_GATE_NOTE = (
+    "this stack has a bare surface, so the gate is modelled as metal laid directly on the top "
+    "layer (Schottky barrier = surface.barrier, no dielectric between); under the metal the bare "
+    "surface's frozen charge no longer acts on the wells. If your gate sits on a dielectric, add "
+    "it to the stack file"
+)
+
+
 def assemble(
     stack,
     frozen: FrozenCharge,
@@ -286,6 +295,8 @@ def assemble(
         with_tunnel=tunnel,
     )
     warn = list(getattr(stack, "warnings", ()))
+    if gated:
+        warn.append(METAL_GATE_NOTE)
     if flags.forward_leakage:
         warn.append(
             f"gate voltage {v:+.3f} V is above the forward-bias limit "

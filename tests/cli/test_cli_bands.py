@@ -156,7 +156,7 @@ def test_calibrate_bad_options(cli_runner, app, tmp_path):
                                   "--density", "1e11 cm^-2"])  # fmt: skip
     _one_line_error(res, ["--well", "not a well"])
     res = cli_runner.invoke(app, [*base, "--parameter", "surface.barrier", "--well", "well"])
-    _one_line_error(res, ["exactly one of --density or --threshold"])
+    _one_line_error(res, ["exactly one of --density", "--threshold"])
 
 
 def test_calibrate_threshold_round_trip(cli_runner, app, tmp_path):

@@ -21,15 +21,15 @@ import pytest
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
-from qhdesign.sp1d import solve_bands
-from qhdesign.stack import loads_stack
-from qhdesign.tf2d import (
+from qhdesign.pipeline import section_from_stack
+from qhdesign.section import (
     CrossSectionSolver,
     GateLayout,
     MeshOptions,
     SolverOptions,
-    section_from_stack,
 )
+from qhdesign.sp1d import solve_bands
+from qhdesign.stack import loads_stack
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "reference"))
 from test_sp1d_gate_dielectric import TXT
@@ -105,7 +105,7 @@ def test_geometric_capacitance_in_series(which, coated, record_check):
 
 
 def test_island_still_refuses_a_gate_dielectric():
-    from qhdesign.tf2d.from_stack import refuse_gate_dielectric
+    from qhdesign.pipeline import refuse_gate_dielectric
 
     with pytest.raises(InputError, match="dielectric_thickness"):
         refuse_gate_dielectric(COATED, "the island model")

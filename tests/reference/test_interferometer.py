@@ -80,7 +80,7 @@ CASES = [
 
 
 @pytest.mark.parametrize("case", CASES)
-def test_incompressible_period_matches_brute_force(case):
+def test_incompressible_period_matches_brute_force(case, record_check):
     K_I, _, K_IL, nu, A_I, A_L = case
     B0 = 5.0
     # background charge q0 centres dn_L near 0 at B0 (keeps the numbers O(1))
@@ -89,6 +89,15 @@ def test_incompressible_period_matches_brute_force(case):
     guess = itf.period_incompressible_T(A_I, K_IL / K_I, nu, A_L)
     P = brentq(lambda P: bf.phase(B0 + P, N=0) - p0 - 1.0, 0.5 * guess, 2 * guess, xtol=1e-18)
     # analytic reference: the brute-force period at fixed N_L (HSNR 2011 functional)
+    record_check(
+        f"incompressible flux period, nu = {nu:.3g}, K_IL/K_I = {K_IL / K_I:.3g}, "
+        f"A_L/A_I = {A_L / A_I:.3g}",
+        "brute-force minimisation of the energy functional of Halperin, Stern, Neder, Rosenow, "
+        "Phys. Rev. B 83, 155440 (2011) (docs/derivations.md §11)",
+        guess,
+        P,
+        1e-9,
+    )
     assert P == pytest.approx(guess, rel=1e-9)
 
 
@@ -121,7 +130,7 @@ def test_compressible_general_decomposition(case):
 
 
 @pytest.mark.parametrize("case", CASES)
-def test_window_and_jump_match_brute_force(case):
+def test_window_and_jump_match_brute_force(case, record_check):
     K_I, K_L, K_IL, nu, _, A_L = case
     gap = 30 * UEV
     bf = BruteForce(*case, gap=gap)
@@ -131,6 +140,14 @@ def test_window_and_jump_match_brute_force(case):
     # E(0) - E(+-1) (quasiholes at the upper end, quasielectrons at the lower end)
     up = brentq(lambda B: bf.energy(B, 0, 0) - bf.energy(B, 0, 1), 0.0, 3 * W, xtol=1e-18)
     lo = brentq(lambda B: bf.energy(B, 0, 0) - bf.energy(B, 0, -1), -3 * W, 0.0, xtol=1e-18)
+    record_check(
+        f"fixed-filling window, nu = {nu:.3g}, gap 30 ueV",
+        "brute-force ground state of the energy functional of Halperin et al., Phys. Rev. B 83, "
+        "155440 (2011), window idea of Rosenow & Stern, Phys. Rev. Lett. 124, 106805 (2020)",
+        W,
+        up - lo,
+        1e-9,
+    )
     assert up - lo == pytest.approx(W, rel=1e-9)
     # N_L = 0 is the ground state inside, and a neighbour just outside
     for B in np.linspace(lo, up, 9)[1:-1]:

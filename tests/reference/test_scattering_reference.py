@@ -69,12 +69,20 @@ def asymptote(d, n, n_r):
 
 
 @pytest.mark.parametrize("kfd", [5.0, 7.0, 10.0, 20.0])
-def test_remote_asymptote_prefactor(kfd):
+def test_remote_asymptote_prefactor(kfd, record_check):
     n, n_r = 3e15, 1e16  # 3e11 and 1e12 cm^-2
     d = kfd / fermi_wavevector(n)
     # strong screening (q_s d = 1000): the asymptote's assumption q_s >> 1/d; the asymptote
     # does not depend on q_s, m* or eps
     w = remote_mobility(d, n, n_r, q_s=1000.0 / d)
+    record_check(
+        f"remote-donor mobility at k_F d = {kfd:g}, strong screening: asymptote",
+        "remote-donor asymptote 8e(k_F d)^3/(pi hbar n_r), Davies, The Physics of "
+        "Low-Dimensional Semiconductors (1998) ch. 9; derived in docs/disorder.md",
+        w.mobility_m2_per_Vs,
+        asymptote(d, n, n_r),
+        0.02,
+    )
     assert w.mobility_m2_per_Vs == pytest.approx(asymptote(d, n, n_r), rel=0.02)
 
 
@@ -155,7 +163,7 @@ def test_short_range_ratio_is_one_and_golden_rule_value():
 
 
 @pytest.mark.parametrize("eta", [0.05, 0.3, 1.0, 3.0])
-def test_fang_howard_form_factors(eta):
+def test_fang_howard_form_factors(eta, record_check):
     # T. Ando, A. B. Fowler, F. Stern, Rev. Mod. Phys. 54, 437 (1982), sec. II.B / IV.A:
     # remote impurity at z_i < 0: F = exp(-q|z_i|) (1 + q/b)^-3;
     # screening: F_s = (8 + 9 eta + 3 eta^2) / (8 (1 + eta)^3), eta = q/b
@@ -166,6 +174,14 @@ def test_fang_howard_form_factors(eta):
     f = prof.form_factor(q, zi)[0]
     np.testing.assert_allclose(f, np.exp(q * zi) * (1 + eta) ** -3, rtol=2e-4)
     fs = prof.screening_form_factor(q)[0]
+    record_check(
+        f"Fang–Howard screening form factor at q/b = {eta:g}",
+        "Ando, Fowler, Stern, Rev. Mod. Phys. 54, 437 (1982), sec. II.B: "
+        "(8 + 9η + 3η²)/(8(1 + η)³)",
+        fs,
+        (8 + 9 * eta + 3 * eta**2) / (8 * (1 + eta) ** 3),
+        2e-4,
+    )
     assert fs == pytest.approx((8 + 9 * eta + 3 * eta**2) / (8 * (1 + eta) ** 3), rel=2e-4)
     # uniform layer on the barrier side, [-L, 0]: integral of F^2 =
     # (1 + eta)^-6 (1 - exp(-2 q L)) / (2 q)  (analytic, from the remote form above)

@@ -12,7 +12,7 @@ Checks:
 - one sheet at d = 100 nm over a contact at 1.5 d: the fitted tail of the 2D solve against the
   closed forms (issue: within 5 %) and against the root of the exact transcendental equation of
   this geometry (with the region below, our derivation), solved by scipy's brentq;
-- the mode solver of qhdesign.tf2d.tails against the same brentq roots;
+- the mode solver of qhdesign.section.tails against the same brentq roots;
 - the demo stack QL-2417: the upper screening well's tail against the closed form with the
   stack's own depth and DOS, for a frozen and for a pinned surface (within 5 %).
 """
@@ -24,7 +24,7 @@ import pytest
 from scipy import constants as sc
 from scipy.optimize import brentq
 
-from qhdesign.tf2d import (
+from qhdesign.section import (
     CrossSection,
     CrossSectionSolver,
     GateLayout,
@@ -32,9 +32,9 @@ from qhdesign.tf2d import (
     SheetSpec,
     SolverOptions,
 )
-from qhdesign.tf2d.edge import analyse_edge, tail_model
-from qhdesign.tf2d.examples import GAAS_DOS_J_M2
-from qhdesign.tf2d.tails import tail_modes, top_mode_length
+from qhdesign.section.edge import analyse_edge, tail_model
+from qhdesign.section.examples import GAAS_DOS_J_M2
+from qhdesign.section.tails import tail_modes, top_mode_length
 
 EPS_R = 12.9
 D = 100e-9
@@ -133,8 +133,8 @@ def test_fitted_tail_matches_the_derived_length(surface, record_check):
 def test_demo_stack_upper_well_tail_is_set_by_its_depth(surface, record_check):
     from conftest import SCREENED
 
+    from qhdesign.pipeline import section_from_stack
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d import section_from_stack
 
     sec = section_from_stack(load_stack(SCREENED))
     solver = CrossSectionSolver(

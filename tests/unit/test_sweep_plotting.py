@@ -59,14 +59,14 @@ def test_map_hatches_infeasible_and_failed(table):
     hatches = _hatched(ax)
     assert "////" in hatches  # criterion violated somewhere
     assert "xx" in hatches  # failed (not converged) designs
-    assert ax.get_xlabel() == "layers.setback_upper.thickness_nm"
-    assert fig.axes[1].get_ylabel() == "dn_dV_primary_cm^-2/V"  # colour bar
+    assert ax.get_xlabel() == "setback_upper thickness (nm)"  # readable: quantity (unit)
+    assert fig.axes[1].get_ylabel() == "dn/dV primary (cm\u207b\u00b2/V)"  # colour bar
     assert any(line.get_label() == "failed design" for line in ax.lines)
 
 
 def test_line_and_histograms(table):
     fig = plot_sweep_table(table, "layers.setback_upper.thickness", None, ["primary_share"])
-    assert fig.axes[0].get_xlabel() == "layers.setback_upper.thickness_nm"
+    assert fig.axes[-1].get_xlabel() == "setback_upper thickness (nm)"
     fig = plot_sweep_table(table, None, None, ["depth_primary_nm", "primary_share"])
     assert len([a for a in fig.axes if a.get_visible()]) == 2
 
@@ -108,3 +108,55 @@ def test_collinear_designs_fall_back_to_points_instead_of_crashing(tmp_path):
         color=[t.outputs[0]],
     )
     assert fig is not None
+
+
+def _zip_table(tmp_path):
+    raw = {
+        "sweep": {"stack": str(SCREENED), "stage": "capacitor"},
+        "options": {
+            "densities": {
+                "screen_upper": "1.9e11 cm^-2",
+                "primary": "1.0e11 cm^-2",
+                "screen_lower": "2.0e11 cm^-2",
+            }
+        },
+        "space": {
+            "kind": "zip",
+            "parameters": {
+                "layers.setback_upper.thickness": ["24 nm", "28 nm", "32 nm", "36 nm", "40 nm"],
+                "layers.setback_lower.thickness": ["24 nm", "28 nm", "32 nm", "36 nm", "40 nm"],
+            },
+        },
+    }
+    out = tmp_path / "zip.csv"
+    run_sweep(build_plan(raw, source="t.toml"), out, executor="serial")
+    return read_sweep_csv(out)
+
+
+def test_zip_sweep_line_plot_draws_one_curve_per_output(tmp_path):
+    # the most natural grower sweep: both setbacks together. Each output gets its own panel with
+    # one curve through all five designs (not five one-point "designs" and a legend on the data)
+    t = _zip_table(tmp_path)
+    outs = ["dn_dV_primary_cm^-2/V", "v_screening_empty_V"]
+    fig = plot_sweep_table(t, x="layers.setback_upper.thickness", color=outs)
+    axes = [a for a in fig.axes if a.get_visible()]
+    assert len(axes) == 2
+    for a, label in zip(
+        axes, ["dn/dV primary (cm\u207b\u00b2/V)", "v screening empty (V)"], strict=True
+    ):
+        data = [ln for ln in a.lines if len(ln.get_xdata()) > 1]
+        assert len(data) == 1 and len(data[0].get_xdata()) == 5
+        assert a.get_ylabel() == label
+        assert a.get_legend() is None  # nothing to tell apart: no legend over the data
+    assert axes[-1].get_xlabel() == (
+        "setback_upper thickness (nm); setback_lower thickness (nm) follow"
+    )
+
+
+def test_grid_line_plot_keeps_its_legend_outside_the_data(table):
+    fig = plot_sweep_table(table, "layers.setback_upper.thickness", None, ["primary_share"])
+    leg = fig.axes[0].get_legend()
+    assert leg is not None
+    fig.canvas.draw()
+    box = leg.get_window_extent().transformed(fig.axes[0].transAxes.inverted())
+    assert box.x0 > 1.0  # entirely right of the axes

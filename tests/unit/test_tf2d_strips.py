@@ -14,8 +14,8 @@ import pytest
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
-from qhdesign.tf2d.edge import G_FACTOR_ENHANCED, G_FACTOR_GAAS, EdgeSettings, _odd_gap
-from qhdesign.tf2d.profile import incompressible_strips, magnetic_length
+from qhdesign.section.edge import G_FACTOR_ENHANCED, G_FACTOR_GAAS, EdgeSettings, _odd_gap
+from qhdesign.section.profile import incompressible_strips, magnetic_length
 
 MEV = 1e-3 * sc.e
 M = 0.067 * sc.m_e

@@ -46,12 +46,42 @@ class PinchoffResult:
     #: well -> "pinched" (at pinchoff_V), "closed at start" (below the threshold already at the
     #: first voltage) or "open" (never pinched within the sweep)
     status: dict = field(default_factory=dict)
+    #: well -> "primary" or "screening"
+    roles: dict = field(default_factory=dict)
+
+    @property
+    def parallel_path_wells(self) -> tuple[str, ...]:
+        """Screening wells still open under the constriction beyond the primary's pinch-off.
+
+        Once the primary is pinched off, a screening well that is not (it pinches at a more
+        negative voltage, or not within the sweep) still connects the two sides: a parallel
+        path around the constriction. Empty when the primary does not pinch off in the sweep.
+        """
+        prim = [n for n, r in self.roles.items() if r == "primary"]
+        if not prim:
+            return ()
+        vp = self.pinchoff_V.get(prim[0])
+        if vp is None and self.status.get(prim[0]) != "closed at start":
+            return ()
+        out = []
+        for name, role in self.roles.items():
+            if role != "screening":
+                continue
+            vs = self.pinchoff_V.get(name)
+            state = self.status.get(name, "open")
+            if state == "closed at start":
+                continue
+            if vs is None or vp is None or vs < vp - self.tolerance_V:
+                out.append(name)
+        return tuple(out)
 
     def to_dict(self) -> dict:
         return {
             "gap_m": self.gap_m,
             "pinchoff_V": dict(self.pinchoff_V),
             "pinchoff_status": dict(self.status),
+            "parallel_path_wells": list(self.parallel_path_wells),
+            "flags": {"parallel_path": bool(self.parallel_path_wells)},
             "pinchoff_tolerance_V": self.tolerance_V,
             "pinchoff_fraction_of_bulk": EDGE_FRACTION,
             "bulk_density_m2": dict(self.bulk_density_m2),
@@ -129,6 +159,7 @@ def solve_pinchoff(
         bulk_density_m2={s.name: s.density_m2 for s in section.sheets},
         pinchoff_V=pinch,
         status=status,
+        roles={s.name: s.role for s in section.sheets},
         tolerance_V=tolerance_V,
         info={"dofs": solver.num_dofs, "linear_solver": solver.linear_solver},
     )
