@@ -229,6 +229,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Depletion edge of STACK_FILE under a gate: width, rise, tail, strips, lever arm."""
         from qhdesign.errors import InputError
+        from qhdesign.fem.grid import check_refine
         from qhdesign.section import EdgeSettings, MeshOptions, SolverOptions
 
         v = option_quantity(gate_voltage, "voltage", "--gate-voltage")
@@ -242,8 +243,7 @@ def register(app: typer.Typer) -> None:
         e_gap = option_quantity(gap_energy, "energy", "--gap-energy")
         per = _positive_length(perimeter, "--perimeter")
         w = _positive_length(gap, "--gap")
-        if not 0.1 <= refine <= 8:
-            raise InputError("refine must lie in [0.1, 8]", source="option --refine")
+        check_refine(refine, source="option --refine")
         gap_model, gap_J = _spin_gap(spin_gap)
         settings = EdgeSettings(
             v,
@@ -315,6 +315,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Centre density of a split-gate constriction vs gate voltage; pinch-off per well."""
         from qhdesign.errors import InputError
+        from qhdesign.fem.grid import check_refine
         from qhdesign.section import MeshOptions, SolverOptions, solve_pinchoff
 
         w = _positive_length(gap, "--gap")
@@ -325,8 +326,7 @@ def register(app: typer.Typer) -> None:
             raise InputError("step must lie in [1 mV, 1 V]", source="option --step")
         if not b < a:
             raise InputError("--to must be more negative than --from", source="option --to")
-        if not 0.1 <= refine <= 8:
-            raise InputError("refine must lie in [0.1, 8]", source="option --refine")
+        check_refine(refine, source="option --refine")
         stack, section, surf = _load_section(stack_file, surface, gate_barrier)
         res = solve_pinchoff(
             section,

@@ -17,7 +17,9 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 from scipy import constants as sc
 
+from qhdesign import materials
 from qhdesign.errors import InputError
+from qhdesign.results import Table, flatten
 
 from .geometry import GateLayout, MeshOptions
 from .model import CrossSection, _inverse_tf
@@ -42,16 +44,21 @@ __all__ = [
 
 #: Gate-voltage step of the finite difference for the edge shift per volt (V).
 VOLTAGE_STEP_V = 0.02
-#: Bare |g*| of GaAs conduction electrons (from memory: g* = -0.44): the Zeeman splitting
-#: subtracted from the even-integer gaps, and the odd-integer spin gap with ``spin_gap="bare"``.
-G_FACTOR_GAAS = 0.44
-#: Effective |g*| of the exchange-enhanced odd-integer spin gap with ``spin_gap="enhanced"``:
-#: 15 times the bare value. Common practice: measured nu = 1 and nu = 3 spin gaps of GaAs 2DEGs
-#: are 10 to 20 times the bare Zeeman gap and grow linearly with B (an enhanced g*; e.g.
+#: The exchange-enhanced odd-integer spin gap (``spin_gap="enhanced"``) uses 15 times the bare
+#: |g*| of the materials table. Common practice: measured nu = 1 and nu = 3 spin gaps of GaAs
+#: 2DEGs are 10 to 20 times the bare Zeeman gap and grow linearly with B (an enhanced g*; e.g.
 #: D. R. Leadley, R. J. Nicholas, J. J. Harris and C. T. Foxon, arXiv:cond-mat/9805332 (1998)).
-G_FACTOR_ENHANCED = 15 * G_FACTOR_GAAS
+G_ENHANCEMENT = 15.0
 #: Accepted values of ``EdgeSettings.spin_gap``.
 SPIN_GAP_MODELS = ("bare", "enhanced")
+
+
+def bare_g_factor() -> float:
+    """|g*| of GaAs conduction electrons (materials table: -0.44): the Zeeman splitting subtracted
+    from the even-integer gaps, and the odd-integer spin gap with ``spin_gap="bare"``."""
+    return abs(materials.electron_g_factor_gaas())
+
+
 #: Most negative gate voltage accepted (V): beyond this a Schottky gate breaks down.
 MIN_GATE_VOLTAGE_V = -20.0
 
@@ -77,7 +84,7 @@ class EdgeSettings:
     spin_gap
         Odd-integer strip gap: ``"bare"`` Zeeman |g*| mu_B B with |g*| = 0.44, or
         ``"enhanced"`` with the exchange-enhanced ``g_effective`` (default
-        :data:`G_FACTOR_ENHANCED`, common practice).
+        ``G_ENHANCEMENT`` times the bare |g*|, common practice).
     g_effective
         |g*| of the enhanced spin gap (implies ``spin_gap="enhanced"``).
     spin_gap_J
@@ -223,7 +230,7 @@ class EdgeResult:
             "strips": list(self.strips),
             "strip_model": {
                 "even_gap": "hbar*omega_c - |g*| mu_B B",
-                "g_bare": G_FACTOR_GAAS,
+                "g_bare": bare_g_factor(),
                 "odd_gap_kind": odd_kind,
                 "odd_gap_g_effective": odd_g,
                 "odd_gap_J": odd_J,
@@ -241,6 +248,17 @@ class EdgeResult:
             "tail_model": dict(self.tail_model),
             "solver": dict(self.info),
         }
+
+    def summary(self) -> dict[str, float]:
+        """Flat numbers of :meth:`to_dict` (``wells.<name>.<key>`` etc.), solver record left out."""
+        d = self.to_dict()
+        d.pop("solver", None)  # timings and mesh sizes: not design outputs
+        return flatten(d)
+
+    def table(self) -> Table:
+        """The n(x) profile: x (nm), each well's density (cm^-2), the primary filling (if B)."""
+        cols, rows = self.profile_table()
+        return Table(tuple(cols), rows)
 
     def profile_table(self) -> tuple[list[str], np.ndarray]:
         """Columns and rows of the n(x) table (x in nm, densities in cm^-2, filling)."""
@@ -463,7 +481,7 @@ def _field_figures(sol: FieldSolution, section, ip: int, settings: EdgeSettings)
         B,
         dos_J_m2=prim.dos_J_m2,
         eps_r=_permittivity_at(section, prim.z_m),
-        g_bare=G_FACTOR_GAAS,
+        g_bare=bare_g_factor(),
         odd_gap_J=odd_J,
         odd_gap_kind=odd_kind,
         extra=extra,
@@ -487,10 +505,14 @@ def _odd_gap(settings: EdgeSettings) -> tuple[float | None, str, float | None]:
     if settings.spin_gap_J is not None:
         return settings.spin_gap_J, "user spin gap", None
     if settings.spin_gap == "enhanced" or settings.g_effective is not None:
-        g = settings.g_effective if settings.g_effective is not None else G_FACTOR_ENHANCED
+        g = (
+            settings.g_effective
+            if settings.g_effective is not None
+            else G_ENHANCEMENT * bare_g_factor()
+        )
         kind = "exchange-enhanced Zeeman gap |g_eff| mu_B B"
     else:
-        g = G_FACTOR_GAAS
+        g = bare_g_factor()
         kind = "bare Zeeman gap |g*| mu_B B"
     return (None if not B else g * mu_b * B), kind, g
 

@@ -14,7 +14,7 @@ import pytest
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
-from qhdesign.section.edge import G_FACTOR_ENHANCED, G_FACTOR_GAAS, EdgeSettings, _odd_gap
+from qhdesign.section.edge import G_ENHANCEMENT, EdgeSettings, _odd_gap, bare_g_factor
 from qhdesign.section.profile import incompressible_strips, magnetic_length
 
 MEV = 1e-3 * sc.e
@@ -82,9 +82,10 @@ def test_flag_follows_the_criterion():
 def test_odd_gap_models():
     B = 6.0
     bare = _odd_gap(EdgeSettings(-1.0, field_T=B))
-    assert bare[0] == pytest.approx(G_FACTOR_GAAS * MU_B * B) and bare[2] == G_FACTOR_GAAS
+    assert bare_g_factor() == pytest.approx(0.44)  # GaAs |g*| (from memory; materials table)
+    assert bare[0] == pytest.approx(0.44 * MU_B * B) and bare[2] == pytest.approx(0.44)
     enh = _odd_gap(EdgeSettings(-1.0, field_T=B, spin_gap="enhanced"))
-    assert enh[0] == pytest.approx(G_FACTOR_ENHANCED * MU_B * B)
+    assert enh[0] == pytest.approx(G_ENHANCEMENT * 0.44 * MU_B * B)
     # common practice: enhancement 10-20 times the bare Zeeman gap
     assert 10 <= enh[0] / bare[0] <= 20
     g7 = _odd_gap(EdgeSettings(-1.0, field_T=B, g_effective=7.0))
