@@ -33,6 +33,7 @@ def one(refine: float) -> dict:
     from mpi4py import MPI  # noqa: F401  (before dolfinx)
 
     from qhdesign.island import solve_island
+    from qhdesign.island_options import island_inputs
     from qhdesign.sp1d import sheet_model, solve_bands
     from qhdesign.stack import load_stack
 
@@ -40,11 +41,11 @@ def one(refine: float) -> dict:
     t0 = time.perf_counter()
     model = sheet_model(stack, solve_bands(stack))
     t_1d = time.perf_counter() - t0
-    solve_island(model, **OPTIONS, refine=refine)  # warm-up: forms into the cache
+    solve_island(model, *island_inputs(**OPTIONS, refine=refine))  # warm-up: forms into the cache
     walls = []
     for _ in range(5 if refine == 1 else 1):
         t0 = time.perf_counter()
-        res = solve_island(model, **OPTIONS, refine=refine)
+        res = solve_island(model, *island_inputs(**OPTIONS, refine=refine))
         walls.append(time.perf_counter() - t0)
     d = res.to_dict()
     return {

@@ -14,7 +14,32 @@ __all__ = [
     "InputError",
     "QHDesignError",
     "StackError",
+    "one_line",
 ]
+
+
+#: Longest word (a run without spaces) an error line echoes; longer ones are cut in the middle.
+MAX_WORD_CHARS = 120
+#: Longest error line; a longer one keeps its start and its end (where the allowed range is).
+MAX_LINE_CHARS = 600
+
+
+def one_line(text: object) -> str:
+    """``text`` folded onto one line, echoed values cut so that the line stays readable.
+
+    A 900 kB value must not become a 900,000-character line: every word longer than
+    :data:`MAX_WORD_CHARS` keeps its first 60 and last 20 characters, and a line longer than
+    :data:`MAX_LINE_CHARS` keeps its first 400 and last 180 characters.
+    """
+    words = []
+    for w in str(text).split():
+        if len(w) > MAX_WORD_CHARS:
+            w = f"{w[:60]}...[{len(w)} characters]...{w[-20:]}"
+        words.append(w)
+    line = " ".join(words)
+    if len(line) > MAX_LINE_CHARS:
+        line = f"{line[:400]} ...[{len(line) - 580} characters cut]... {line[-180:]}"
+    return line
 
 
 class QHDesignError(Exception):
@@ -31,13 +56,28 @@ class InputError(QHDesignError, ValueError):
     source
         The file path or ``"option --name"`` the value came from, if known.
     key
-        Dotted key path inside the source (``layers.spacer.thickness``), if any.
+        Dotted key path inside the source (``layers.spacer.thickness``), if any. Physics
+        functions raise with ``source=None`` and ``key`` = their own argument name
+        (``gate_voltage_V``); the command line and the sweep translate that into the option or
+        the spec key the user wrote.
+    related
+        Other argument names the broken rule involves (a ring width that does not fit the
+        radius): the front end names the one the user actually gave.
     """
 
-    def __init__(self, message: str, *, source: str | None = None, key: str | None = None):
+    def __init__(
+        self,
+        message: str,
+        *,
+        source: str | None = None,
+        key: str | None = None,
+        related: tuple[str, ...] = (),
+    ):
         self.message = message
         self.source = source
         self.key = key
+        #: other argument names the rule involves (a front end names the one the user gave)
+        self.related = tuple(related)
         super().__init__(self.one_line())
 
     def one_line(self) -> str:
@@ -48,7 +88,7 @@ class InputError(QHDesignError, ValueError):
             where.append(f"key '{self.key}'")
         prefix = ": ".join(where)
         text = f"{prefix}: {self.message}" if prefix else self.message
-        return " ".join(text.split())  # always one line
+        return one_line(text)
 
 
 class StackError(InputError):

@@ -225,10 +225,12 @@ def island_figures(
     ``outer_well``, ``refine``, ...). With ``keep_result`` the island result is returned under
     ``"_result"``.
     """
+    from qhdesign.island_options import island_inputs
     from qhdesign.pipeline import solve_island
 
+    geometry, settings = island_inputs(**island_options)
     column = source if _is_column(source) else island_column(source)
-    res = solve_island(column, comm=comm, **island_options)
+    res = solve_island(column, geometry, settings, comm=comm)
     density = column.primary.density_m2 if _is_column(column) else None
     out = figures_from_result(res, cond, getattr(res, "bulk_density_m2", None) or density)
     if keep_result:
@@ -297,9 +299,13 @@ def split_island_options(
             raise InputError(exc.message, **_where("gap_kind", source_prefix)) from None
         opts["gap"] = f"{gap!r} J"
         kw["gap_qp_J"] = gap
-    from qhdesign.island.conductor import parse_filling
+    from qhdesign.island_options import parse_filling
 
-    nu = parse_filling(opts.get("filling")) if opts.get("filling") is not None else None
+    nu = (
+        parse_filling(opts.get("filling"), f"{source_prefix}filling")
+        if opts.get("filling") is not None
+        else None
+    )
     if nu is None:
         nu = DEFAULT_FILLING
         if "gap" in opts:

@@ -32,7 +32,8 @@ G. F. Giuliani, G. Vignale, Quantum Theory of the Electron Liquid (Cambridge, 20
 (2D Hartree–Fock compressibility kappa_0 / kappa = 1 - sqrt(2) r_s / pi).
 J. P. Eisenstein, L. N. Pfeiffer, K. W. West, Phys. Rev. Lett. 68, 674 (1992) (negative
 compressibility of a 2D sheet measured; dmu/dn with the exchange term above).
-C. Weisbuch, C. Hermann, Phys. Rev. B 15, 816 (1977) (g* = -0.44 in GaAs).
+M. Oestreich, W. W. Ruehle, Phys. Rev. Lett. 74, 2315 (1995) (g* = -0.44 in GaAs; the
+materials table's value).
 """
 
 from __future__ import annotations

@@ -28,6 +28,8 @@ from typing import Any
 from qhdesign.errors import InputError
 
 __all__ = [
+    "GATE_BARRIER_RANGE_J",
+    "exposed_surface_model",
     "island_column_from_stack",
     "refuse_gate_dielectric",
     "section_from_stack",
@@ -74,12 +76,46 @@ def _bands_to_sheets(stack):
     return sheet_model(stack, solve_bands(stack))
 
 
+#: Schottky barriers of a gate metal the 2D stage accepts (J): above 0, below 3 eV.
+GATE_BARRIER_RANGE_J = (0.0, 3.0 * 1.602176634e-19)
+SURFACE_MODELS = ("frozen", "pinned")
+
+
+def exposed_surface_model(stack, section=None, requested: str | None = None) -> str:
+    """The exposed-surface model of a 2D solve of ``stack``.
+
+    ``requested`` (``"frozen"`` or ``"pinned"``) or, by default, the section's own (frozen for
+    an exposed surface with frozen charge). A stack with a global top gate has no exposed
+    surface: its metal is a Dirichlet surface, so the model is always ``"pinned"``. Errors are
+    keyed ``surface`` (the argument name).
+    """
+    if requested is not None and requested not in SURFACE_MODELS:
+        raise InputError(
+            f"'{requested}' is not a surface model; allowed: {', '.join(SURFACE_MODELS)}",
+            key="surface",
+        )
+    if stack.surface.kind != "exposed":
+        return "pinned"
+    if requested is not None:
+        return requested
+    return section.surface_mode if section is not None else "frozen"
+
+
 def section_from_stack(stack, *, gate_barrier_J: float | None = None):
     """Run the 1D stage on a stack and build the cross-section (donors frozen at their 1D state).
 
-    Same as ``cross_section_from_sheet_model(sheet_model_from_stack(stack))``.
+    Same as ``cross_section_from_sheet_model(sheet_model_from_stack(stack))``; a gate barrier
+    outside 0 to 3 eV is refused (key ``gate_barrier_J``) before the 1D solve.
     """
     from qhdesign.section.model import cross_section_from_sheet_model
+
+    lo, hi = GATE_BARRIER_RANGE_J
+    if gate_barrier_J is not None and not lo < gate_barrier_J < hi:
+        raise InputError(
+            f"gate barrier {gate_barrier_J / 1.602176634e-19:.4g} eV is out of range; allowed "
+            f"between {lo / 1.602176634e-19:g} and {hi / 1.602176634e-19:g} eV",
+            key="gate_barrier_J",
+        )
 
     return cross_section_from_sheet_model(
         sheet_model_from_stack(stack), gate_barrier_J=gate_barrier_J

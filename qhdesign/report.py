@@ -404,13 +404,12 @@ def build_review(stack_file: str | Path, settings: ReportSettings | None = None)
         data["edge"] = edge.to_dict()
         results["edge"] = edge
     if s.island_radius_m is not None:
+        from .island_options import island_inputs
         from .tf2d import solve_island
 
         island = solve_island(
             stack,
-            radius=s.island_radius_m,
-            filling=s.filling,
-            gap=s.gap,
+            *island_inputs(radius=s.island_radius_m, filling=s.filling, gap=s.gap),
             keep_potentials=True,
         )
         data["island"] = island.to_dict()

@@ -294,6 +294,17 @@ class Stack:
         # not written in the file: the resolved default
         return _resolved_default(self, doc_path, path)
 
+    def canonical_path(self, path: str) -> str:
+        """The one spelling of the parameter at ``path``.
+
+        ``doping.<layer>.<key>`` and ``layers.<layer>.doping.<key>`` name the same parameter;
+        both give ``layers.<layer>.doping.<key>``. Raises :class:`StackError` for an unknown path.
+        """
+        doc_path, _ = _resolve_path(self, path)
+        if doc_path[0] == "doping":
+            return f"layers.{doc_path[1]}.doping.{doc_path[2]}"
+        return ".".join(doc_path)
+
     def kind_of(self, path: str) -> str:
         """What the parameter at ``path`` holds: a dimension of :data:`qhdesign.units.DIMENSIONS`
         (``"length"``, ``"sheet_density"``, ...: a quantity written with its unit), ``"number"``

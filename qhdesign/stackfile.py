@@ -10,7 +10,6 @@ import json
 import math
 import os
 import tomllib
-from pathlib import Path
 from typing import Any
 
 from scipy import constants as sc
@@ -56,19 +55,13 @@ def load_stack(path: str | os.PathLike) -> Stack:
     StackError
         One line naming the file, the key and what is allowed.
     """
+    from .io import read_input_bytes
+
     src = str(path)
-    p = Path(path)
-    if not p.exists():
-        raise StackError("file not found", source=src)
-    if p.is_dir():
-        raise StackError("is a folder, expected a .toml stack file", source=src)
-    size = p.stat().st_size
-    if size > MAX_FILE_BYTES:
-        raise StackError(
-            f"file is {size / 1e6:.1f} MB; a stack file is at most {MAX_FILE_BYTES / 1e6:.0f} MB",
-            source=src,
-        )
-    data = p.read_bytes()
+    try:
+        data = read_input_bytes(path, MAX_FILE_BYTES, "stack file (.toml)")
+    except InputError as exc:
+        raise StackError(exc.message, source=src) from None
     return loads_stack(data, source=src)
 
 
@@ -81,14 +74,14 @@ def loads_stack(data: bytes | str, source: str = "<string>") -> Stack:
                 f"{MAX_FILE_BYTES / 1e6:.0f} MB",
                 source=source,
             )
-        if b"\x00" in data:
-            raise StackError("binary file (NUL bytes); expected TOML text", source=source)
+        from .io import decode_text
+
         try:
-            text = data.decode("utf-8")
-        except UnicodeDecodeError:
-            raise StackError("not UTF-8 text; expected a TOML stack file", source=source) from None
+            text = decode_text(data, source, "TOML stack")
+        except InputError as exc:
+            raise StackError(exc.message, source=source) from None
     else:
-        text = data
+        text = data.removeprefix("\ufeff")
     if not text.strip():
         raise StackError("empty file; expected [wafer], [surface] and [[layers]]", source=source)
     try:
@@ -359,7 +352,6 @@ def _build_layers(arr: Any, dopings: Any, src: str) -> tuple[tuple[Layer, ...], 
             "layer_thickness",
             f"{where}.thickness",
             src,
-            open_low=True,
         )
         if material == "AlGaAs":
             if "x" not in tab:

@@ -81,7 +81,8 @@ _WRITE_UNITS = {
 
 # Physical sanity ranges (SI); outside them the input is refused, not silently accepted.
 _RANGES = {
-    "layer_thickness": (0.0, 100e-6, "between 0 and 100 um (exclusive of 0)"),
+    # at least one monolayer of GaAs (a/2 = 0.283 nm; qhdesign.limits.MIN_LAYER_THICKNESS_M)
+    "layer_thickness": (0.5 * 0.56533e-9, 100e-6, "from one monolayer (0.283 nm) to 100 um"),
     "temperature": (0.0, 400.0, "between 0 and 400 K (exclusive of 0)"),
     "sheet": (0.0, 1e17, "from 0 to 1e13 cm^-2"),
     "volume": (0.0, 1e26, "from 0 to 1e20 cm^-3"),

@@ -12,7 +12,7 @@ import re
 
 from .errors import InputError
 
-__all__ = ["DIMENSIONS", "format_quantity", "parse_quantity"]
+__all__ = ["DIMENSIONS", "QUANTITY_PATTERN", "format_quantity", "parse_number", "parse_quantity"]
 
 #: Named dimensions accepted by :func:`parse_quantity`: (pint dimensionality, SI unit, example).
 DIMENSIONS: dict[str, tuple[str, str, str]] = {
@@ -30,7 +30,42 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "time": ("[time]", "s", "1 ps"),
 }
 
-_BARE_NUMBER = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$")
+_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d{1,3})?"
+_BARE_NUMBER = re.compile(rf"^\s*{_NUMBER}\s*$")
+# a unit: names (letters, micro sign, Greek mu, ohm) with an optional small integer power, joined
+# by "/", "*" or a space; nothing else (no numbers, brackets or operators between them)
+_NAME = r"[A-Za-z\u00b5\u03bc\u03a9\u00b0]+(?:(?:\^|\*\*)[-+]?\d{1,2})?"
+_UNIT = rf"{_NAME}(?:\s*(?:/|\*(?!\*)|\s)\s*{_NAME})*"
+#: The only shape of a quantity string pint is shown: "number unit" (see :func:`parse_quantity`).
+QUANTITY_PATTERN = re.compile(rf"^\s*(?P<number>{_NUMBER})\s*(?P<unit>{_UNIT})\s*$")
+#: Longest quantity string read (a longer one is refused before any parsing).
+MAX_QUANTITY_CHARS = 64
+
+
+def shorten(value: object, limit: int = 40) -> str:
+    """``repr``-like text of ``value`` cut to about ``limit`` characters for an error line."""
+    text = value if isinstance(value, str) else repr(value)
+    if len(text) > limit:
+        text = f"{text[: limit - 10]}... ({len(text)} characters)"
+    return text
+
+
+def parse_number(value: object, *, source: str | None = None, key: str | None = None) -> float:
+    """A bare decimal number (``"-0.4"``, ``"1e-3"``); refuses ``nan``, ``inf`` and expressions."""
+    if isinstance(value, bool):
+        raise InputError(f"expected a number, got {value!r}", source=source, key=key)
+    if isinstance(value, int | float):
+        out = float(value)
+    else:
+        text = str(value)
+        if len(text) > MAX_QUANTITY_CHARS or not _BARE_NUMBER.match(text):
+            raise InputError(
+                f"'{shorten(text)}' is not a plain decimal number", source=source, key=key
+            )
+        out = float(text)
+    if not math.isfinite(out):
+        raise InputError(f"'{shorten(value)}' is not a finite number", source=source, key=key)
+    return out
 
 
 @functools.cache
@@ -101,10 +136,17 @@ def parse_quantity(
             key=key,
         )
     text = value.strip()
+    what = dimension.replace("_", " ")
+    if len(text) > MAX_QUANTITY_CHARS:
+        raise InputError(
+            f"'{shorten(value)}' is too long for a {what} (at most {MAX_QUANTITY_CHARS} "
+            f'characters, e.g. "{example}")',
+            source=source,
+            key=key,
+        )
     if _BARE_NUMBER.match(text):
         raise InputError(
-            f"'{value}' has no unit; write a {dimension.replace('_', ' ')} with its unit, "
-            f'e.g. "{example}"',
+            f"'{value}' has no unit; write a {what} with its unit, e.g. \"{example}\"",
             source=source,
             key=key,
         )
@@ -115,9 +157,23 @@ def parse_quantity(
             source=source,
             key=key,
         )
+    match = QUANTITY_PATTERN.match(text)
+    if match is None:
+        # never hand an expression to pint: "9**9**9 nm" would run for ever, "25 nm * 2" is 50 nm
+        raise InputError(
+            f"cannot read '{shorten(value)}' as {_article(what)} {what}: expected \"number unit\" "
+            f"(e.g. \"{example}\"; a unit is names with powers and '/', no arithmetic)",
+            source=source,
+            key=key,
+        )
+    number = float(match["number"])
+    if not math.isfinite(number):
+        raise InputError(f"'{shorten(value)}' is not a finite number", source=source, key=key)
     ureg = registry()
     try:
-        q = ureg.Quantity(re.sub(r"/\s*Vs\b", "/(V*s)", text).replace("^", "**"))
+        # "cm^2/Vs" is how mobilities are written: V times s in the denominator
+        unit = re.sub(r"/\s*Vs\b", "/(V*s)", match["unit"]).replace("^", "**")
+        q = ureg.Quantity(number, unit)
     except Exception:  # pint raises several unrelated types on garbage
         raise InputError(
             f"cannot read '{value}' as a {dimension.replace('_', ' ')}; "
@@ -127,7 +183,7 @@ def parse_quantity(
         ) from None
     if not hasattr(q, "dimensionality") or q.dimensionality != _dimensionality(si_unit):
         raise InputError(
-            f"'{value}' is not a {dimension.replace('_', ' ')} (expected units like \"{example}\")",
+            f"'{value}' is not {_article(what)} {what} (expected units like \"{example}\")",
             source=source,
             key=key,
         )
@@ -135,6 +191,10 @@ def parse_quantity(
     if not math.isfinite(out):
         raise InputError(f"'{value}' is not a finite number", source=source, key=key)
     return out
+
+
+def _article(word: str) -> str:
+    return "an" if word[:1] in "aeiou" else "a"
 
 
 def format_quantity(value_si: float, unit: str, dimension: str | None = None) -> str:

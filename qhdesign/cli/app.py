@@ -11,6 +11,8 @@ import importlib
 
 import typer
 
+from .common import OneLineGroup
+
 #: Command modules, in the order their commands appear in ``--help``.
 COMMAND_MODULES = (
     "check",
@@ -45,6 +47,7 @@ def build_app() -> typer.Typer:
         # plain help and usage errors: rendering them with rich costs ~0.3 s of imports at
         # every start-up (measured with python -X importtime; docs/performance.md)
         rich_markup_mode=None,
+        cls=OneLineGroup,
     )
 
     @app.callback()

@@ -9,7 +9,7 @@ from pathlib import Path
 import typer
 
 from . import disorder as D
-from .common import guarded, option_quantity, warn
+from .common import JsonOut, StackFile, Temperature, guarded, option_quantity, warn
 
 
 def _load(stack_file: Path):
@@ -21,19 +21,45 @@ def _load(stack_file: Path):
     return stack
 
 
-def _temperature(value: str | None):
+def _temperature(value: str | None, stack=None):
+    """A solve-temperature option, under the stack file's rules (above 0 K, at most 400 K and at
+    most the donor freeze-out temperature)."""
     if value is None:
         return None
-    from qhdesign.errors import InputError
+    from qhdesign.limits import check_solve_temperature
 
     t = option_quantity(value, "temperature", "--temperature")
-    if not (t > 0.0) or t > 400.0:
-        raise InputError(
-            f"temperature {value} is out of range; allowed above 0 K up to 400 K "
-            '(e.g. "10 mK", "4.2 K")',
-            source="option --temperature",
-        )
-    return t
+    freeze = stack.freeze_temperature if stack is not None else 400.0
+    return check_solve_temperature(t, freeze, key="temperature")
+
+
+#: Argument names of the 1D physics (error keys) -> options of ``bands``, ``gate``, ``calibrate``.
+BANDS_OPTIONS = {"gate_voltage": "--gate", "temperature": "--temperature", "field_T": "--field"}
+GATE_OPTIONS = {
+    "v_from": "--from",
+    "v_to": "--to",
+    "step": "--step",
+    "cool_bias": "--cool-bias",
+    "temperature": "--temperature",
+}
+CALIBRATE_OPTIONS = {
+    "well": "--well",
+    "parameter": "--parameter",
+    "bracket": "--range",
+    "measured": "--density",
+}
+
+
+def _e2_text(e2_J: float, occupied: bool, primary_empty: bool = False) -> str:
+    """The second-subband flag line; a value that could not be computed is never called ok."""
+    from scipy import constants as sc
+
+    if math.isnan(e2_J):
+        return "second subband of the primary: not computed (no bound second level) [CHECK]"
+    head = f"second subband of the primary: E2 - EF = {e2_J / sc.e * 1e3:.2f} meV"
+    if occupied:
+        return head + " [OCCUPIED or within margin]"
+    return head + (" (primary empty)" if primary_empty else " (ok)")
 
 
 def _print_bands(r) -> None:
@@ -84,12 +110,7 @@ def _print_bands(r) -> None:
     lines = [
         f"primary well: {prim.sheet_density_m2 * 1e-4:.3g} cm^-2"
         + (" [EMPTY: no usable channel]" if f.primary_empty else " (ok)"),
-        f"second subband of the primary: E2 - EF = {f.e2_minus_ef_J / sc.e * 1e3:.2f} meV"
-        + (
-            " [OCCUPIED or within margin]"
-            if f.second_subband_occupied
-            else (" (primary empty)" if f.primary_empty else " (ok)")
-        ),
+        _e2_text(f.e2_minus_ef_J, f.second_subband_occupied, f.primary_empty),
         "parallel conduction: "
         + (", ".join(f.parallel_layers) if f.parallel_conduction else "none"),
         "donor supply margin: "
@@ -110,19 +131,17 @@ def _print_bands(r) -> None:
 
 def register(app: typer.Typer) -> None:
     @app.command("bands")
-    @guarded
+    @guarded(options=BANDS_OPTIONS)
     def bands(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         gate: str | None = typer.Option(
             None, "--gate", help="Gate voltage (V; default: the stack's bias)."
         ),
-        temperature: str | None = typer.Option(
-            None, "--temperature", help='Solve temperature with unit, e.g. "10 mK".'
-        ),
+        temperature: Temperature = None,
         field: str | None = typer.Option(
             None, "--field", help='Perpendicular field for the filling-factor flag, e.g. "3 T".'
         ),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        json_out: JsonOut = None,
         plot: Path | None = typer.Option(None, "--plot", help="Write the band diagram."),
         background: str | None = typer.Option(None, "--background", help=D.BACKGROUND_HELP),
         roughness_height: str | None = typer.Option(
@@ -135,23 +154,16 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Self-consistent subbands and the charge in each well (donors frozen at freeze-out),
         with a disorder estimate per well (mobility, quantum lifetime, level broadening)."""
-        from qhdesign.errors import InputError
         from qhdesign.sp1d import BandsOptions, solve_bands
         from qhdesign.sp1d.scattering import scattering
 
         dis = D.disorder_options(background, roughness_height, roughness_length, min_mobility)
         stack = _load(stack_file)
-        v = option_quantity(gate, "voltage", "--gate")
-        t = _temperature(temperature)
-        b = option_quantity(field, "field", "--field")
-        if b is not None and not (0.0 < b <= 100.0):
-            raise InputError(
-                "field out of range; allowed above 0 T up to 100 T", source="option --field"
-            )
-        if v is not None:
-            from qhdesign.sp1d.solve import check_gate_voltage
+        from qhdesign.limits import check_field
 
-            check_gate_voltage(stack, v, "--gate")
+        v = option_quantity(gate, "voltage", "--gate")
+        t = _temperature(temperature, stack)
+        b = check_field(option_quantity(field, "field", "--field"))
         r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
         sr = scattering(r, dis)
         _print_bands(r)
@@ -171,21 +183,19 @@ def register(app: typer.Typer) -> None:
             typer.echo(f"wrote {plot}")
 
     @app.command("gate")
-    @guarded
+    @guarded(options=GATE_OPTIONS)
     def gate_cmd(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         v_from: str = typer.Option(..., "--from", help="First gate voltage (V)."),
         v_to: str = typer.Option(..., "--to", help="Last gate voltage (V)."),
         step: str = typer.Option(..., "--step", help="Voltage step (V)."),
         cool_bias: str = typer.Option("0", "--cool-bias", help="Gate bias during cool-down (V)."),
-        temperature: str | None = typer.Option(
-            None, "--temperature", help='Solve temperature with unit, e.g. "300 mK".'
-        ),
+        temperature: Temperature = None,
         forward_limit: str = typer.Option(
             "0.5", "--forward-limit", help="Warn about gate leakage above this voltage (V)."
         ),
         csv_out: Path | None = typer.Option(None, "--csv", help="Write density vs voltage CSV."),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        json_out: JsonOut = None,
         plot: Path | None = typer.Option(None, "--plot", help="Write density vs gate voltage."),
     ) -> None:
         """Gate sweep with frozen donors: density per well, depletion thresholds, slopes."""
@@ -197,11 +207,10 @@ def register(app: typer.Typer) -> None:
         s = option_quantity(step, "voltage", "--step")
         cb = option_quantity(cool_bias, "voltage", "--cool-bias")
         fl = option_quantity(forward_limit, "voltage", "--forward-limit")
-        t = _temperature(temperature)
+        t = _temperature(temperature, stack)
         from qhdesign.sp1d.solve import check_gate_voltage
 
-        for value, option in ((a, "--from"), (b, "--to"), (cb, "--cool-bias")):
-            check_gate_voltage(stack, value, option)
+        check_gate_voltage(stack, cb, "cool_bias", "cool-down bias")
         g = gate_response(
             stack, a, b, s, cool_bias=cb, temperature=t, options=BandsOptions(forward_limit_V=fl)
         )
@@ -253,9 +262,9 @@ def register(app: typer.Typer) -> None:
             typer.echo(f"wrote {plot}")
 
     @app.command("calibrate")
-    @guarded
+    @guarded(options=CALIBRATE_OPTIONS)
     def calibrate_cmd(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         parameter: str | None = typer.Option(
             None,
             "--parameter",

@@ -6,20 +6,18 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, warn
+from .common import JsonOut, StackFile, guarded, warn
 
 
 def register(app: typer.Typer) -> None:
     @app.command("check")
     @guarded
     def check(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         plot: Path | None = typer.Option(
             None, "--plot", help="Write a to-scale layer diagram (PNG/SVG/PDF by suffix)."
         ),
-        json_out: Path | None = typer.Option(
-            None, "--json", help="Write the validated stack in SI units as JSON."
-        ),
+        json_out: JsonOut = None,
     ) -> None:
         """Validate STACK_FILE and print its layers and wells (exit 2 if it is invalid)."""
         from rich.console import Console

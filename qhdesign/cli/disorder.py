@@ -128,7 +128,10 @@ def calibrate_mobility(stack_file, parameter, well, mobility, out, json_out) -> 
     try:
         nb, sr = fit_background(r, well, mu)
     except InputError as exc:
-        raise InputError(exc.message, source=f"option {exc.key}") from None
+        from .common import translate
+
+        options = {"well": "--well", "measured_mobility_m2_Vs": "--mobility"}
+        raise translate(exc, options, set(options.values())) from None
     w = sr.well(well)
     typer.echo(
         f"background: fitted {nb * 1e-6:.4g} cm^-3 (default {DEFAULT_BACKGROUND_M3 * 1e-6:.3g} "

@@ -12,39 +12,49 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity, warn
+from qhdesign.limits import check_refine
+
+from .common import GateBarrier, JsonOut, Refine, StackFile, Surface, guarded, option_quantity, warn
 
 
 def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
-    from qhdesign.errors import InputError
-    from qhdesign.pipeline import section_from_stack
+    from qhdesign.pipeline import exposed_surface_model, section_from_stack
     from qhdesign.stack import load_stack
 
     stack = load_stack(stack_file)
     barrier = option_quantity(gate_barrier, "energy", "--gate-barrier")
-    if barrier is not None and not 0.0 < barrier < 3.0 * 1.602176634e-19:
-        raise InputError("gate barrier must lie between 0 and 3 eV", source="option --gate-barrier")
-    if surface is not None and surface not in ("frozen", "pinned"):
-        raise InputError(
-            f"'{surface}' is not a surface model; allowed: frozen, pinned",
-            source="option --surface",
-        )
+    if surface is not None:  # refuse a bad choice before the 1D solve
+        exposed_surface_model(stack, None, surface)
     section = section_from_stack(stack, gate_barrier_J=barrier)
-    if surface is None:
-        surface = section.surface_mode  # frozen for an exposed surface with frozen charge
-    if stack.surface.kind != "exposed":
-        surface = "pinned"  # a stack with a global top gate: its metal is a Dirichlet surface
-    return stack, section, surface
+    return stack, section, exposed_surface_model(stack, section, surface)
+
+
+#: Argument names of the 2D physics (error keys) -> options of ``edge`` and ``pinchoff``.
+EDGE_OPTIONS = {
+    "gate_voltage_V": "--gate-voltage",
+    "field_T": "--field",
+    "filling": "--filling",
+    "gap_energy_J": "--gap-energy",
+    "perimeter_m": "--perimeter",
+    "gap_m": "--gap",
+    "gate_barrier_J": "--gate-barrier",
+    "surface": "--surface",
+    "refine": "--refine",
+}
+PINCHOFF_OPTIONS = {
+    "v_start": "--from",
+    "v_stop": "--to",
+    "v_step": "--step",
+    "gap_m": "--gap",
+    "gate_barrier_J": "--gate-barrier",
+    "surface": "--surface",
+    "refine": "--refine",
+}
 
 
 def _field(value: str | None) -> float | None:
-    if value is None:
-        return None
-    text = value.strip()
-    try:  # a bare number is read in tesla
-        return float(text)
-    except ValueError:
-        return option_quantity(text, "field", "--field")
+    """A field option: a bare number is read in tesla; the range is the physics' rule."""
+    return option_quantity(value, "field", "--field")
 
 
 def _filling(value: str | None) -> float | None:
@@ -90,12 +100,6 @@ def _is_root() -> bool:
 
     MPI, _ = load()
     return MPI.COMM_WORLD.rank == 0
-
-
-def _csv_text(cols, rows) -> str:
-    lines = [",".join(cols)]
-    lines += [",".join(f"{v:.10g}" for v in row) for row in rows]
-    return "\n".join(lines) + "\n"
 
 
 def _print_edge(res, stack_name: str) -> None:
@@ -178,9 +182,9 @@ def _print_edge(res, stack_name: str) -> None:
 
 def register(app: typer.Typer) -> None:
     @app.command("edge")
-    @guarded
+    @guarded(options=EDGE_OPTIONS)
     def edge(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         gate_voltage: str = typer.Option(
             ..., "--gate-voltage", help="Depletion-gate bias, e.g. -0.8 or '-800 mV'."
         ),
@@ -211,16 +215,10 @@ def register(app: typer.Typer) -> None:
         strip_min_lb: float = typer.Option(
             1.0, "--strip-min-lb", help="Flag strips narrower than this many magnetic lengths."
         ),
-        surface: str | None = typer.Option(
-            None, "--surface", help="Exposed surface: frozen (charge) or pinned (Fermi level)."
-        ),
-        gate_barrier: str | None = typer.Option(
-            None,
-            "--gate-barrier",
-            help="Schottky barrier of the gate metal (default: the stack's).",
-        ),
-        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        surface: Surface = None,
+        gate_barrier: GateBarrier = None,
+        refine: Refine = 1.0,
+        json_out: JsonOut = None,
         csv_out: Path | None = typer.Option(None, "--csv", help="Write n(x) per well as CSV."),
         plot: Path | None = typer.Option(None, "--plot", help="Write the edge figure (PNG/SVG)."),
         fields: Path | None = typer.Option(
@@ -228,22 +226,15 @@ def register(app: typer.Typer) -> None:
         ),
     ) -> None:
         """Depletion edge of STACK_FILE under a gate: width, rise, tail, strips, lever arm."""
-        from qhdesign.errors import InputError
-        from qhdesign.fem.grid import check_refine
         from qhdesign.section import EdgeSettings, MeshOptions, SolverOptions
 
         v = option_quantity(gate_voltage, "voltage", "--gate-voltage")
         b = _field(field)
         nu = _filling(filling)
-        if nu is not None and not b:
-            raise InputError(
-                "--filling needs a magnetic field: give --field B with B > 0 T",
-                source="option --field",
-            )
         e_gap = option_quantity(gap_energy, "energy", "--gap-energy")
         per = _positive_length(perimeter, "--perimeter")
         w = _positive_length(gap, "--gap")
-        check_refine(refine, source="option --refine")
+        check_refine(refine)
         gap_model, gap_J = _spin_gap(spin_gap)
         settings = EdgeSettings(
             v,
@@ -279,7 +270,7 @@ def register(app: typer.Typer) -> None:
         if root and csv_out is not None:
             from qhdesign.io import atomic_write_text
 
-            atomic_write_text(csv_out, _csv_text(*res.profile_table()))
+            atomic_write_text(csv_out, res.table().to_csv())
         if root and plot is not None:
             from qhdesign.plotting import save_figure, use_agg
 
@@ -293,29 +284,22 @@ def register(app: typer.Typer) -> None:
                     typer.echo(f"wrote {p}")
 
     @app.command("pinchoff")
-    @guarded
+    @guarded(options=PINCHOFF_OPTIONS)
     def pinchoff(
-        stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
+        stack_file: StackFile,
         gap: str = typer.Option(..., "--gap", help="Split-gate gap, e.g. '300 nm'."),
         v_start: str = typer.Option("0", "--from", help="First gate voltage of the sweep (V)."),
         v_stop: str = typer.Option("-5", "--to", help="Last gate voltage of the sweep (V)."),
         v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
-        surface: str | None = typer.Option(
-            None, "--surface", help="Exposed surface: frozen (charge) or pinned (Fermi level)."
-        ),
-        gate_barrier: str | None = typer.Option(
-            None,
-            "--gate-barrier",
-            help="Schottky barrier of the gate metal (default: the stack's).",
-        ),
-        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        surface: Surface = None,
+        gate_barrier: GateBarrier = None,
+        refine: Refine = 1.0,
+        json_out: JsonOut = None,
         csv_out: Path | None = typer.Option(None, "--csv", help="Write the sweep as CSV."),
         plot: Path | None = typer.Option(None, "--plot", help="Write the pinch-off figure."),
     ) -> None:
         """Centre density of a split-gate constriction vs gate voltage; pinch-off per well."""
         from qhdesign.errors import InputError
-        from qhdesign.fem.grid import check_refine
         from qhdesign.section import MeshOptions, SolverOptions, solve_pinchoff
 
         w = _positive_length(gap, "--gap")
@@ -325,8 +309,13 @@ def register(app: typer.Typer) -> None:
         if not 0.001 <= step <= 1.0:
             raise InputError("step must lie in [1 mV, 1 V]", source="option --step")
         if not b < a:
-            raise InputError("--to must be more negative than --from", source="option --to")
-        check_refine(refine, source="option --refine")
+            raise InputError(
+                f"the sweep must go down: last voltage {b:+.3f} V is not below the first "
+                f"{a:+.3f} V",
+                key="v_stop",
+                related=("v_start",),
+            )
+        check_refine(refine)
         stack, section, surf = _load_section(stack_file, surface, gate_barrier)
         res = solve_pinchoff(
             section,
@@ -365,15 +354,9 @@ def register(app: typer.Typer) -> None:
                 json_out, {"stack": str(stack_file), "surface": surf, **res.to_dict()}
             )
         if csv_out is not None:
-            import numpy as np
-
             from qhdesign.io import atomic_write_text
 
-            cols = ["gate_voltage_V"] + [f"{k}_centre_density_cm^-2" for k in res.centre_density_m2]
-            rows = np.column_stack(
-                [res.voltages_V] + [v * 1e-4 for v in res.centre_density_m2.values()]
-            )
-            atomic_write_text(csv_out, _csv_text(cols, rows))
+            atomic_write_text(csv_out, res.table().to_csv())
         if plot is not None:
             from qhdesign.plotting import save_figure, use_agg
 
@@ -412,15 +395,9 @@ def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot,
 
         atomic_write_json(json_out, {"stack": str(stack.source), **res.to_dict()})
     if csv_out is not None:
-        import numpy as np
-
         from qhdesign.io import atomic_write_text
 
-        sol = res.solution
-        cols = ["x_nm"] + [f"{n}_density_cm^-2" for n in sol.sheet_names]
-        atomic_write_text(
-            csv_out, _csv_text(cols, np.column_stack([sol.x_m * 1e9, *(sol.density_m2 * 1e-4)]))
-        )
+        atomic_write_text(csv_out, res.table().to_csv())
     if plot is not None:
         from qhdesign.plotting import save_figure, use_agg
 

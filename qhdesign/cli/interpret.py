@@ -8,11 +8,10 @@ from __future__ import annotations
 
 import math
 import re
-from pathlib import Path
 
 import typer
 
-from .common import guarded
+from .common import JsonOut, guarded
 
 _PM = re.compile(r"\+/-|\+-|±")
 
@@ -87,7 +86,7 @@ def _fmt(v, s, scale, unit, digits=4) -> str:
 
 def register(app: typer.Typer) -> None:
     @app.command("interpret")
-    @guarded
+    @guarded(options={"filling": "--filling"})
     def interpret(
         period_compressible: str = typer.Option(
             ...,
@@ -115,15 +114,15 @@ def register(app: typer.Typer) -> None:
             help="Measured phase jump per added quasiparticle, e.g. '0.29 turn +- 0.02 turn' "
             "(units rad, deg or turn).",
         ),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        json_out: JsonOut = None,
     ) -> None:
         """K_IL/K_I, the effective area and the coupling-corrected anyonic phase from measured
         periods (with propagated uncertainties)."""
         from qhdesign.errors import InputError
         from qhdesign.interpretation import Measured, Measurement, interpret_measurement
-        from qhdesign.island.conductor import parse_filling
+        from qhdesign.island_options import parse_filling
 
-        nu = parse_filling(filling)
+        nu = parse_filling(filling, key="filling")
         try:
             from qhdesign.interferometer import check_filling
 

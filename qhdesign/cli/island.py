@@ -14,7 +14,7 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity
+from .common import JsonOut, Refine, guarded, option_quantity
 
 
 def _print(res) -> None:
@@ -50,9 +50,38 @@ def _print(res) -> None:
     console.print(t)
 
 
+#: Argument names of the island physics (error keys) -> options of ``island``.
+ISLAND_OPTIONS = {
+    "radius_m": "--radius",
+    "ring_width_m": "--ring-width",
+    "gate_offset_m": "--gate-offset",
+    "split_gap_m": "--split-gap",
+    "filling": "--filling",
+    "gap_energy_J": "--gap",
+    "screening": "--screening",
+    "surface": "--surface",
+    "far": "--far",
+    "refine": "--refine",
+    # the operating-point island (qhdesign.island.operating / response)
+    "gate_radius_m": "--gate-radius",
+    "electronic_radius_m": "--electronic-radius",
+    "gate_width_m": "--gate-width",
+    "gate_voltage_V": "--gate-voltage",
+    "bulk_shape": "--bulk-charge",
+    "gap_J": "--gap",
+    "gap_kind": "--gap-kind",
+    "field_T": "--field",
+    "temperature_K": "--temperature",
+    "level_width_J": "--level-width",
+    "quantum_lifetime_s": "--quantum-lifetime",
+    "g_factor": "--g-factor",
+    "r_threshold": "--r-threshold",
+}
+
+
 def register(app: typer.Typer) -> None:
     @app.command("island")
-    @guarded
+    @guarded(options=ISLAND_OPTIONS)
     def island(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         gate_radius: str | None = typer.Option(
@@ -144,8 +173,8 @@ def register(app: typer.Typer) -> None:
             "--outer-well/--no-outer-well",
             help="LEGACY (--radius): primary well beyond the gate edge as a sheet.",
         ),
-        refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
-        json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
+        refine: Refine = 1.0,
+        json_out: JsonOut = None,
         plot: Path | None = typer.Option(
             None, "--plot", help="Write the figure (n(r) and, with --field-range, K's vs B)."
         ),
@@ -156,10 +185,12 @@ def register(app: typer.Typer) -> None:
             from .island_op import run
 
             return run(stack_file, dict(locals()))
+        from dataclasses import replace
+
         from qhdesign.fem.backend import load
-        from qhdesign.fem.grid import check_refine
-        from qhdesign.island import IslandGeometry
-        from qhdesign.island.conductor import parse_filling
+        from qhdesign.island import IslandGeometry, IslandSettings
+        from qhdesign.island_options import parse_filling
+        from qhdesign.limits import check_refine
         from qhdesign.pipeline import solve_island
         from qhdesign.stack import load_stack
 
@@ -169,18 +200,17 @@ def register(app: typer.Typer) -> None:
             gate_offset_m=option_quantity(gate_offset, "length", "--gate-offset"),
             split_gap_m=option_quantity(split_gap, "length", "--split-gap"),
         )
-        check_refine(refine, source="option --refine")
-        options = {
-            "screening": screening,
-            "surface": surface,
-            "far": far,
-            "outer_well": outer_well,
-            "filling": parse_filling(filling),
-            "gap": None if gap is None else str(gap),  # parsed (unit required) by the stage
-            "refine": refine,
-        }
+        settings = IslandSettings(
+            screening=screening,
+            surface=surface,
+            far=far,
+            outer_well=outer_well,
+            filling=parse_filling(filling, key="filling"),
+            gap_energy_J=option_quantity(gap, "energy", "--gap"),
+        )
+        settings = replace(settings, mesh=replace(settings.mesh, refine=check_refine(refine)))
         stack = load_stack(stack_file)
-        res = solve_island(stack, geometry, keep_potentials=plot is not None, **options)
+        res = solve_island(stack, geometry, settings, keep_potentials=plot is not None)
         MPI, _ = load()
         if MPI.COMM_WORLD.rank != 0:
             return

@@ -49,9 +49,9 @@ def parse_field_range(text: str) -> tuple[float, ...]:
 def run(stack_file: Path, o: dict) -> None:
     """Run the operating-point island from the CLI options ``o`` (names as the typer parameters)."""
     from qhdesign.fem.backend import load
-    from qhdesign.island.conductor import parse_filling
     from qhdesign.island.operating import GATE_WIDTH_M, IslandDevice
     from qhdesign.island.stage import OperatingSettings
+    from qhdesign.island_options import parse_filling
     from qhdesign.pipeline import solve_island_operating
     from qhdesign.section.geometry import MeshOptions
     from qhdesign.stack import load_stack
@@ -74,7 +74,7 @@ def run(stack_file: Path, o: dict) -> None:
         gate_width_m=option_quantity(o["gate_width"], "length", "--gate-width") or GATE_WIDTH_M,
     )
     kw = {
-        "filling": parse_filling(o["filling"] or "1/3"),
+        "filling": parse_filling(o["filling"] or "1/3", key="filling"),
         "gap_J": option_quantity(o["gap"], "energy", "--gap"),
         "gap_kind": o["gap_kind"],
         "field_T": option_quantity(o["field"], "field", "--field"),

@@ -11,7 +11,6 @@ from __future__ import annotations
 import json
 import math
 import os
-import tomllib
 from pathlib import Path
 
 import typer
@@ -228,16 +227,22 @@ def register(app: typer.Typer) -> None:
         check: bool = typer.Option(
             False, "--check", help="Validate the spec against the stack and stop (no evaluation)."
         ),
+        allow_plugin: list[str] | None = typer.Option(
+            None,
+            "--allow-plugin",
+            help="Allow the plug-in stage of this module to run (it runs code); repeat.",
+        ),
     ) -> None:
         """Evaluate every design of a sweep and stream one CSV row per design (resumable)."""
         from qhdesign.errors import InputError
-        from qhdesign.sweep.spec import build_plan, load_spec
+        from qhdesign.sweep.spec import build_plan
+
+        allow = tuple(allow_plugin or ())
 
         quiet = quiet or _mpi_rank() > 0
-        try:
-            raw = tomllib.loads(spec.read_text(encoding="utf-8")) if spec.is_file() else None
-        except (tomllib.TOMLDecodeError, UnicodeDecodeError):
-            raw = None
+        from qhdesign.sweep.spec import read_spec
+
+        raw = read_spec(spec)
         if raw is not None and "sweep" not in raw:
             # shorthand: SPEC is a stack file
             if not param:
@@ -262,20 +267,23 @@ def register(app: typer.Typer) -> None:
                 "options": _parse_option_pairs(option, "--option"),
                 "space": space,
             }
-            plan = build_plan(doc, source="command line", base_dir=Path.cwd())
+            plan = build_plan(doc, source="command line", base_dir=Path.cwd(), allow_plugins=allow)
         else:
             if param or stage or option or lhs:
                 raise InputError(
                     "--param/--stage/--option/--lhs are for a stack file; a spec says them itself",
                     source=str(spec),
                 )
-            plan = load_spec(spec)
+            plan = build_plan(raw, source=str(spec), base_dir=spec.parent, allow_plugins=allow)
         if check:
+            from qhdesign.sweep.runner import check_plan
+
+            note = check_plan(plan)
             if _mpi_rank() == 0:
                 typer.echo(
                     f"{plan.source}: valid; {len(plan)} designs ({plan.kind}) of stage "
                     f"'{plan.stage}' over {', '.join(plan.parameters[:6])}"
-                    f"{' ...' if len(plan.parameters) > 6 else ''}"
+                    f"{' ...' if len(plan.parameters) > 6 else ''}; {note}"
                 )
             return
         out = out or Path(f"{spec.stem}.csv")
@@ -310,6 +318,11 @@ def register(app: typer.Typer) -> None:
         executor: str = typer.Option("auto", "--executor", help=_EXECUTOR_HELP),
         json_out: Path | None = typer.Option(None, "--json", help="Write the statistics as JSON."),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+        allow_plugin: list[str] | None = typer.Option(
+            None,
+            "--allow-plugin",
+            help="Allow the plug-in stage of this module to run (it runs code); repeat.",
+        ),
     ) -> None:
         """Growth-tolerance Monte Carlo of STACK_FILE: percentiles, yield, sensitivity."""
         from qhdesign.io import atomic_write_json
@@ -340,7 +353,12 @@ def register(app: typer.Typer) -> None:
             },
             "criteria": {k: {"min": lo, "max": hi} for k, (lo, hi) in criteria.items()},
         }
-        plan = build_plan(doc, source="command line", base_dir=Path.cwd())
+        plan = build_plan(
+            doc,
+            source="command line",
+            base_dir=Path.cwd(),
+            allow_plugins=tuple(allow_plugin or ()),
+        )
         out = out or Path(f"{stack_file.stem}_tolerance.csv")
         summary = _run_with_progress(plan, out, executor, workers, None, quiet or rank > 0)
         if summary is None:

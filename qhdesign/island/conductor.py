@@ -33,7 +33,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field, replace
-from fractions import Fraction
 from typing import Any
 
 import numpy as np
@@ -41,7 +40,6 @@ from scipy import constants as sc
 
 from qhdesign.errors import InputError
 from qhdesign.fem.capacitance import AxiLine, AxiMeshOptions, AxiProblem, solve_capacitance
-from qhdesign.fem.grid import check_refine
 from qhdesign.results import Table
 
 __all__ = [
@@ -61,10 +59,6 @@ EMPTY_DENSITY_M2 = 1e13
 UEV = 1e-6 * sc.e
 #: Island mesh defaults: P2 on a geometric grading to 0.2 nm at every edge (docs/island.md).
 ISLAND_MESH = AxiMeshOptions()
-
-
-def _opt(name: str) -> str:
-    return f"option --{name.replace('_', '-')}"
 
 
 @dataclass(frozen=True)
@@ -187,13 +181,14 @@ class IslandGeometry:
                 what = "gate offset (R_gate - R)" if name == "gate_offset" else name
                 raise InputError(
                     f"{what.replace('_', ' ')} must lie in 0 < value < 1 mm, got {v!r} m",
-                    source=_opt(name),
+                    key=f"{name}_m",
                 )
         if self.ring_width_m + 0.5 * self.split_gap_m >= self.radius_m:
             raise InputError(
                 f"ring width {self.ring_width_m * 1e9:.4g} nm (plus half the split gap) leaves no "
                 f"bulk inside radius {self.radius_m * 1e9:.4g} nm; allowed: ring width < radius",
-                source=_opt("ring_width"),
+                key="ring_width_m",
+                related=("radius_m", "split_gap_m"),
             )
         if self.split_gap_m < 1e-9:
             # the mesh's smallest cells are 0.2 nm: narrower gaps are not resolved (C_IL was
@@ -201,16 +196,17 @@ class IslandGeometry:
             raise InputError(
                 f"split gap {self.split_gap_m * 1e9:.4g} nm is below 1 nm, which the mesh does not "
                 "resolve; allowed: 1 nm up to the ring width",
-                source=_opt("split_gap"),
+                key="split_gap_m",
             )
         if self.split_gap_m >= self.ring_width_m:
             raise InputError(
                 f"split gap {self.split_gap_m * 1e9:.4g} nm must be narrower than the ring "
                 f"({self.ring_width_m * 1e9:.4g} nm)",
-                source=_opt("split_gap"),
+                key="split_gap_m",
+                related=("ring_width_m",),
             )
         if self.outer_radius_m is not None and not self.outer_radius_m > 1.5 * self.gate_radius_m:
-            raise InputError("outer radius must exceed 1.5 R_gate", source=_opt("outer_radius"))
+            raise InputError("outer radius must exceed 1.5 R_gate", key="outer_radius_m")
 
     @property
     def gate_radius_m(self) -> float:
@@ -270,7 +266,7 @@ class IslandSettings:
                 raise InputError(
                     f"'{getattr(self, key)}' is not allowed; allowed: "
                     f"{', '.join(a for a in allowed if a is not None)}",
-                    source=_opt(key),
+                    key=key,
                 )
         if self.filling is not None:
             nu = float(self.filling)
@@ -278,13 +274,17 @@ class IslandSettings:
             if not (0 < nu <= 1 and m >= 1 and abs(nu * m - 1.0) < 1e-9):
                 raise InputError(
                     f"filling {nu:g} is not a Laughlin filling 1/m (allowed: 1, 1/3, 1/5, ...)",
-                    source=_opt("filling"),
+                    key="filling",
                 )
         if self.gap_energy_J is not None:
             if not (math.isfinite(self.gap_energy_J) and self.gap_energy_J > 0):
-                raise InputError("gap must be > 0", source=_opt("gap"))
+                raise InputError("gap must be > 0", key="gap_energy_J")
             if self.filling is None:
-                raise InputError("--gap needs --filling (e.g. 1/3)", source=_opt("gap"))
+                raise InputError(
+                    "a quasiparticle gap needs a filling (e.g. 1/3)",
+                    key="gap_energy_J",
+                    related=("filling",),
+                )
 
 
 @dataclass(frozen=True, eq=False)
@@ -512,77 +512,6 @@ def island_problem(
     return problem, sheets, tuple(excluded)
 
 
-# ---------------------------------------------------------------------------- options
-_LENGTHS = ("radius", "ring_width", "gate_offset", "split_gap", "outer_radius")
-
-
-def _length(value: Any, name: str) -> float:
-    from qhdesign.units import parse_quantity
-
-    if isinstance(value, str):
-        return parse_quantity(value, "length", source=_opt(name))
-    if isinstance(value, bool) or not isinstance(value, int | float):
-        raise InputError(f"expected a length with a unit, got {value!r}", source=_opt(name))
-    return float(value)
-
-
-def parse_filling(value: Any) -> float | None:
-    """A filling from a number or a fraction string ("1/3")."""
-    if value is None:
-        return None
-    try:
-        return float(Fraction(str(value).strip()))
-    except (ValueError, ZeroDivisionError):
-        raise InputError(
-            f"cannot read filling '{value}'; give 1/m (1, 1/3, 1/5)", source=_opt("filling")
-        ) from None
-
-
-def _from_options(options: dict) -> tuple[IslandGeometry | None, dict, dict]:
-    geo: dict[str, float] = {}
-    st: dict[str, Any] = {}
-    mesh: dict[str, Any] = {}
-    for key, value in options.items():
-        if key in _LENGTHS:
-            if value is not None:
-                geo[f"{key}_m"] = _length(value, key)
-        elif key in ("screening", "surface", "far"):
-            if value is not None:
-                st[key] = str(value)
-        elif key == "outer_well":
-            text = str(value).strip().lower()
-            if isinstance(value, bool) or text in ("true", "false"):
-                st[key] = value if isinstance(value, bool) else text == "true"
-            else:
-                raise InputError(f"expected true or false, got {value!r}", source=_opt(key))
-        elif key == "filling":
-            st[key] = parse_filling(value)
-        elif key == "gap":
-            if value is not None:
-                from qhdesign.units import parse_quantity
-
-                # a quantity needs its unit (a bare 0.5 would be 0.5 J)
-                st["gap_energy_J"] = parse_quantity(value, "energy", source="option --gap")
-        elif key == "degree":
-            if value not in (1, 2) or isinstance(value, bool):
-                raise InputError(f"element degree must be 1 or 2, got {value!r}", source=_opt(key))
-            mesh[key] = int(value)
-        elif key == "refine":
-            mesh[key] = check_refine(value, source=_opt(key))
-        else:
-            allowed = [*_LENGTHS, "screening", "surface", "far", "outer_well", "filling", "gap"]
-            raise InputError(
-                f"unknown island option; allowed: {', '.join([*allowed, 'degree', 'refine'])}",
-                key=f"options.{key}",
-            )
-    geometry = None
-    if geo:
-        if "radius_m" not in geo:
-            raise InputError("the island needs a radius (e.g. '0.8 um')", source=_opt("radius"))
-        geometry = IslandGeometry(**geo)
-    return geometry, st, mesh
-
-
 # ---------------------------------------------------------------------------- entry point
 def solve_island(
     source,
@@ -591,7 +520,6 @@ def solve_island(
     *,
     comm=None,
     keep_potentials: bool = False,
-    **options: Any,
 ) -> IslandResult:
     """Capacitances and energies of an interferometer island.
 
@@ -602,10 +530,8 @@ def solve_island(
         one (called after the options are checked). A stack goes through
         :func:`qhdesign.pipeline.solve_island`.
     geometry, settings
-        Island lengths and model choices. Instead, keyword ``options`` as in a sweep spec:
-        ``radius``, ``ring_width``, ``gate_offset``, ``split_gap``, ``outer_radius`` (strings with
-        units, or SI numbers), ``screening``, ``surface``, ``far``, ``outer_well``, ``filling``
-        (``"1/3"``), ``gap`` (``"0.1 meV"``), ``degree``, ``refine``.
+        Island lengths and model choices (SI). Options as strings with units are parsed by the
+        front ends (the command line, the sweep stage ``island``), not here.
     comm
         MPI communicator of the finite-element solve (default ``MPI.COMM_WORLD``).
     keep_potentials
@@ -618,16 +544,12 @@ def solve_island(
     Raises
     ------
     InputError
-        Bad geometry or option (naming the option), a stack without a primary well, or a gate
-        dielectric (not modelled).
+        Bad geometry or setting (keyed by the argument name, e.g. ``radius_m``), a stack
+        without a primary well, or a gate dielectric (not modelled).
     """
-    geo_opt, st_opt, mesh_opt = _from_options(options)
-    geometry = geo_opt or geometry
     if geometry is None:
-        raise InputError("the island needs a radius (e.g. '0.8 um')", source=_opt("radius"))
-    settings = replace(settings or IslandSettings(), **st_opt)
-    if mesh_opt:
-        settings = replace(settings, mesh=replace(settings.mesh, **mesh_opt))
+        raise InputError("the island needs a radius (e.g. '0.8 um')", key="radius_m")
+    settings = settings or IslandSettings()
     column = _column(source)
     if settings.surface is None:  # the stack's own surface model
         settings = replace(settings, surface=column.surface_mode)

@@ -31,7 +31,7 @@ from scipy import constants as sc
 from qhdesign.errors import InputError
 from qhdesign.section.edge import VOLTAGE_STEP_V, _check_gate_voltage, _permittivity_at, _primary
 from qhdesign.section.geometry import GateLayout, MeshOptions
-from qhdesign.section.model import CrossSection
+from qhdesign.section.model import CrossSection, _inverse_tf
 from qhdesign.section.profile import EDGE_FRACTION, crossing_from_bulk, strip_width
 from qhdesign.section.solver import CrossSectionSolver, FieldSolution, SolverOptions
 
@@ -83,26 +83,22 @@ class IslandDevice:
     def __post_init__(self):
         if (self.gate_radius_m is None) == (self.electronic_radius_m is None):
             raise InputError(
-                "give the lithographic gate opening (--gate-radius) or, labelled as such, a "
-                "measured electronic radius (--electronic-radius), not both",
-                source="option --gate-radius",
+                "give the lithographic gate opening or, labelled as such, a measured electronic "
+                "radius, exactly one of the two",
+                key="gate_radius_m",
+                related=("electronic_radius_m",),
             )
-        for key, opt in (
-            ("gate_radius_m", "--gate-radius"),
-            ("electronic_radius_m", "--electronic-radius"),
-            ("gate_width_m", "--gate-width"),
-            ("outer_margin_m", "--outer-margin"),
-        ):
+        for key in ("gate_radius_m", "electronic_radius_m", "gate_width_m", "outer_margin_m"):
             v = getattr(self, key)
             if v is None:
                 continue
             if not (isinstance(v, int | float) and math.isfinite(v) and 50e-9 <= v <= 50e-6):
                 raise InputError(
-                    f"{opt[2:].replace('-', ' ')} must lie in 50 nm .. 50 um, got {v!r} m",
-                    source=f"option {opt}",
+                    f"{key[:-2].replace('_', ' ')} must lie in 50 nm .. 50 um, got {v!r} m",
+                    key=key,
                 )
         if not math.isfinite(self.gate_voltage_V):
-            raise InputError("gate voltage must be finite", source="option --gate-voltage")
+            raise InputError("gate voltage must be finite", key="gate_voltage_V")
 
 
 @dataclass(frozen=True)
@@ -197,6 +193,8 @@ def edge_strip(
     filling: float,
     strip_gap_J: float,
     eps_r: float,
+    *,
+    potential: tuple | None = None,
 ) -> EdgeStrip:
     """The compressible strip of the interfering edge from the primary's n(r) (pure numpy).
 
@@ -212,6 +210,12 @@ def edge_strip(
         The jump of the electron chemical potential across the incompressible strip (J).
     eps_r
         Relative permittivity at the primary well.
+    potential
+        Optional ``(phi_V, energy_eV, dos_J_m2, kT_J)``: the sheet potential on the same nodes and
+        its Thomas–Fermi parameters. Density levels are then located on the potential, which is
+        piecewise linear on the mesh, instead of on n(r), which has a kink at the edge: the
+        crossing is the discrete solution's own and moves smoothly with the gate voltage (as the
+        edge stage does).
 
     Raises
     ------
@@ -225,17 +229,22 @@ def edge_strip(
         raise InputError(
             "the gate empties the island (centre density below 10 % of the 1D value); "
             "use a wider opening or a less negative gate voltage",
-            source="option --gate-voltage",
+            key="gate_voltage_V",
         )
-    r_edge = _from_centre(r, n, EDGE_FRACTION * bulk_density_m2)
+
+    def at(level: float) -> float | None:
+        if potential is None:
+            return _from_centre(r, n, level)
+        phi, energy_eV, dos, kT = potential
+        return _from_centre(r, phi, energy_eV + _inverse_tf(level, dos, kT) / sc.e)
+
+    r_edge = at(EDGE_FRACTION * bulk_density_m2)
     if r_edge is None:
-        raise InputError(
-            "the gate does not cut the primary well: no island", source="option --gate-voltage"
-        )
+        raise InputError("the gate does not cut the primary well: no island", key="gate_voltage_V")
     n_nu = filling * sc.e * field_T / sc.h
     pinned = n_nu >= FALL_FRACTION * n0
     target = FALL_FRACTION * n0 if pinned else n_nu
-    rc = _from_centre(r, n, target)
+    rc = at(target)
     dndr = np.gradient(n, r)
     g = -float(np.interp(rc, r, dndr))
     if not g > 0:
@@ -245,8 +254,8 @@ def edge_strip(
     if r_in >= r_edge:
         raise InputError(
             f"the incompressible strip ({a * 1e9:.1f} nm) reaches the electronic edge: no "
-            "compressible edge; check --gap and --field",
-            source="option --gap",
+            "compressible edge; check the gap and the field",
+            key="gap_J",
         )
     v = strip_gap_J / (sc.e * a * field_T)
     return EdgeStrip(
@@ -277,6 +286,8 @@ class OperatingPoint:
     eps_primary: float
     density_minus_m2: np.ndarray  # primary n(r) at V - dV/2
     density_plus_m2: np.ndarray  # and at V + dV/2
+    potential_minus_V: np.ndarray  # primary sheet potential at V - dV/2
+    potential_plus_V: np.ndarray  # and at V + dV/2
     voltage_step_V: float
     solver: CrossSectionSolver = field(repr=False)
     info: dict = field(default_factory=dict)
@@ -289,6 +300,12 @@ class OperatingPoint:
     def primary_density_m2(self) -> np.ndarray:
         return self.solution.density_m2[self.primary_index]
 
+    def _tf(self, phi: np.ndarray) -> tuple:
+        ip = self.primary_index
+        p = self.section.sheets[ip]
+        kT = sc.k * self.section.temperature_K
+        return (phi, float(self.solution.sheet_energy_eV[ip]), p.dos_J_m2, kT)
+
     def strip(self, field_T: float, filling: float, strip_gap_J: float) -> EdgeStrip:
         """The interfering edge at a field (pure post-processing of the solve)."""
         p = self.section.sheets[self.primary_index]
@@ -300,15 +317,26 @@ class OperatingPoint:
             filling,
             strip_gap_J,
             self.eps_primary,
+            potential=self._tf(self.solution.sheet_potential(self.primary_index)),
         )
 
     def dA_I_dV(self, field_T: float, filling: float, strip_gap_J: float) -> float:
         """dA_I/dV_gate (m^2/V) by the central difference of the solves at V -+ dV/2."""
         p = self.section.sheets[self.primary_index]
         radii = []
-        for n in (self.density_minus_m2, self.density_plus_m2):
+        for n, phi in (
+            (self.density_minus_m2, self.potential_minus_V),
+            (self.density_plus_m2, self.potential_plus_V),
+        ):
             s = edge_strip(
-                self.r_m, n, p.density_m2, field_T, filling, strip_gap_J, self.eps_primary
+                self.r_m,
+                n,
+                p.density_m2,
+                field_T,
+                filling,
+                strip_gap_J,
+                self.eps_primary,
+                potential=self._tf(phi),
             )
             radii.append(s.A_I_m2)
         return (radii[1] - radii[0]) / self.voltage_step_V
@@ -322,7 +350,17 @@ def _sheet_states(sol: FieldSolution, section: CrossSection, gate: tuple[float, 
         n = sol.density_m2[i]
         gated = float(np.min(n[under])) if np.any(under) else float(n[-1])
         cut = s.density_m2 <= 0 or gated < EDGE_FRACTION * s.density_m2
-        rc = _from_centre(r, n, EDGE_FRACTION * s.density_m2) if cut and s.density_m2 > 0 else None
+        rc = None
+        if cut and s.density_m2 > 0:
+            # located on the sheet potential (piecewise linear), as the edge stage does
+            level = (
+                sol.sheet_energy_eV[i]
+                + _inverse_tf(
+                    EDGE_FRACTION * s.density_m2, s.dos_J_m2, sc.k * section.temperature_K
+                )
+                / sc.e
+            )
+            rc = _from_centre(r, sol.sheet_potential(i), level)
         out.append(
             SheetState(s.name, s.role, float(s.density_m2), float(n[0]), gated, bool(cut), rc)
         )
@@ -442,6 +480,8 @@ def _solve(section, device, gate_radius, mesh_options, options, targets, strip_g
         eps_primary=eps_r,
         density_minus_m2=lo.density_m2[ip].copy(),
         density_plus_m2=hi.density_m2[ip].copy(),
+        potential_minus_V=lo.sheet_potential(ip).copy(),
+        potential_plus_V=hi.sheet_potential(ip).copy(),
         voltage_step_V=dv,
         solver=solver,
         info=info,
@@ -457,7 +497,7 @@ def _solve_for_electronic_radius(section, device, mesh_options, options, targets
     if not targets or gap is None:
         raise InputError(
             "an electronic radius needs the operating field and filling to place the edge",
-            source="option --electronic-radius",
+            key="electronic_radius_m",
         )
     target = float(device.electronic_radius_m)
     B, nu = targets[0]
@@ -478,7 +518,7 @@ def _solve_for_electronic_radius(section, device, mesh_options, options, targets
         if not 50e-9 < rg < 50e-6:
             raise InputError(
                 f"no gate opening puts the interfering edge at {target * 1e9:.0f} nm",
-                source="option --electronic-radius",
+                key="electronic_radius_m",
             )
     op.info["electronic_radius_iterations"] = [(float(a), float(b)) for a, b in history]
     return op

@@ -76,7 +76,7 @@ class ResponseProblem:
 
             raise InputError(
                 f"bulk charge shape '{bulk_shape}'; allowed: {', '.join(BULK_SHAPES)}",
-                source="option --bulk-charge",
+                key="bulk_shape",
             )
         self.op = op
         s = op.solver

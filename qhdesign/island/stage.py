@@ -93,31 +93,27 @@ class OperatingSettings:
         if not (0 < nu <= 1 and m >= 1 and abs(nu * m - 1.0) < 1e-9):
             raise InputError(
                 f"filling {nu:g} is not a Laughlin filling 1/m (allowed: 1, 1/3, 1/5, ...)",
-                source="option --filling",
+                key="filling",
             )
         if not (math.isfinite(self.gap_J) and 0 < self.gap_J < 0.1 * sc.e):
-            raise InputError("gap must lie in 0 < gap < 100 meV", source="option --gap")
+            raise InputError("gap must lie in 0 < gap < 100 meV", key="gap_J")
         if self.gap_kind not in GAP_KINDS:
             raise InputError(
                 f"gap kind '{self.gap_kind}'; allowed: {', '.join(GAP_KINDS)}",
-                source="option --gap-kind",
+                key="gap_kind",
             )
         if self.field_T is not None and not (0 < self.field_T <= 60):
-            raise InputError("field must lie in 0 < B <= 60 T", source="option --field")
+            raise InputError("field must lie in 0 < B <= 60 T", key="field_T")
         if self.temperature_K is not None and not (0 < self.temperature_K <= 50):
-            raise InputError("temperature must lie in 0 < T <= 50 K", source="option --temperature")
+            raise InputError("temperature must lie in 0 < T <= 50 K", key="temperature_K")
         if self.level_width_J is not None and not (0 < self.level_width_J < 0.05 * sc.e):
-            raise InputError(
-                "level width must lie in 0 < Gamma < 50 meV", source="option --level-width"
-            )
+            raise InputError("level width must lie in 0 < Gamma < 50 meV", key="level_width_J")
         if self.quantum_lifetime_s is not None and not (1e-15 <= self.quantum_lifetime_s <= 1e-9):
-            raise InputError(
-                "quantum lifetime must lie in 1 fs .. 1 ns", source="option --quantum-lifetime"
-            )
+            raise InputError("quantum lifetime must lie in 1 fs .. 1 ns", key="quantum_lifetime_s")
         if not (0 <= self.g_factor <= 10):
-            raise InputError("|g*| must lie in 0 .. 10", source="option --g-factor")
+            raise InputError("|g*| must lie in 0 .. 10", key="g_factor")
         if not (0 < self.r_threshold < 1):
-            raise InputError("r threshold must lie in (0, 1)", source="option --r-threshold")
+            raise InputError("r threshold must lie in (0, 1)", key="r_threshold")
 
     @property
     def charge_ratio(self) -> float:
@@ -476,9 +472,9 @@ def _lifetimes(section, lifetimes_s, st: OperatingSettings) -> tuple[dict, str]:
     """Quantum lifetime of every sheet (s) and where it comes from."""
     names = [s.name for s in section.sheets]
     if st.level_width_J is not None:
-        return {n: float("nan") for n in names}, "user width (--level-width)"
+        return {n: float("nan") for n in names}, "user width (level width given)"
     if st.quantum_lifetime_s is not None:
-        return {n: st.quantum_lifetime_s for n in names}, "user lifetime (--quantum-lifetime)"
+        return {n: st.quantum_lifetime_s for n in names}, "user lifetime (quantum lifetime given)"
     if lifetimes_s:
         out = {}
         for n in names:

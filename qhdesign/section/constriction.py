@@ -130,9 +130,9 @@ def solve_pinchoff(
     pinched within the sweep gets None, and its ``status`` says which.
     """
     if not gap_m > 0:
-        raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
-    for v in (v_start, v_stop):
-        _check_gate_voltage(section, v)
+        raise InputError(f"gap must be > 0, got {gap_m:g} m", key="gap_m")
+    _check_gate_voltage(section, v_start, "v_start")
+    _check_gate_voltage(section, v_stop, "v_stop")
     if not any(s.density_m2 > 0.0 for s in section.sheets):
         raise InputError("the stack has no electrons at zero gate bias; nothing to pinch off")
     solver = _split_solver(section, gap_m, mesh_options, options, comm)
@@ -254,8 +254,8 @@ def solve_constriction(
 ) -> ConstrictionResult:
     """Solve a split gate of gap ``gap_m`` at one gate voltage (metal over |x| > gap/2)."""
     if not gap_m > 0:
-        raise InputError(f"gap must be > 0, got {gap_m:g} m", source="option --gap")
-    _check_gate_voltage(section, gate_voltage_V)
+        raise InputError(f"gap must be > 0, got {gap_m:g} m", key="gap_m")
+    _check_gate_voltage(section, gate_voltage_V, "gate_voltage_V")
     if not any(s.density_m2 > 0.0 for s in section.sheets):
         raise InputError("the stack has no electrons at zero gate bias; nothing to pinch off")
     solver = _split_solver(section, gap_m, mesh_options, options, comm)

@@ -11,7 +11,6 @@ Definitions of edge, healing length, cut and strips: :mod:`qhdesign.section.prof
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -19,6 +18,7 @@ from scipy import constants as sc
 
 from qhdesign import materials
 from qhdesign.errors import InputError
+from qhdesign.limits import MIN_GATE_VOLTAGE_V, check_field, check_gate_voltage  # noqa: F401
 from qhdesign.results import Table, flatten
 
 from .geometry import GateLayout, MeshOptions
@@ -57,10 +57,6 @@ def bare_g_factor() -> float:
     """|g*| of GaAs conduction electrons (materials table: -0.44): the Zeeman splitting subtracted
     from the even-integer gaps, and the odd-integer spin gap with ``spin_gap="bare"``."""
     return abs(materials.electron_g_factor_gaas())
-
-
-#: Most negative gate voltage accepted (V): beyond this a Schottky gate breaks down.
-MIN_GATE_VOLTAGE_V = -20.0
 
 
 @dataclass(frozen=True)
@@ -126,29 +122,24 @@ class EdgeSettings:
             )
         if self.filling is not None and (self.field_T is None or self.field_T == 0.0):
             raise InputError(
-                "a filling needs a magnetic field: give --field B with B > 0 T",
-                source="option --field",
+                "a filling needs a magnetic field B > 0 T", key="field_T", related=("filling",)
             )
-        if self.field_T is not None and not self.field_T > 0:
-            raise InputError(
-                f"field must be > 0 T, got {self.field_T:g} T", source="option --field"
-            )
+        check_field(self.field_T, "field_T")
         if self.filling is not None and not self.filling > 0:
-            raise InputError(
-                f"filling must be > 0, got {self.filling:g}", source="option --filling"
-            )
+            raise InputError(f"filling must be > 0, got {self.filling:g}", key="filling")
         if self.gap_energy_J is not None and not self.gap_energy_J > 0:
-            raise InputError("gap energy must be > 0", source="option --gap-energy")
+            raise InputError("gap energy must be > 0", key="gap_energy_J")
         if self.gap_energy_J is not None and (
             self.filling is None or abs(self.filling - round(self.filling)) < 1e-9
         ):
             raise InputError(
-                "--gap-energy is the gap of a fractional --filling (e.g. --filling 1/3); "
+                "a gap energy is the gap of a fractional filling (e.g. 1/3); "
                 "integer strips use the Landau or spin gap",
-                source="option --gap-energy",
+                key="gap_energy_J",
+                related=("filling",),
             )
         if self.perimeter_m is not None and not self.perimeter_m > 0:
-            raise InputError("perimeter must be > 0", source="option --perimeter")
+            raise InputError("perimeter must be > 0", key="perimeter_m")
 
 
 @dataclass(frozen=True)
@@ -272,14 +263,9 @@ class EdgeResult:
         return cols, np.column_stack(data)
 
 
-def _check_gate_voltage(section: CrossSection, v: float) -> None:
-    limit = section.gate_barrier_J / sc.e
-    if not (MIN_GATE_VOLTAGE_V <= v <= limit) or not math.isfinite(v):
-        raise InputError(
-            f"gate voltage {v:g} V is outside the allowed range "
-            f"[{MIN_GATE_VOLTAGE_V:g} V, {limit:.3g} V] (above it the Schottky gate conducts)",
-            source="option --gate-voltage",
-        )
+def _check_gate_voltage(section: CrossSection, v: float, key: str = "gate_voltage_V") -> None:
+    """The one gate-voltage rule (:func:`qhdesign.limits.check_gate_voltage`)."""
+    check_gate_voltage(v, section.gate_barrier_J, key, barrier_name="the gate's barrier")
 
 
 def _primary(section: CrossSection) -> int:
@@ -349,7 +335,7 @@ def _check_electrons(sol: FieldSolution, section: CrossSection, v: float) -> Non
         raise InputError(
             f"gate voltage {v:g} V leaves no electrons anywhere in the cross-section "
             f"(|x| <= {sol.x_m[-1] * 1e6:.2f} um); use a less negative voltage",
-            source="option --gate-voltage",
+            key="gate_voltage_V",
         )
 
 

@@ -122,14 +122,18 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     lo = -X if opts.x_min_m is None else float(opts.x_min_m)
     for e in edges + marks:
         if not lo < e < X:
-            raise InputError(f"gate edge at {e * 1e9:.1f} nm lies outside the domain")
+            raise InputError(
+                f"gate edge at {e * 1e9:.1f} nm lies outside the domain "
+                f"({lo * 1e9:.0f} nm < x < {X * 1e9:.0f} nm)",
+                key="gap_m",
+            )
     if len(layout.edges_m) >= 2:
         smallest = np.min(np.diff(np.sort(layout.edges_m)))
         if smallest < 8 * h_edge:
             raise InputError(
                 f"gap {smallest * 1e9:.2f} nm is narrower than the mesh can resolve "
                 f"(at least 8 cells of {h_edge * 1e9:.2f} nm: >= {8 * h_edge * 1e9:.1f} nm)",
-                source="option --gap",
+                key="gap_m",
             )
     # an attractor far enough from every breakpoint becomes a node too (a centre, an edge)
     nodes_at = list(edges)

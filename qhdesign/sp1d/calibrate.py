@@ -17,6 +17,8 @@ import numpy as np
 from scipy import constants as sc
 from scipy.optimize import brentq
 
+from qhdesign.limits import MIN_GATE_VOLTAGE_V
+
 from ..errors import InputError
 from ..results import Table, flatten
 from .analysis import subband_wells
@@ -82,7 +84,7 @@ def threshold_voltage(
     opts = options or BandsOptions()
     names = [lay.name for lay in stack.layers]
     if well not in names or stack.layers[names.index(well)].well is None:
-        raise InputError(f"'{well}' is not a well of this stack", source=stack.source, key="--well")
+        raise InputError(f"'{well}' is not a well of this stack", key="well")
     frozen = freeze_out(stack, opts)
     t = stack.temperature
     gated = stack.surface.kind == "exposed"
@@ -90,7 +92,7 @@ def threshold_voltage(
     vmax = stack.surface.barrier / sc.e - 0.05
 
     def f(v: float) -> float:
-        check_gate_voltage(stack, v, "threshold search")
+        check_gate_voltage(stack, v, "well", "threshold search voltage")
         return _lowest_in_well(stack, frozen, v, t, opts, li, gated)
 
     hi = min(0.0, vmax)
@@ -103,14 +105,16 @@ def threshold_voltage(
         span *= 2
     if f_hi > 0:
         raise InputError(
-            f"well '{well}' stays empty up to the forward limit {vmax:.2f} V", key="--well"
+            f"well '{well}' stays empty up to the forward limit {vmax:.2f} V", key="well"
         )
     f_lo = f(lo)
     while f_lo < 0:
         hi, lo = lo, lo - span
         span *= 2
-        if lo < -20.0:
-            raise InputError(f"well '{well}' does not empty above -20 V", key="--well")
+        if lo < MIN_GATE_VOLTAGE_V:
+            raise InputError(
+                f"well '{well}' does not empty above {MIN_GATE_VOLTAGE_V:g} V", key="well"
+            )
         f_lo = f(lo)
     return float(brentq(f, lo, hi, xtol=1e-6))
 
@@ -153,17 +157,17 @@ def calibrate(
     opts = options or BandsOptions()
     if target not in TARGETS:
         raise InputError(
-            f"target must be one of {', '.join(TARGETS)}, got '{target}'", key="--target"
+            f"target must be one of {', '.join(TARGETS)}, got '{target}'", key="target"
         )
     names = [lay.name for lay in stack.layers]
     if target != "total" and (well not in names or stack.layers[names.index(well)].well is None):
         wells = ", ".join(lay.name for lay in stack.wells())
-        raise InputError(f"'{well}' is not a well; wells: {wells}", key="--well")
+        raise InputError(f"'{well}' is not a well; wells: {wells}", key="well")
     if not math.isfinite(measured) or (target != "threshold" and measured <= 0):
-        raise InputError("the measured density must be > 0", key="--measured")
+        raise InputError("the measured density must be > 0", key="measured")
     p0 = stack.get(parameter)
     if not isinstance(p0, float):
-        raise InputError(f"'{parameter}' is not a numeric parameter", key="--parameter")
+        raise InputError(f"'{parameter}' is not a numeric parameter", key="parameter")
     if bracket is None:
         if abs(p0) < 0.05 * sc.e and parameter.endswith(("barrier", "level", "band_offset")):
             bracket = (p0 - 0.3 * sc.e, p0 + 0.3 * sc.e)
@@ -194,8 +198,8 @@ def calibrate(
         raise InputError(
             f"the measured {target} {measured / scale:.4g} {unit} is not reached for {parameter} "
             f"in [{a:.4g}, {b:.4g}] (SI): the model gives {achieved[a] / scale:.4g} to "
-            f"{achieved[b] / scale:.4g} {unit}; give a wider --range",
-            key="--range",
+            f"{achieved[b] / scale:.4g} {unit}; give a wider search interval",
+            key="bracket",
         )
     xtol = 1e-6 * max(abs(a), abs(b))
     p = brentq(model, a, b, xtol=xtol, rtol=1e-10)

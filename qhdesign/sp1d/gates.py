@@ -173,12 +173,16 @@ def geometric_slope(stack, centroid_m: float, dos_J_m2: float) -> float:
 
 def _sweep_voltages(v_from: float, v_to: float, step: float) -> np.ndarray:
     if not (math.isfinite(v_from) and math.isfinite(v_to) and math.isfinite(step)) or step == 0:
-        raise InputError("--from, --to and --step must be finite, step non-zero", key="--step")
+        raise InputError(
+            "the sweep ends and the step must be finite, the step non-zero",
+            key="step",
+            related=("v_from", "v_to"),
+        )
     if (v_to - v_from) * step < 0:
         step = -step
     n = math.floor((v_to - v_from) / step + 1e-9) + 1
     if n > 100000:
-        raise InputError(f"{n} sweep points; allowed at most 100000", key="--step")
+        raise InputError(f"{n} sweep points; allowed at most 100000", key="step")
     return v_from + step * np.arange(n)
 
 
@@ -234,8 +238,10 @@ def gate_response(
     gated = stack.surface.kind == "exposed"
     t = _check_temperature(stack.temperature if temperature is None else temperature, "temperature")
     volts = _sweep_voltages(float(v_from), float(v_to), float(step))
-    for v in (volts.min(), volts.max()):
-        check_gate_voltage(stack, float(v), "--from/--to")
+    check_gate_voltage(stack, float(v_from), "v_from", "first gate voltage")
+    check_gate_voltage(stack, float(v_to), "v_to", "last gate voltage")
+    for v in (volts.min(), volts.max()):  # the grid stays within the ends
+        check_gate_voltage(stack, float(v), "v_to")
     if frozen is None:
         frozen = freeze_out(stack, opts, cool_bias=cool_bias)
     layout = frozen.layout

@@ -571,13 +571,15 @@ def fit_background(
     o = options or ScatteringOptions()
     names = [w.name for w in result.wells]
     if well not in names:
-        raise InputError(f"'{well}' is not a well; wells: {', '.join(names)}", key="--well")
+        raise InputError(f"'{well}' is not a well; wells: {', '.join(names)}", key="well")
     if not (math.isfinite(measured_mobility_m2_Vs) and measured_mobility_m2_Vs > 0):
-        raise InputError("the measured mobility must be above 0 cm^2/Vs", key="--mobility")
+        raise InputError(
+            "the measured mobility must be above 0 cm^2/Vs", key="measured_mobility_m2_Vs"
+        )
     unit = dataclasses.replace(o, background_m3=1e20)
     w = scattering(result, unit).well(well)
     if not w.sources:
-        raise InputError(f"well '{well}' holds no electrons; nothing to fit", key="--well")
+        raise InputError(f"well '{well}' holds no electrons; nothing to fit", key="well")
     mass = w.mass_rel * sc.m_e
     target = sc.e / (mass * measured_mobility_m2_Vs)  # 1/tau_t measured
     bg = sum(s.transport_rate_s for s in w.sources if s.name == "background")
@@ -587,7 +589,7 @@ def fit_background(
             f"the measured mobility {measured_mobility_m2_Vs / _CM2_VS:.4g} cm^2/Vs is above "
             f"what the other sources allow ({sc.e / (mass * others) / _CM2_VS:.4g} cm^2/Vs) "
             "with no background at all; check the stack's donors and the measurement",
-            key="--mobility",
+            key="measured_mobility_m2_Vs",
         )
     nb = 1e20 * (target - others) / bg
     return nb, scattering(result, dataclasses.replace(o, background_m3=nb))

@@ -65,37 +65,28 @@ def _check_temperature(t: float, what: str) -> float:
     return float(t)
 
 
-def check_gate_voltage(stack, v: float, option: str = "gate voltage") -> float:
-    """Refuse gate voltages the model cannot describe (one-line :class:`InputError`)."""
-    if v is None or not math.isfinite(v):
-        raise InputError(f"gate voltage must be a finite number, got {v}", key=option)
-    surf = stack.surface
-    vmax = surf.barrier / sc.e
-    # the option is what is wrong; the limit comes from the stack's surface.barrier
-    src = f"option {option}" if option.startswith("--") else stack.source
-    key = None if option.startswith("--") else "surface.barrier"
-    if v >= vmax:
-        raise InputError(
-            f"{option} {v:+.3f} V is past the Schottky barrier ({vmax:.3f} eV, surface.barrier "
-            f"of {stack.source}): the gate would inject current; allowed below {vmax:+.3f} V",
-            source=src,
-            key=key,
-        )
-    if v < -20.0:
-        raise InputError(
-            f"{option} {v:+.3f} V is below -20 V (dielectric breakdown range); allowed "
-            f"-20 V to {vmax:+.3f} V",
-            source=src,
-            key=key,
-        )
-    return float(v)
+def check_gate_voltage(
+    stack, v: float, key: str = "gate_voltage", what: str = "gate voltage"
+) -> float:
+    """Refuse gate voltages the model cannot describe: the one rule of
+    :func:`qhdesign.limits.check_gate_voltage` with the barrier of the stack's surface
+    (an :class:`InputError` keyed by the caller's argument name ``key``)."""
+    from qhdesign.limits import check_gate_voltage as rule
+
+    return rule(
+        v,
+        stack.surface.barrier,
+        key,
+        what=what,
+        barrier_name=f"surface.barrier of {stack.source}",
+    )
 
 
 def freeze_out(stack, options: BandsOptions | None = None, *, cool_bias: float | None = None):
     """Solve the stack at its freeze-out temperature and freeze the donor (and surface) charge."""
     opts = options or BandsOptions()
     cb = opts.cool_bias_V if cool_bias is None else cool_bias
-    cb = check_gate_voltage(stack, cb, "cool bias")
+    cb = check_gate_voltage(stack, cb, "cool_bias", "cool-down bias")
     tf = _check_temperature(stack.freeze_temperature, "wafer.freeze_temperature")
     layout = build_device(stack, grid=opts.grid, margin_m=opts.quantum_margin_m)
     dev = layout.device.with_boundaries(top=top_boundary(stack, cb, pinned=True, gated=True))
@@ -247,7 +238,7 @@ def solve_bands(
     exposed = stack.surface.kind == "exposed"
     gated = exposed and gate_voltage is not None
     v = stack.surface.bias if gate_voltage is None else gate_voltage
-    v = check_gate_voltage(stack, v, "gate voltage")
+    v = check_gate_voltage(stack, v, "gate_voltage")
     if frozen is None:
         frozen = freeze_out(stack, opts)
     if t >= frozen.temperature_K:

@@ -31,6 +31,8 @@ class Job:
     stage: str
     stack: Any
     options: Mapping[str, Any] = field(default_factory=dict)
+    #: plug-in modules the user allowed (``--allow-plugin``)
+    allow_plugins: tuple[str, ...] = ()
 
 
 def design_key(params: Mapping[str, float]) -> str:
@@ -56,17 +58,22 @@ def evaluate_design(job: Job, values: Mapping[str, float]) -> tuple[dict | None,
         stack = apply_values(job.stack, stack_values)
     except QHDesignError as exc:
         return None, "invalid", _one_line(exc), 0.0
-    fn = get_stage(job.stage)
+    fn = get_stage(job.stage, job.allow_plugins)
     t0 = time.perf_counter()
     try:
         out = fn(stack, **{**dict(job.options), **option_values})
+        # the return value is checked inside the guard: a stage returning None (or a list) is a
+        # bug of that stage, recorded on its row, not the end of the sweep
+        if not isinstance(out, Mapping):
+            raise TypeError(f"the stage returned {type(out).__name__}, not a dict of outputs")
+        out = dict(out)
     except ConvergenceError as exc:
         return None, "not_converged", _one_line(exc), time.perf_counter() - t0
     except QHDesignError as exc:
         return None, "invalid", _one_line(exc), time.perf_counter() - t0
-    except Exception as exc:  # a bug in a stage: keep the sweep going, record it
+    except (Exception, SystemExit) as exc:  # a bug in a stage: keep the sweep going, record it
         return None, "error", f"{type(exc).__name__}: {_one_line(exc)}", time.perf_counter() - t0
-    return dict(out), "ok", "", time.perf_counter() - t0
+    return out, "ok", "", time.perf_counter() - t0
 
 
 def evaluate_chunk(
@@ -76,13 +83,13 @@ def evaluate_chunk(
     return [(i, *evaluate_design(job, values)) for i, values in chunk]
 
 
-def warm_stage(name: str) -> bool:
+def warm_stage(name: str, allow_plugins: tuple[str, ...] = ()) -> bool:
     """Import a stage's modules in a worker before the first design arrives (start-up overlap)."""
     import importlib
 
     from .stages import _PROBES, get_stage
 
-    get_stage(name)
+    get_stage(name, allow_plugins)
     if name in _PROBES:
         try:
             importlib.import_module(_PROBES[name][0])

@@ -140,7 +140,7 @@ class SweepSummary:
             counts += f", error {self.counts['error']} (stage bugs: see the error column)"
         out = [
             f"{self.new} designs evaluated ({counts}); {self.skipped} already in the CSV; "
-            f"{self.total} in the space",
+            f"{self.total} in the space; {self.new + self.skipped} rows in the CSV",
             f"wall time {self.wall_s:.2f} s, {self.rate:.1f} designs/s "
             f"({self.executor}, {self.workers} worker{'s' if self.workers != 1 else ''}, "
             f"chunk {self.chunk})",
@@ -268,12 +268,33 @@ class _LocalPool:
         self._pool.shutdown(wait=True, cancel_futures=True)
 
 
+def process_alive(pid: int) -> bool:
+    """True while process ``pid`` runs. A zombie (killed, not yet reaped by its parent) counts
+    as gone: ``os.kill(pid, 0)`` alone succeeds on a zombie, so its state is read too (Linux
+    ``/proc``; elsewhere signal 0 only)."""
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # the pid was reused by another user's process
+        return False
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as fh:
+            stat = fh.read()
+    except OSError:
+        return True  # no /proc: signal 0 is all there is
+    # the state letter follows the command name, which is in parentheses and may hold spaces
+    end = stat.rfind(b")")
+    return stat[end + 2 : end + 3] not in (b"Z", b"X")
+
+
 def _exit_with_parent(parent_pid: int, period_s: float = 1.0) -> None:
     """Worker initializer: end this worker when the sweep's main process is gone.
 
     A main process killed outright (SIGKILL, out-of-memory) cannot shut its pool down; its
     workers would then sit idle forever. A daemon thread checks once a second that the main
-    process still exists (signal 0) and exits the worker when it does not. Finished rows are
+    process still runs (:func:`process_alive`: a zombie counts as gone) and exits the worker
+    when it does not. Finished rows are
     safe: only the main process writes the CSV, and a resumed sweep redoes what was running.
     """
     import threading
@@ -282,25 +303,50 @@ def _exit_with_parent(parent_pid: int, period_s: float = 1.0) -> None:
     def watch() -> None:
         while True:
             time.sleep(period_s)
-            try:
-                os.kill(parent_pid, 0)
-            except ProcessLookupError:
-                os._exit(1)
-            except PermissionError:  # pragma: no cover - the pid was reused by another user
+            if not process_alive(parent_pid):
                 os._exit(1)
 
     threading.Thread(target=watch, name="qhdesign-parent-watch", daemon=True).start()
 
 
 # ------------------------------------------------------------------------ the sweep
-def _row(index, key, params, param_cols, outputs, columns_out, status, error, seconds):
+#: Output columns that hold counts or yes/no values (written as integers in the CSV).
+INTEGER_COLUMNS = ("converged", "iterations")
+
+
+def _is_integer_column(name: str) -> bool:
+    return name in INTEGER_COLUMNS or name.startswith("flag_")
+
+
+def display_digits(plan) -> dict[str, int]:
+    """Significant digits of each parameter column: 12 (hides the last-bit noise of the unit
+    conversion, 25 nm not 24.999999999999996), or more where 12 would print two different
+    values of a grid or zip list alike (up to 17, which tells every two floats apart)."""
+    out = {}
+    values = getattr(plan.space, "values", None)
+    for j, p in enumerate(plan.parameters):
+        digits = 12
+        if values is not None and plan.kind in ("grid", "zip"):
+            scale = param_column(p)[1]
+            vals = set(values[j])
+            while digits < 17 and len({f"{v / scale:.{digits}g}" for v in vals}) < len(vals):
+                digits += 1
+        out[p] = digits
+    return out
+
+
+def _row(index, key, params, param_cols, outputs, columns_out, status, error, seconds, digits=None):
     row = [index, key]
     for p in params:
         scale = param_cols[p][1]
-        # display units, 12 significant digits: hides the last-bit noise of unit conversion
-        row.append(float(f"{params[p] / scale:.12g}"))
+        # display units, 12 significant digits unless more are needed (display_digits)
+        d = 12 if digits is None else digits.get(p, 12)
+        row.append(float(f"{params[p] / scale:.{d}g}"))
     for c in columns_out:
-        row.append(None if outputs is None else outputs.get(c, math.nan))
+        v = None if outputs is None else outputs.get(c, math.nan)
+        if _is_integer_column(c) and isinstance(v, float) and v.is_integer():
+            v = int(v)  # counts and yes/no flags read as integers: 1, not 1.0
+        row.append(v)
     row += [status, error, round(seconds, 6)]
     return row
 
@@ -324,7 +370,7 @@ def probe(plan) -> tuple[dict | None, str, str, float]:
     """
     from .stage_options import OPTION_PREFIX
 
-    job = Job(plan.stage, plan.stack, plan.options)
+    job = Job(plan.stage, plan.stack, plan.options, plan.allow_plugins)
     first: dict = {}
     if any(p.startswith(OPTION_PREFIX) for p in plan.parameters):
         design = plan.values_of(next(iter(plan.space)))
@@ -377,14 +423,9 @@ def run_sweep(
         return _run(plan, Path(out), ex, kind, nworkers, chunk, progress, started)
 
 
-def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> SweepSummary:
-    t_start = time.perf_counter()
-    warming = []
-    if kind != "serial":  # workers import the stage while this process probes the nominal design
-        warming = [ex.submit(warm_stage, plan.stage) for _ in range(nworkers)]
-    nominal, status, error, t_nominal = probe(plan)
-    for fut in warming:
-        fut.result()
+def output_columns(plan, nominal: dict | None, status: str, error: str) -> list[str]:
+    """The output columns of ``plan`` given its nominal design's outputs; refuses an output or
+    a criterion the stage does not give (one line naming the spec key)."""
     if plan.outputs is not None:
         outputs = list(plan.outputs)
         if nominal is not None:
@@ -412,8 +453,51 @@ def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> Sweep
                 source=plan.source,
                 key=f"criteria.{crit}",
             )
+    return outputs
+
+
+#: Built-in stages whose nominal evaluation is cheap enough for ``sweep --check`` (closed form
+#: or one 1D solve, well under a few seconds); the 2D stages are checked without a solve.
+CHECK_EVALUATES = ("capacitor", "bands", "gate")
+
+
+def check_plan(plan) -> str:
+    """What ``sweep --check`` adds to the spec validation: the stage options, and for the cheap
+    stages the output columns and criteria (one nominal evaluation). Plug-in stages are never
+    imported here. Returns a note on what was checked; raises :class:`InputError`."""
+    if plan.stage in CHECK_EVALUATES:
+        nominal, status, error, _ = probe(plan)
+        if status == "invalid" and "options." in error:  # an unknown or bad stage option
+            raise InputError(f"the stage refuses its options: {error}", source=plan.source)
+        outputs = output_columns(plan, nominal, status, error)
+        return f"options, {len(outputs)} output columns and criteria checked on the nominal design"
+    if plan.stage in ("edge", "island"):
+        from .stages import dry_run_options
+
+        first = {}
+        if any(p.startswith("options.") for p in plan.parameters):
+            design = plan.values_of(next(iter(plan.space)))
+            first = {k[len("options.") :]: v for k, v in design.items() if k.startswith("options.")}
+        try:
+            dry_run_options(plan.stage, {**dict(plan.options), **first})
+        except InputError as exc:
+            raise InputError(exc.message, source=plan.source, key=exc.key) from None
+        return "options checked; output columns and criteria are checked on the first 2D solve"
+    return "plug-in stage: not imported by --check; options and columns are checked at run time"
+
+
+def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> SweepSummary:
+    t_start = time.perf_counter()
+    warming = []
+    if kind != "serial":  # workers import the stage while this process probes the nominal design
+        warming = [ex.submit(warm_stage, plan.stage, plan.allow_plugins) for _ in range(nworkers)]
+    nominal, status, error, t_nominal = probe(plan)
+    for fut in warming:
+        fut.result()
+    outputs = output_columns(plan, nominal, status, error)
     params = plan.parameters
     param_cols = {p: param_column(p) for p in params}
+    digits = display_digits(plan)
     header = columns_for(params, outputs)
     meta = {
         "name": plan.name,
@@ -432,6 +516,10 @@ def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> Sweep
             t = max(t_nominal, 1e-6) if status == "ok" else 1.0
             chunk = max(1, math.ceil(CHUNK_TARGET_S / t))
             chunk = min(chunk, max(1, todo_est // (4 * nworkers)))
+        if kind == "serial":
+            # in this process: write each finished row before the next design is evaluated,
+            # so that a stage that ends the process loses no finished row
+            chunk = 1
         summary = SweepSummary(
             total=len(plan),
             skipped=0,
@@ -442,8 +530,8 @@ def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> Sweep
         )
         if started is not None:
             started(max(todo_est, 0), len(done))
-        job = Job(plan.stage, plan.stack, plan.options)
-        window = 2 * nworkers + 2
+        job = Job(plan.stage, plan.stack, plan.options, plan.allow_plugins)
+        window = 1 if kind == "serial" else 2 * nworkers + 2
         pending: deque = deque()
 
         def isolate(metas) -> list:
@@ -486,7 +574,9 @@ def _run(plan, out: Path, ex, kind, nworkers, chunk, progress, started) -> Sweep
                     ex.restart()
                 results = isolate(metas)
             for (index, key, design), (_, outs, st, err, secs) in zip(metas, results, strict=True):
-                sink.write(_row(index, key, design, param_cols, outs, outputs, st, err, secs))
+                sink.write(
+                    _row(index, key, design, param_cols, outs, outputs, st, err, secs, digits)
+                )
                 summary.counts[st] += 1
             if progress is not None:
                 progress(len(results), todo_est)

@@ -93,6 +93,12 @@ class CsvSink:
         side = sidecar_path(self.path)
         if self.path.is_dir():
             raise InputError("is a folder; --out needs a CSV file name", source=str(self.path))
+        if self.path.exists() and not self.path.is_file():
+            # a device or a FIFO: appending rows, resuming and the sidecar need a regular file
+            raise InputError(
+                "is not a regular file (a device or FIFO); sweep results go to a regular CSV file",
+                source=str(self.path),
+            )
         if self.path.suffix.lower() not in (".csv", ".txt", ""):
             raise InputError(
                 f"has suffix '{self.path.suffix}'; sweep results are CSV (use a .csv name)",
@@ -123,9 +129,17 @@ class CsvSink:
         if self.path.stat().st_size > 0:
             if side.exists():
                 try:
-                    stored = json.loads(side.read_text()).get("fingerprint")
-                except (OSError, ValueError):
-                    stored = None
+                    doc = json.loads(side.read_bytes().decode("utf-8"))
+                    stored = doc.get("fingerprint") if isinstance(doc, dict) else None
+                except (ValueError, UnicodeDecodeError):
+                    doc, stored = None, None
+                if not isinstance(stored, str):
+                    raise InputError(
+                        f"its sidecar {side.name} is corrupt (not the JSON qhdesign writes); "
+                        "delete the sidecar to resume (the rows are checked on reading), or "
+                        "choose another --out",
+                        source=str(self.path),
+                    )
                 if stored != self.fingerprint:
                     raise InputError(
                         "holds rows of a different sweep (spec, stack, stage or options changed); "
@@ -157,7 +171,15 @@ class CsvSink:
                 fh.flush()
                 os.fsync(fh.fileno())
             data = data[:cut]
-        text = data.decode("utf-8")
+        try:
+            text = data.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            line = data[: exc.start].count(b"\n") + 1
+            raise InputError(
+                f"line {line} is not UTF-8 text; the file was edited or corrupted outside "
+                "qhdesign (choose another --out)",
+                source=str(self.path),
+            ) from None
         reader = csv.reader(io.StringIO(text))
         try:
             header = next(reader)
@@ -182,7 +204,14 @@ class CsvSink:
                     "the file was edited or corrupted outside qhdesign",
                     source=str(self.path),
                 )
-            self.done_keys.add(row[self._key_col])
+            key = row[self._key_col]
+            if key in self.done_keys:
+                raise InputError(
+                    f"line {lineno} repeats the design key {key} of an earlier row; the file "
+                    "was edited or merged outside qhdesign (choose another --out)",
+                    source=str(self.path),
+                )
+            self.done_keys.add(key)
 
     # ------------------------------------------------------------------ write
     def write(self, values: Sequence[object]) -> None:

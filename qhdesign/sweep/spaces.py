@@ -140,6 +140,20 @@ class LatinHypercubeSpace:
         for i in range(self.samples):
             yield {r.path: float(cols[j][i]) for j, r in enumerate(self.ranges)}
 
+    def repeated_designs(self) -> int:
+        """How many samples repeat an earlier one exactly (same values, same row key).
+
+        Continuous draws repeat only where a range is so narrow that floating point cannot tell
+        its strata apart; one parameter whose values are all distinct already proves that every
+        design is distinct.
+        """
+        u = self.unit_sample()
+        cols = np.column_stack([r.map_unit(u[:, j]) for j, r in enumerate(self.ranges)])
+        for j in range(cols.shape[1]):
+            if np.unique(cols[:, j]).size == self.samples:
+                return 0
+        return self.samples - np.unique(cols, axis=0).shape[0]
+
     def corners(self) -> Iterator[dict[str, float]]:
         lows = {r.path: r.low for r in self.ranges}
         highs = {r.path: r.high for r in self.ranges}

@@ -61,6 +61,7 @@ class SweepPlan:
     criteria: Mapping[str, tuple[float, float]] = field(default_factory=dict)
     source: str = "<spec>"
     signature: Mapping[str, Any] = field(default_factory=dict)
+    allow_plugins: tuple[str, ...] = ()
 
     @property
     def parameters(self) -> tuple[str, ...]:
@@ -89,21 +90,51 @@ class SweepPlan:
 
 
 # ------------------------------------------------------------------------ loading
-def load_spec(path: str | Path, stack_override=None) -> SweepPlan:
+def load_spec(
+    path: str | Path, stack_override=None, allow_plugins: tuple[str, ...] = ()
+) -> SweepPlan:
     """Read a sweep TOML file and return the validated :class:`SweepPlan`."""
     src = str(path)
     p = Path(path)
-    if not p.is_file():
-        raise InputError("sweep spec not found", source=src)
+    raw = read_spec(p)
+    return build_plan(
+        raw, source=src, base_dir=p.parent, stack=stack_override, allow_plugins=allow_plugins
+    )
+
+
+#: Largest sweep spec file read (bytes).
+MAX_SPEC_BYTES = 1_000_000
+
+
+def read_spec(path: Path) -> dict:
+    """The parsed TOML of a spec file (a regular file of at most 1 MB; a BOM is accepted)."""
+    from qhdesign.io import decode_text, read_input_bytes
+
+    src = str(path)
     try:
-        raw = tomllib.loads(p.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        text = decode_text(read_input_bytes(path, MAX_SPEC_BYTES, "sweep spec (.toml)"), src)
+    except InputError as exc:
+        if exc.message == "file not found":
+            raise InputError("sweep spec not found", source=src) from None
+        raise
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
         raise InputError(f"TOML syntax error: {' '.join(str(exc).split())}", source=src) from None
-    return build_plan(raw, source=src, base_dir=p.parent, stack=stack_override)
 
 
-def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None, stack=None):
-    """Validate a parsed spec (the TOML document as a dict) into a :class:`SweepPlan`."""
+def build_plan(
+    raw: Mapping[str, Any],
+    source: str,
+    base_dir: Path | None = None,
+    stack=None,
+    allow_plugins: tuple[str, ...] = (),
+):
+    """Validate a parsed spec (the TOML document as a dict) into a :class:`SweepPlan`.
+
+    ``allow_plugins``: modules whose plug-in stages the user allowed (``--allow-plugin``); a
+    plug-in stage from any other module is refused. Nothing is imported here.
+    """
 
     def err(msg: str, key: str | None = None) -> InputError:
         return InputError(msg, source=source, key=key)
@@ -118,10 +149,13 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
     stage = sweep.get("stage")
     if not isinstance(stage, str) or not stage:
         raise err('missing or not a string; e.g. stage = "capacitor"', key="sweep.stage")
-    from .stages import STAGES, available_stages, get_stage
+    from .stages import STAGES, TRUSTED_PREFIX, available_stages, check_stage, get_stage
 
     try:
-        get_stage(stage)
+        # syntax and consent only: a plug-in module is never imported while a spec is checked
+        check_stage(stage, tuple(allow_plugins))
+        if stage not in STAGES and stage.startswith(TRUSTED_PREFIX):
+            get_stage(stage)  # qhdesign's own module: importing it runs nothing new
     except InputError as exc:
         raise err(exc.message, key="sweep.stage") from None
     if stage in STAGES and stage not in available_stages():
@@ -139,7 +173,11 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
             sp = base_dir / sp
         from qhdesign.stack import load_stack
 
-        stack = load_stack(sp)
+        try:
+            stack = load_stack(sp)
+        except InputError as exc:
+            # the spec names the stack: say so, then the stack file's own one-line error
+            raise err(exc.one_line(), key="sweep.stack") from None
     outputs = sweep.get("outputs")
     if outputs is not None:
         if not (isinstance(outputs, list) and outputs and all(isinstance(o, str) for o in outputs)):
@@ -171,6 +209,7 @@ def build_plan(raw: Mapping[str, Any], source: str, base_dir: Path | None = None
         criteria=criteria,
         source=source,
         signature=signature,
+        allow_plugins=tuple(allow_plugins),
     )
     _check_corners(plan, source, vstack)
     return plan
@@ -290,6 +329,13 @@ def _range(stack, path: str, spec: Mapping, source: str, *, steps_allowed: bool)
         raise InputError("a range needs 'from' and 'to'", source=source, key=_pkey(path))
     lo = _si(stack, path, spec["from"], source)
     hi = _si(stack, path, spec["to"], source)
+    if lo == hi:
+        raise InputError(
+            f"the range ends are equal ({spec['from']!r} and {spec['to']!r}); give two different "
+            "ends, or a one-value list to fix the parameter",
+            source=source,
+            key=_pkey(path),
+        )
     scale = spec.get("scale", "linear")
     if scale not in ("linear", "log"):
         raise InputError(f"scale {scale!r}; allowed: linear, log", source=source, key=_pkey(path))
@@ -382,7 +428,21 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
         )
     for path in params:
         _check_path(stack, path, source)
-    paths = tuple(params)
+    # one spelling per parameter: two spellings of one parameter would write two columns, and
+    # the rows would follow only one of them (mislabelled rows)
+    canonical: dict[str, str] = {}
+    for path in params:
+        canon = stack.canonical_path(path)
+        if canon in canonical:
+            raise InputError(
+                f"names the same parameter as '{canonical[canon]}' (both are '{canon}'); "
+                "sweep each parameter once",
+                source=source,
+                key=_pkey(path),
+            )
+        canonical[canon] = path
+    paths = tuple(params)  # as the user wrote them (for error messages)
+    canon_paths = tuple(canonical)  # the space and the CSV columns use the one spelling
     if kind == "lhs":
         samples = _int(tab, "samples", "space", source, 1, MAX_DESIGNS)
         seed = _int(tab, "seed", "space", source, 0, 2**63 - 1)
@@ -392,14 +452,24 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
                 raise InputError(
                     "Latin hypercube needs a range table {from, to}", source=source, key=_pkey(path)
                 )
-            ranges.append(_range(stack, path, spec, source, steps_allowed=False)[0])
+            r = _range(stack, path, spec, source, steps_allowed=False)[0]
+            ranges.append(Range(stack.canonical_path(path), r.low, r.high, r.scale))
         sig = {
             "kind": kind,
             "samples": samples,
             "seed": seed,
             "ranges": [(r.path, r.low, r.high, r.scale) for r in ranges],
         }
-        return LatinHypercubeSpace(tuple(ranges), samples, seed), sig
+        space = LatinHypercubeSpace(tuple(ranges), samples, seed)
+        repeats = space.repeated_designs()
+        if repeats:
+            raise InputError(
+                f"{repeats} of the {samples} samples repeat another design exactly (the ranges "
+                "are too narrow for this many samples); widen a range or take fewer samples",
+                source=source,
+                key="space.samples",
+            )
+        return space, sig
     if kind == "grid":
         # refuse an oversized grid before any value is built or checked
         total = 1
@@ -419,9 +489,9 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
         if msg:
             bad = next(p for p, v in zip(paths, values, strict=True) if len(v) != len(values[0]))
             raise InputError(msg, source=source, key=_pkey(bad))
-        space = ZipSpace(paths, values)
+        space = ZipSpace(canon_paths, values)
     else:
-        space = GridSpace(paths, values)
+        space = GridSpace(canon_paths, values)
     for p, v in zip(paths, values, strict=True):
         if len(set(v)) != len(v) and kind == "grid":
             raise InputError(
@@ -433,21 +503,32 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
             source=source,
             key="space.parameters",
         )
-    sig = {"kind": kind, "paths": list(paths), "values": [list(v) for v in values]}
+    sig = {"kind": kind, "paths": list(canon_paths), "values": [list(v) for v in values]}
     return space, sig
 
 
 def _fraction(v: Any, key: str, source: str) -> float:
-    """A relative tolerance: a number (0.015) or a percentage string ("1.5 %")."""
+    """A relative tolerance: a percentage string ("1.5 %").
+
+    A bare number is refused: ``thickness = 5`` could mean 5 % or 500 % (it used to be read as
+    the fraction 5, i.e. 500 %).
+    """
+    from qhdesign.units import parse_number, shorten
+
     if isinstance(v, str) and v.strip().endswith("%"):
         try:
-            return float(v.strip()[:-1]) / 100.0
-        except ValueError:
+            return parse_number(v.strip()[:-1].strip()) / 100.0
+        except InputError:
             pass
-    elif isinstance(v, int | float) and not isinstance(v, bool):
-        return float(v)
+    if isinstance(v, int | float) and not isinstance(v, bool):
+        raise InputError(
+            f'{v!r} has no unit: write a relative tolerance as a percentage, e.g. "{v} %" or '
+            f'"{100 * v:g} %"',
+            source=source,
+            key=key,
+        )
     raise InputError(
-        f'expected a number or a percentage like "1.5 %", got {v!r}', source=source, key=key
+        f'expected a percentage like "1.5 %", got {shorten(v)!r}', source=source, key=key
     )
 
 

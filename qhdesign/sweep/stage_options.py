@@ -122,6 +122,12 @@ class OptionAwareStack:
         n = option_name(path)
         return self.stack.kind_of(path) if n is None else _kind(self.stage, n)
 
+    def canonical_path(self, path: str) -> str:
+        """The one spelling of a stack path (see ``Stack.canonical_path``); option paths as
+        they are."""
+        n = option_name(path)
+        return self.stack.canonical_path(path) if n is None else OPTION_PREFIX + n
+
     def with_value(self, path: str, value: Any) -> OptionAwareStack:
         n = option_name(path)
         if n is None:

@@ -13,18 +13,25 @@ Any other stage plugs in as ``"package.module:function"``.
 from __future__ import annotations
 
 import importlib
+import re
 from collections.abc import Callable
 from typing import Any
 
 from qhdesign.errors import InputError
 
-__all__ = ["STAGES", "get_stage", "stage_names"]
+__all__ = ["STAGES", "check_stage", "get_stage", "stage_names"]
 
 StageFunc = Callable[..., dict[str, Any]]
 
 
 def _capacitor(stack, **options):
     from .capacitor import capacitor_stage
+
+    for key in options:
+        if key != "densities":
+            raise InputError(
+                "unknown option of stage 'capacitor'; allowed: densities", key=f"options.{key}"
+            )
 
     return capacitor_stage(stack, **options)
 
@@ -56,7 +63,7 @@ def _quantity(value: Any, dimension: str, key: str) -> float:
     return float(value)
 
 
-def _bands_options(options: dict[str, Any], stage: str):
+def _bands_options(options: dict[str, Any], stage: str, stack=None):
     """Split spec options into solver keywords and a ``BandsOptions`` (SI-suffixed fields)."""
     import dataclasses
 
@@ -67,7 +74,12 @@ def _bands_options(options: dict[str, Any], stage: str):
     bo: dict[str, Any] = {}
     for key, value in options.items():
         if key == "temperature":
-            kw[key] = _quantity(value, "temperature", key)
+            from qhdesign.limits import check_solve_temperature
+
+            # the stack file's rule: at most the donor freeze-out temperature
+            freeze = stack.freeze_temperature if stack is not None else 400.0
+            t = _quantity(value, "temperature", key)
+            kw[key] = check_solve_temperature(t, freeze, key=f"options.{key}")
         elif key == "gate_voltage" and stage == "bands":
             kw[key] = _quantity(value, "voltage", key)
         elif key == "cool_bias" and stage == "gate":
@@ -90,6 +102,16 @@ def _bands_options(options: dict[str, Any], stage: str):
     return kw
 
 
+#: Argument names of the 1D physics (error keys) -> spec option names.
+BANDS_KEYS = {k: k for k in ("gate_voltage", "temperature", "cool_bias", "v_from", "v_to", "step")}
+#: Argument names of the 2D edge physics (error keys) -> spec option names.
+EDGE_KEYS = {
+    "gate_voltage_V": "gate_voltage",
+    "field_T": "field",
+    "filling": "filling",
+    "gap_energy_J": "gap_energy",
+    "perimeter_m": "perimeter",
+}
 #: Options of the ``bands`` stage that switch on the disorder estimate (spec value with unit
 #: -> ScatteringOptions field); ``disorder = true`` switches it on with the defaults.
 _DISORDER_KEYS = {
@@ -106,7 +128,8 @@ def _bands(stack, **options):
     on = options.pop("disorder", False)
     if not isinstance(on, bool):
         raise InputError("expected true or false", key="options.disorder")
-    result = fn(stack, **_bands_options(options, "bands"))
+    with spec_keys(BANDS_KEYS):
+        result = fn(stack, **_bands_options(options, "bands", stack))
     out = _summary(result)
     if on or dis:
         from qhdesign.sp1d.scattering import ScatteringOptions, scattering
@@ -127,7 +150,8 @@ def _gate(stack, v_from=None, v_to=None, step=None, **options):
         if v is None:
             raise InputError("the gate stage needs v_from, v_to and step", key=f"options.{name}")
         volts.append(_quantity(v, "voltage", name))
-    return _summary(fn(stack, *volts, **_bands_options(options, "gate")))
+    with spec_keys(BANDS_KEYS):
+        return _summary(fn(stack, *volts, **_bands_options(options, "gate", stack)))
 
 
 def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, perimeter=None):
@@ -142,14 +166,32 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
 
     if gate_voltage is None:
         raise InputError("the edge stage needs gate_voltage", key="options.gate_voltage")
-    settings = EdgeSettings(
-        gate_voltage_V=_quantity(gate_voltage, "voltage", "gate_voltage"),
-        field_T=None if field is None else _quantity(field, "field", "field"),
-        filling=None if filling is None else float(filling),
-        gap_energy_J=None if gap_energy is None else _quantity(gap_energy, "energy", "gap_energy"),
-        perimeter_m=None if perimeter is None else _quantity(perimeter, "length", "perimeter"),
-    )
-    return _summary(solve_edge(section_from_stack(stack), settings, comm=MPI.COMM_SELF))
+    values = {
+        "gate_voltage": gate_voltage,
+        "field": field,
+        "filling": filling,
+        "gap_energy": gap_energy,
+        "perimeter": perimeter,
+    }
+    with spec_keys(EDGE_KEYS, {k for k, v in values.items() if v is not None}):
+        settings = EdgeSettings(
+            gate_voltage_V=_quantity(gate_voltage, "voltage", "gate_voltage"),
+            field_T=None if field is None else _quantity(field, "field", "field"),
+            filling=parse_filling(filling),
+            gap_energy_J=None
+            if gap_energy is None
+            else _quantity(gap_energy, "energy", "gap_energy"),
+            perimeter_m=None if perimeter is None else _quantity(perimeter, "length", "perimeter"),
+        )
+        return _summary(solve_edge(section_from_stack(stack), settings, comm=MPI.COMM_SELF))
+
+
+from qhdesign.island_options import (  # noqa: E402  (front-end parsing shared with the CLI)
+    ISLAND_KEYS,
+    island_inputs,
+    parse_filling,
+    spec_keys,
+)
 
 
 def _island(stack, **options):
@@ -164,9 +206,45 @@ def _island(stack, **options):
         from qhdesign.island_figures import conditions_from_edge
 
         cond = conditions_from_edge(stack, cond, gate_voltage, comm=MPI.COMM_SELF)
-    fig = island_figures(stack, cond, comm=MPI.COMM_SELF, keep_result=True, **island_opts)
+    with spec_keys(ISLAND_KEYS, options):
+        fig = island_figures(stack, cond, comm=MPI.COMM_SELF, keep_result=True, **island_opts)
     res = fig.pop("_result")
     return {**_summary(res), **figure_columns(fig)}
+
+
+def dry_run_options(stage: str, options: dict[str, Any]) -> None:
+    """Parse the options of a 2D stage as its evaluation would, without solving anything:
+    unknown names and bad values raise :class:`InputError` keyed ``options.<name>``."""
+    if stage == "edge":
+        allowed = ("gate_voltage", "field", "filling", "gap_energy", "perimeter")
+        for key in options:
+            if key not in allowed:
+                raise InputError(
+                    f"unknown option of stage 'edge'; allowed: {', '.join(allowed)}",
+                    key=f"options.{key}",
+                )
+        from qhdesign.section.edge import EdgeSettings
+
+        o = options
+        if o.get("gate_voltage") is None:
+            raise InputError("the edge stage needs gate_voltage", key="options.gate_voltage")
+        with spec_keys(EDGE_KEYS, set(o)):
+            EdgeSettings(
+                gate_voltage_V=_quantity(o["gate_voltage"], "voltage", "gate_voltage"),
+                field_T=None if o.get("field") is None else _quantity(o["field"], "field", "field"),
+                filling=parse_filling(o.get("filling")),
+                gap_energy_J=None
+                if o.get("gap_energy") is None
+                else _quantity(o["gap_energy"], "energy", "gap_energy"),
+                perimeter_m=None
+                if o.get("perimeter") is None
+                else _quantity(o["perimeter"], "length", "perimeter"),
+            )
+    elif stage == "island":
+        from qhdesign.island_figures import split_island_options
+
+        _, island_opts, _ = split_island_options(options, source_prefix="options.")
+        island_inputs(**island_opts)
 
 
 #: Built-in stages: name -> (callable, one-line description).
@@ -206,35 +284,95 @@ def available_stages() -> list[str]:
 
 
 _CACHE: dict[str, StageFunc] = {}
+_PLUGIN = re.compile(
+    r"^([A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z_][A-Za-z0-9_]*)*):([A-Za-z_][A-Za-z0-9_]*)$"
+)
+#: Plug-in modules inside qhdesign itself need no opt-in: importing them runs no code the user
+#: has not installed with qhdesign (the test stages of :mod:`qhdesign.sweep.testing`).
+TRUSTED_PREFIX = "qhdesign."
 
 
-def get_stage(name: str) -> StageFunc:
+def parse_plugin(name: str) -> tuple[str, str]:
+    """``"package.module:function"`` -> ``(module, function)`` (syntax only, nothing imported)."""
+    m = _PLUGIN.match(name)
+    if m is None:
+        raise InputError(
+            f"unknown stage '{name}'; allowed: {', '.join(STAGES)} or 'package.module:function'",
+            key="stage",
+        )
+    return m[1], m[2]
+
+
+def check_stage(name: str, allow_plugins: tuple[str, ...] = ()) -> None:
+    """Refuse an unknown stage, or a plug-in stage whose module the user did not allow.
+
+    A plug-in stage runs code: its module is imported (its top-level code runs) and its function
+    is called once per design. So it needs the user's consent on the command line
+    (``--allow-plugin MODULE``); checking a spec never imports it.
+    """
+    if name in STAGES:
+        return
+    module, _ = parse_plugin(name)
+    if module.startswith(TRUSTED_PREFIX) or module in allow_plugins:
+        return
+    raise InputError(
+        f"plug-in stage '{name}' runs code from module '{module}'; allow it explicitly with "
+        f"--allow-plugin {module} (only for code you trust)",
+        key="stage",
+    )
+
+
+def _import_plugin(module: str):
+    """Import ``module`` without the implicit current folder on the import path.
+
+    ``python -m`` and ``python -c`` put the current folder first on ``sys.path``; a plug-in must
+    come from an installed package or a folder named on ``PYTHONPATH``, never silently from the
+    folder the command happens to run in.
+    """
+    import os
+    import sys
+
+    cwd = os.path.realpath(os.getcwd())
+    explicit = {
+        os.path.realpath(p) for p in os.environ.get("PYTHONPATH", "").split(os.pathsep) if p
+    }
+    saved = list(sys.path)
+    sys.path[:] = [
+        p
+        for p in saved
+        if not (p in ("", ".") or (os.path.realpath(p) == cwd and cwd not in explicit))
+    ]
+    try:
+        return importlib.import_module(module)
+    finally:
+        sys.path[:] = saved
+
+
+def get_stage(name: str, allow_plugins: tuple[str, ...] = ()) -> StageFunc:
     """The callable of stage ``name`` (a built-in name or ``"module:function"``).
 
     Raises
     ------
     InputError
-        Unknown name, or a plug-in reference that does not import.
+        Unknown name, a plug-in module not allowed in ``allow_plugins``, or a plug-in reference
+        that does not import.
     """
+    check_stage(name, allow_plugins)
     if name in _CACHE:
         return _CACHE[name]
     if name in STAGES:
         fn = STAGES[name][0]
-    elif ":" in name:
-        mod, _, attr = name.partition(":")
+    else:
+        mod, attr = parse_plugin(name)
         try:
-            fn = getattr(importlib.import_module(mod), attr)
+            fn = getattr(_import_plugin(mod), attr)
         except (ImportError, AttributeError, ValueError):
             raise InputError(
-                f"cannot import plug-in stage '{name}' (expected 'package.module:function')",
+                f"cannot import plug-in stage '{name}' (expected 'package.module:function' "
+                "from an installed package or a folder on PYTHONPATH)",
                 key="stage",
             ) from None
         if not callable(fn):
             raise InputError(f"'{name}' is not callable", key="stage")
-    else:
-        raise InputError(
-            f"unknown stage '{name}'; allowed: {', '.join(STAGES)} or 'package.module:function'",
-            key="stage",
-        )
     _CACHE[name] = fn
     return fn

@@ -67,7 +67,7 @@ def test_edge_writes_documented_outputs(cli_runner, app, screened_path, tmp_path
         (["--gate-voltage", "-5", "--gap", "200 nm"], "no electrons anywhere"),
         (["--gate-voltage", "-0.5", "--gap", "5 nm"], "narrower than the mesh"),
         (["--gate-voltage", "-0.5", "--field", "0", "--filling", "1"], "--field"),
-        (["--gate-voltage", "-25"], "allowed range"),
+        (["--gate-voltage", "-25"], "allowed -20 V"),
     ],
 )
 def test_edge_bad_input_is_one_line_exit_2(cli_runner, app, screened_path, tmp_path, args, needle):

@@ -21,6 +21,7 @@ import numpy as np
 import pytest
 from scipy import constants as sc
 
+from qhdesign.island_options import island_inputs
 from qhdesign.stack import load_stack
 from qhdesign.tf2d import IslandColumn, solve_island
 from qhdesign.tf2d.island import PHI0, WellLine
@@ -46,7 +47,7 @@ def column(setback: float | None) -> IslandColumn:
 @pytest.fixture(scope="module")
 def stack_island():
     stack = load_stack(ROOT / "stacks" / "ql2417_screened.toml")
-    return solve_island(stack, radius="0.8 um", filling="1/3", gap="0.05 meV")
+    return solve_island(stack, *island_inputs(radius="0.8 um", filling="1/3", gap="0.05 meV"))
 
 
 def test_stack_path_end_to_end(stack_island):
@@ -80,7 +81,9 @@ def test_maxwell_matrix_properties(stack_island):
 def setback_scan():
     out = {}
     for s in (10e-9, 20e-9, 40e-9, 80e-9, None):
-        out[s] = solve_island(column(s), radius="0.5 um", screening="grounded", outer_well=False)
+        out[s] = solve_island(
+            column(s), *island_inputs(radius="0.5 um", screening="grounded", outer_well=False)
+        )
     return out
 
 
@@ -99,16 +102,19 @@ def test_thomas_fermi_sheet_equals_shifted_plane(setback):
     # (2.55 nm at kappa 12.9; docs/derivations.md sec. 2); exact for uniform fields, fringes differ
     delta = 12.9 * sc.epsilon_0 / (sc.e**2 * D_GAAS)
     assert delta == pytest.approx(2.55e-9, abs=0.01e-9)
-    tf = solve_island(column(setback), radius="0.5 um", screening="tf", outer_well=False)
+    tf = solve_island(
+        column(setback), *island_inputs(radius="0.5 um", screening="tf", outer_well=False)
+    )
     plane = solve_island(
-        column(setback + delta), radius="0.5 um", screening="grounded", outer_well=False
+        column(setback + delta),
+        *island_inputs(radius="0.5 um", screening="grounded", outer_well=False),
     )
     # bulk self-capacitance (area dominated): measured 0.14 % and 0.06 %
     assert tf.capacitance_F[1, 1] == pytest.approx(plane.capacitance_F[1, 1], rel=5e-3)
     assert (
         tf.ratio
         > solve_island(
-            column(setback), radius="0.5 um", screening="grounded", outer_well=False
+            column(setback), *island_inputs(radius="0.5 um", screening="grounded", outer_well=False)
         ).ratio
     )  # quantum capacitance weakens the screening
 
@@ -119,9 +125,10 @@ MPI_SCRIPT = textwrap.dedent(
     import numpy as np
     from mpi4py import MPI
     from qhdesign.stack import load_stack
+    from qhdesign.island_options import island_inputs
     from qhdesign.tf2d import solve_island
 
-    r = solve_island(load_stack(sys.argv[2]), radius="0.6 um", ring_width="40 nm")
+    r = solve_island(load_stack(sys.argv[2]), *island_inputs(radius="0.6 um", ring_width="40 nm"))
     if MPI.COMM_WORLD.rank == 0:
         np.save(sys.argv[1], r.capacitance_F)
     """

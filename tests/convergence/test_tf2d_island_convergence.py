@@ -11,6 +11,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import constants as sc
 
+from qhdesign.island_options import island_inputs
 from qhdesign.tf2d.axicap import AxiLine, AxiMeshOptions, AxiProblem, solve_capacitance
 from qhdesign.tf2d.island import IslandColumn, WellLine, solve_island
 
@@ -41,7 +42,9 @@ def test_island_ratio_observed_order():
         WellLine("lo", "screening", z + 40e-9, D_GAAS, 2e15),
     )
     col = IslandColumn((0.0, 600e-9), (12.9,), wells, "surface", "open")
-    q = [solve_island(col, radius="0.5 um", refine=f).ratio for f in (0.5, 1.0, 2.0)]
+    q = [
+        solve_island(col, *island_inputs(radius="0.5 um", refine=f)).ratio for f in (0.5, 1.0, 2.0)
+    ]
     # Richardson: observed order from three refinements (no reference value needed)
     p = np.log2(abs(q[0] - q[1]) / abs(q[1] - q[2]))
     assert p >= 1.0, (q, p)

@@ -171,7 +171,8 @@ def test_joint_corner_is_checked_before_evaluation():
     ("sweep", "fragment"),
     [
         ({"stage": "nonsense"}, "key 'sweep.stage': unknown stage 'nonsense'; allowed: capacitor"),
-        ({"stage": "no.such.module:fn"}, "key 'sweep.stage': cannot import plug-in stage"),
+        # a plug-in from outside qhdesign needs --allow-plugin (issue 14: it runs code)
+        ({"stage": "no.such.module:fn"}, "key 'sweep.stage': plug-in stage 'no.such.module:fn'"),
         ({"stage": "qhdesign.sweep.testing:nothing"}, "cannot import plug-in stage"),
         ({"outputs": []}, "key 'sweep.outputs'"),
         ({"stack": "missing.toml"}, "missing.toml: file not found"),
