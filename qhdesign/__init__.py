@@ -2,7 +2,7 @@
 interferometers.
 
 The pipeline: layer-stack file -> 1D Schrödinger–Poisson (charge split between primary and
-screening wells, gate response) -> 2D Thomas–Fermi finite elements (edge depletion, healing
+screening wells, gate response) -> 2D Thomas–Fermi finite elements (edge depletion, rise and tail
 length, lever arms) -> sweeps to CSV. Importing this package is light: DOLFINx, gmsh, MPI and
 matplotlib load only inside the stages that need them, and numpy/scipy only when a stage or the
 stack model is first used.

@@ -3,8 +3,8 @@
 The 1D stage (:mod:`qhdesign.sp1d`) reduces a :class:`~qhdesign.stack.Stack` to a
 :class:`~qhdesign.sheets.SheetModel`; the FEM stages (:mod:`qhdesign.section`,
 :mod:`qhdesign.island`) are built from that sheet model alone and import neither the stack nor
-the 1D stage. This module runs the chain for a stack and refuses what the FEM stages do not model
-(a gate dielectric) with an error that names the stack file and key.
+the 1D stage. This module runs the chain for a stack and refuses what a FEM stage does not model
+(a gate dielectric in the island stage) with an error that names the stack file and key.
 
 Functions
 ---------
@@ -40,8 +40,8 @@ __all__ = [
 
 
 def refuse_gate_dielectric(stack, stage: str) -> None:
-    """The 2D and island models put gate metal directly on the semiconductor: refuse a stack
-    with a gate dielectric (one-line InputError naming the key)."""
+    """The island model puts gate metal directly on the semiconductor: refuse a stack with a
+    gate dielectric there (one-line InputError naming the key)."""
     if float(getattr(stack.surface, "dielectric_thickness", 0.0) or 0.0) > 0.0:
         raise InputError(
             f"{stage} puts gate metal directly on the semiconductor; a gate dielectric is "
@@ -51,17 +51,21 @@ def refuse_gate_dielectric(stack, stage: str) -> None:
         )
 
 
-def sheet_model_from_stack(stack, *, stage: str = "the 2D stage"):
+def sheet_model_from_stack(stack, *, stage: str = "the 2D stage", gate_dielectric: bool = True):
     """Run the 1D stage on ``stack`` at zero bias and reduce it to a sheet model.
+
+    ``gate_dielectric=False``: refuse a stack with a gate dielectric (a stage that does not model
+    it); the 2D cross-section does (the sheet model carries the layer).
 
     Raises
     ------
     InputError
-        A gate dielectric (not modelled by the FEM stages) or an invalid stack.
+        A gate dielectric where the stage does not model it, or an invalid stack.
     ConvergenceError
         If the 1D solve does not converge.
     """
-    refuse_gate_dielectric(stack, stage)
+    if not gate_dielectric:
+        refuse_gate_dielectric(stack, stage)
     return _bands_to_sheets(stack)
 
 

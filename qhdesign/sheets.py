@@ -93,6 +93,11 @@ class SheetModel:
     residual_charge_C_m3
         Charge density of the electrons outside the well layers (wavefunction tails, classical
         electrons) on the same cells as the fixed charge, shape (N,), C/m^3 (<= 0); None: none.
+    gate_dielectric_thickness_m, gate_dielectric_permittivity
+        A charge-free dielectric between the gate metal and the semiconductor (m; relative
+        permittivity) of a gated stack; 0: metal on the semiconductor. The fixed and residual
+        charges start at the semiconductor surface (the dielectric holds none). The FEM stages
+        put the layer under every gate and leave the surface between the gates exposed.
     name, source
         Stack name and the file it came from (for reports and error messages).
     """
@@ -114,6 +119,8 @@ class SheetModel:
     bottom_kind: str = "zero_field"
     bottom_potential_V: float = 0.0
     residual_charge_C_m3: np.ndarray | None = None
+    gate_dielectric_thickness_m: float = 0.0
+    gate_dielectric_permittivity: float = 1.0
     name: str = ""
     source: str = ""
 

@@ -155,6 +155,9 @@ class Stack:
     gap_fraction : float
     permittivity_model : {"alloy", "uniform"}
     uniform_permittivity : float
+    exchange_correlation : {"none", "hedin-lundqvist", "perdew-zunger"}
+        LDA exchange–correlation potential in the 1D Schrödinger equation (``models.
+        exchange_correlation``); see :mod:`qhdesign.sp1d.xc`.
     """
 
     name: str
@@ -168,6 +171,7 @@ class Stack:
     gap_fraction: float = 0.65
     permittivity_model: str = "alloy"
     uniform_permittivity: float = 12.9
+    exchange_correlation: str = "none"
     source: str = field(default="<memory>", compare=False)
     document: dict = field(default_factory=dict, compare=False, repr=False)
     warnings: tuple[str, ...] = field(default=(), compare=False, repr=False)
@@ -367,6 +371,7 @@ class Stack:
                 "gap_fraction": self.gap_fraction,
                 "permittivity": self.permittivity_model,
                 "uniform_permittivity": self.uniform_permittivity,
+                "exchange_correlation": self.exchange_correlation,
             },
             "surface": {
                 "kind": self.surface.kind,

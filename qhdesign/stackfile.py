@@ -210,6 +210,9 @@ def _build(raw: dict, src: str) -> Stack:
     eps_model = _read(models, "permittivity", _MODEL_KEYS["permittivity"], "models", src, "alloy")
     eps_uniform = _read(models, "uniform_permittivity", "number", "models", src, 12.9)
     _in_range(eps_uniform, "permittivity", "models.uniform_permittivity", src)
+    xc_model = _read(
+        models, "exchange_correlation", _MODEL_KEYS["exchange_correlation"], "models", src, "none"
+    )
 
     surface = _build_surface(raw["surface"], src)
     substrate = _build_substrate(raw.get("substrate", {}), src)
@@ -227,6 +230,7 @@ def _build(raw: dict, src: str) -> Stack:
         gap_fraction=gap_fraction,
         permittivity_model=eps_model,
         uniform_permittivity=eps_uniform,
+        exchange_correlation=xc_model,
         source=src,
         document=_normalize(raw),
         warnings=tuple(warns),

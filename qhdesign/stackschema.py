@@ -36,6 +36,7 @@ _MODEL_KEYS: dict[str, Any] = {
     "gap_fraction": "number",
     "permittivity": ("alloy", "uniform"),
     "uniform_permittivity": "number",
+    "exchange_correlation": ("none", "hedin-lundqvist", "perdew-zunger"),
 }
 _SURFACE_KEYS: dict[str, Any] = {
     "kind": ("exposed", "gate"),

@@ -91,6 +91,14 @@ def _filling(value: str | None) -> float | None:
     return nu
 
 
+def _spin_gap(value: str) -> tuple[str, float | None]:
+    """``--spin-gap``: a model name, or an energy (the gap itself)."""
+    text = value.strip().lower()
+    if text in ("bare", "enhanced"):
+        return text, None
+    return "bare", option_quantity(value, "energy", "--spin-gap")
+
+
 def _positive_length(value: str | None, option: str) -> float | None:
     from qhdesign.errors import InputError
 
@@ -124,7 +132,8 @@ def _print_edge(res, stack_name: str) -> None:
         "well",
         "bulk (cm^-2)",
         "depletion width (nm)",
-        "healing 10-90 % (nm)",
+        "rise 10-90 % (nm)",
+        "tail e-fold (nm)",
         "cut under gate",
         "edge shift (nm/V)",
     ):
@@ -138,11 +147,21 @@ def _print_edge(res, stack_name: str) -> None:
             w.name,
             f"{w.bulk_density_m2 * 1e-4:.3g}",
             nm(w.depletion_width_m),
-            nm(w.healing_length_m),
+            nm(w.rise_10_90_m),
+            nm(w.tail_length_m),
             "yes" if w.cut_under_gate else "no",
             nm(w.edge_shift_m_per_V),
         )
     console.print(t)
+    tm = res.tail_model
+    if tm.get("surface_mode_length_m") is not None:
+        console.print(
+            f"far tail: e-folding fitted where |n - n_bulk| is 1 % to 0.01 % of the step; "
+            f"surface mode ({tm['surface']} surface, above {tm['top_sheet']}) "
+            f"{tm['surface_mode_length_m'] * 1e9:.1f} nm (closed form "
+            f"{tm['surface_mode_closed_form_m'] * 1e9:.1f} nm), slowest mode of the section "
+            f"{tm['slowest_mode_length_m'] * 1e9:.1f} nm"
+        )
     if res.settings.field_T:
         if res.edge_velocity_m_per_s is not None:
             console.print(
@@ -160,9 +179,18 @@ def _print_edge(res, stack_name: str) -> None:
             console.print(
                 f"  incompressible strip nu = {s['filling']:g}: "
                 f"centre {s['centre_m'] * 1e9:.1f} nm, "
-                f"width {s['width_m'] * 1e9:.1f} nm, field {s['field_V_per_m']:.3g} V/m, "
-                f"v = {s['velocity_m_per_s']:.3g} m/s ({s['gap_kind']})"
+                f"width {s['width_m'] * 1e9:.1f} nm = {s['width_over_lB']:.2f} l_B, "
+                f"field {s['field_V_per_m']:.3g} V/m, "
+                f"v = {s['velocity_m_per_s']:.3g} m/s ({s['gap_kind']}, "
+                f"{s['gap_J'] / 1.602176634e-22:.3g} meV)"
             )
+            if s["narrower_than_lB"]:
+                crit = res.settings.strip_min_width_lB
+                console.print(
+                    f"    [bold red]FLAG[/bold red] narrower than {crit:g} l_B "
+                    f"(l_B = {s['magnetic_length_m'] * 1e9:.1f} nm): the electrostatic strip "
+                    "model does not hold here"
+                )
     if res.area_change_m2_per_V is not None:
         console.print(f"dA/dV = {res.area_change_m2_per_V * 1e12:.4g} um^2/V for the perimeter")
 
@@ -190,6 +218,18 @@ def register(app: typer.Typer) -> None:
         perimeter: str | None = typer.Option(
             None, "--perimeter", help="Gate perimeter for dA/dV, e.g. '4 um'."
         ),
+        spin_gap: str = typer.Option(
+            "bare",
+            "--spin-gap",
+            help="Odd-integer strip gap: bare (|g*| = 0.44), enhanced (exchange-enhanced "
+            "|g*|, default 6.6), or an energy such as '0.8 meV'.",
+        ),
+        g_effective: float | None = typer.Option(
+            None, "--g-effective", help="|g*| of the enhanced spin gap (implies enhanced)."
+        ),
+        strip_min_lb: float = typer.Option(
+            1.0, "--strip-min-lb", help="Flag strips narrower than this many magnetic lengths."
+        ),
         surface: Surface = None,
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
@@ -200,7 +240,7 @@ def register(app: typer.Typer) -> None:
             None, "--fields", help="Write the potential field for ParaView (XDMF, lengths in nm)."
         ),
     ) -> None:
-        """Depletion edge of STACK_FILE under a gate: width, healing, strips, lever arm."""
+        """Depletion edge of STACK_FILE under a gate: width, rise, tail, strips, lever arm."""
         from qhdesign.section import EdgeSettings, MeshOptions, SolverOptions
 
         v = option_quantity(gate_voltage, "voltage", "--gate-voltage")
@@ -210,7 +250,18 @@ def register(app: typer.Typer) -> None:
         per = _positive_length(perimeter, "--perimeter")
         w = _positive_length(gap, "--gap")
         check_refine(refine)
-        settings = EdgeSettings(v, field_T=b, filling=nu, gap_energy_J=e_gap, perimeter_m=per)
+        gap_model, gap_J = _spin_gap(spin_gap)
+        settings = EdgeSettings(
+            v,
+            field_T=b,
+            filling=nu,
+            gap_energy_J=e_gap,
+            perimeter_m=per,
+            spin_gap=gap_model,
+            g_effective=g_effective,
+            spin_gap_J=gap_J,
+            strip_min_width_lB=strip_min_lb,
+        )
         stack, section, surf = _load_section(stack_file, surface, gate_barrier)
         mesh = MeshOptions(refine=refine)
         opts = SolverOptions(exposed=surf)

@@ -58,22 +58,37 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
     for w in result.wells:
         if w.edge_x_m is not None:
             ax.axvline(w.edge_x_m * 1e9, color=colours[w.name], ls="--", lw=1.0)
+    flagged = False
+    label = (
+        "incompressible strips (ν = "
+        + ", ".join(_nu_text(t["filling"]) for t in result.strips)
+        + ")"
+    )
     for k, s in enumerate(result.strips):
         c = s["centre_m"] * 1e9
         a = s["width_m"] * 1e9
-        label = (
-            "incompressible strips (ν = "
-            + ", ".join(_nu_text(t["filling"]) for t in result.strips)
-            + ")"
-        )
-        ax.axvspan(
-            c - a / 2,
-            c + a / 2,
-            color="tab:purple",
-            alpha=0.25,
-            lw=0,
-            label=label if k == 0 else None,
-        )
+        if s.get("narrower_than_lB"):
+            # the strip model does not hold: hatched in red, labelled with the ratio to l_B
+            flagged = True
+            ax.axvspan(c - a / 2, c + a / 2, facecolor="none", edgecolor="tab:red", hatch="///")
+            ax.annotate(
+                f"\u03bd={_nu_text(s['filling'])}: {s['width_over_lB']:.2g} l$_B$",
+                (c, 0.0),
+                xytext=(0, 12),
+                textcoords="offset points",
+                ha="center",
+                fontsize=7,
+                color="tab:red",
+            )
+        else:
+            ax.axvspan(
+                c - a / 2,
+                c + a / 2,
+                color="tab:purple",
+                alpha=0.25,
+                lw=0,
+                label=label if k == 0 else None,
+            )
     ax.set_xlim(*window_nm)
     ax.set_xlabel("x from the lithographic gate edge (nm)")
     ax.set_ylabel("sheet density (10$^{11}$ cm$^{-2}$)")
@@ -89,7 +104,11 @@ def plot_edge_profiles(result, ax=None, window_nm=_WINDOW_NM):
         ax2.set_ylabel(f"local filling of {result.primary} (dotted)")
         ax2.set_ylim(bottom=0)
     vg = f"{result.settings.gate_voltage_V:g}".replace("-", "\u2212")
-    ax.set_title(f"edge at V$_g$ = {vg} V", fontsize=10)
+    title = f"edge at V$_g$ = {vg} V"
+    if flagged:
+        crit = result.settings.strip_min_width_lB
+        title += f"; hatched red: strip narrower than {crit:g} l$_B$ (model does not hold)"
+    ax.set_title(title, fontsize=10)
     return fig
 
 

@@ -25,12 +25,14 @@ from .geometry import GateLayout, MeshOptions
 from .model import CrossSection, _inverse_tf
 from .profile import (
     EDGE_FRACTION,
+    STRIP_MIN_WIDTH_LB,
     crossing_from_bulk,
+    incompressible_strips,
     interp_at,
     local_filling,
-    strip_width,
 )
 from .solver import CrossSectionSolver, FieldSolution, SolverOptions
+from .tails import TAIL_WINDOW, fit_tail_length, tail_modes, top_mode_length
 
 __all__ = [
     "EdgeResult",
@@ -42,6 +44,19 @@ __all__ = [
 
 #: Gate-voltage step of the finite difference for the edge shift per volt (V).
 VOLTAGE_STEP_V = 0.02
+#: The exchange-enhanced odd-integer spin gap (``spin_gap="enhanced"``) uses 15 times the bare
+#: |g*| of the materials table. Common practice: measured nu = 1 and nu = 3 spin gaps of GaAs
+#: 2DEGs are 10 to 20 times the bare Zeeman gap and grow linearly with B (an enhanced g*; e.g.
+#: D. R. Leadley, R. J. Nicholas, J. J. Harris and C. T. Foxon, arXiv:cond-mat/9805332 (1998)).
+G_ENHANCEMENT = 15.0
+#: Accepted values of ``EdgeSettings.spin_gap``.
+SPIN_GAP_MODELS = ("bare", "enhanced")
+
+
+def bare_g_factor() -> float:
+    """|g*| of GaAs conduction electrons (materials table: -0.44): the Zeeman splitting subtracted
+    from the even-integer gaps, and the odd-integer spin gap with ``spin_gap="bare"``."""
+    return abs(materials.electron_g_factor_gaas())
 
 
 @dataclass(frozen=True)
@@ -62,6 +77,16 @@ class EdgeSettings:
         Gate perimeter for dA/dV (m).
     voltage_step_V
         Step of the finite difference for the edge shift per volt.
+    spin_gap
+        Odd-integer strip gap: ``"bare"`` Zeeman |g*| mu_B B with |g*| = 0.44, or
+        ``"enhanced"`` with the exchange-enhanced ``g_effective`` (default
+        ``G_ENHANCEMENT`` times the bare |g*|, common practice).
+    g_effective
+        |g*| of the enhanced spin gap (implies ``spin_gap="enhanced"``).
+    spin_gap_J
+        The odd-integer gap itself (J), given by the user; overrides ``spin_gap``.
+    strip_min_width_lB
+        Strips narrower than this many magnetic lengths are flagged.
     """
 
     gate_voltage_V: float
@@ -70,8 +95,31 @@ class EdgeSettings:
     gap_energy_J: float | None = None
     perimeter_m: float | None = None
     voltage_step_V: float = VOLTAGE_STEP_V
+    spin_gap: str = "bare"
+    g_effective: float | None = None
+    spin_gap_J: float | None = None
+    strip_min_width_lB: float = STRIP_MIN_WIDTH_LB
 
     def __post_init__(self):
+        if self.spin_gap not in SPIN_GAP_MODELS:
+            raise InputError(
+                f"'{self.spin_gap}' is not a spin-gap model; allowed: bare, enhanced, or an "
+                "energy such as '0.8 meV'",
+                source="option --spin-gap",
+            )
+        if self.g_effective is not None and not 0 < self.g_effective <= 100:
+            raise InputError(
+                f"effective g-factor must lie in (0, 100], got {self.g_effective:g}",
+                source="option --g-effective",
+            )
+        if self.spin_gap_J is not None and not 0 < self.spin_gap_J < 0.1 * sc.e:
+            raise InputError("spin gap must lie between 0 and 100 meV", source="option --spin-gap")
+        if not 0 < self.strip_min_width_lB <= 20:
+            raise InputError(
+                f"strip criterion must lie in (0, 20] magnetic lengths, got "
+                f"{self.strip_min_width_lB:g}",
+                source="option --strip-min-lb",
+            )
         if self.filling is not None and (self.field_T is None or self.field_T == 0.0):
             raise InputError(
                 "a filling needs a magnetic field B > 0 T", key="field_T", related=("filling",)
@@ -105,9 +153,10 @@ class WellEdge:
     gated_density_m2: float
     edge_x_m: float | None
     depletion_width_m: float | None
-    healing_length_m: float | None
+    rise_10_90_m: float | None
     cut_under_gate: bool
     edge_shift_m_per_V: float | None = None
+    tail_length_m: float | None = None
 
     def to_dict(self) -> dict:
         return {
@@ -117,7 +166,10 @@ class WellEdge:
             "gated_density_m2": self.gated_density_m2,
             "edge_position_m": self.edge_x_m,
             "depletion_width_m": self.depletion_width_m,
-            "healing_length_m": self.healing_length_m,
+            "rise_10_90_m": self.rise_10_90_m,
+            "tail_length_m": self.tail_length_m,
+            # old name of rise_10_90_m, kept for existing scripts
+            "healing_length_m": self.rise_10_90_m,
             "cut_under_gate": self.cut_under_gate,
             "edge_shift_m_per_V": self.edge_shift_m_per_V,
         }
@@ -142,12 +194,18 @@ class EdgeResult:
     area_change_m2_per_V: float | None = None
     info: dict = field(default_factory=dict)
     solver: object = field(default=None, repr=False)  # the pass-2 solver (for field output)
+    tail_model: dict = field(default_factory=dict)
 
     def well(self, name: str) -> WellEdge:
         return next(w for w in self.wells if w.name == name)
 
+    def odd_gap(self) -> tuple[float | None, str, float | None]:
+        """The odd-integer gap (J), its kind, and the |g*| used (None for a user gap)."""
+        return _odd_gap(self.settings)
+
     def to_dict(self) -> dict:
         s = self.settings
+        odd_J, odd_kind, odd_g = self.odd_gap()
         return {
             "gate_voltage_V": s.gate_voltage_V,
             "field_T": s.field_T,
@@ -161,11 +219,24 @@ class EdgeResult:
             "edge_field_V_per_m": self.edge_field_V_per_m,
             "edge_velocity_m_per_s": self.edge_velocity_m_per_s,
             "strips": list(self.strips),
+            "strip_model": {
+                "even_gap": "hbar*omega_c - |g*| mu_B B",
+                "g_bare": bare_g_factor(),
+                "odd_gap_kind": odd_kind,
+                "odd_gap_g_effective": odd_g,
+                "odd_gap_J": odd_J,
+                "min_width_magnetic_lengths": s.strip_min_width_lB,
+            },
+            "strips_narrower_than_lB": [
+                st["filling"] for st in self.strips if st.get("narrower_than_lB")
+            ],
             "edge_shift_m_per_V": self.edge_shift_m_per_V,
             "voltage_step_V": s.voltage_step_V,
             "edge_shift_difference": "central",
             "perimeter_m": s.perimeter_m,
             "area_change_m2_per_V": self.area_change_m2_per_V,
+            "tail_window_of_step": list(TAIL_WINDOW),
+            "tail_model": dict(self.tail_model),
             "solver": dict(self.info),
         }
 
@@ -230,6 +301,7 @@ def analyse_edge(sol: FieldSolution, section: CrossSection, edge_m: float = 0.0)
 
         edge = x_at(EDGE_FRACTION * bulk) if cut and bulk > 0 else None
         heal = None
+        tail = None
         base = 0.0 if cut else gated
         if bulk > 0 and abs(bulk - base) > 1e-3 * bulk:
             sign = 1.0 if bulk > base else -1.0
@@ -237,6 +309,7 @@ def analyse_edge(sol: FieldSolution, section: CrossSection, edge_m: float = 0.0)
             x90 = x_at(base + 0.9 * (bulk - base), sign)
             if x10 is not None and x90 is not None:
                 heal = x90 - x10
+            tail = fit_tail_length(sol.x_m, n, bulk, abs(bulk - base))
         out.append(
             WellEdge(
                 name=s.name,
@@ -246,8 +319,9 @@ def analyse_edge(sol: FieldSolution, section: CrossSection, edge_m: float = 0.0)
                 gated_density_m2=gated,
                 edge_x_m=edge,
                 depletion_width_m=None if edge is None else edge - edge_m,
-                healing_length_m=heal,
+                rise_10_90_m=heal,
                 cut_under_gate=bool(cut),
+                tail_length_m=tail,
             )
         )
     return out
@@ -332,6 +406,7 @@ def solve_edge(
             ),
         },
     )
+    result["tail_model"] = tail_model(section, solver.options.exposed)
     if settings.perimeter_m is not None and result["edge_shift_m_per_V"] is not None:
         # the electrons retreat by dx per volt along the whole perimeter
         result["area_change_m2_per_V"] = -settings.perimeter_m * result["edge_shift_m_per_V"]
@@ -381,45 +456,24 @@ def _field_figures(sol: FieldSolution, section, ip: int, settings: EdgeSettings)
             out["edge_field_V_per_m"] = abs(e_x)
             out["edge_velocity_m_per_s"] = abs(e_x) / B
     # incompressible strips (CSG) on the primary well
-    mstar = np.pi * sc.hbar**2 * prim.dos_J_m2
-    hw_c = sc.hbar * sc.e * B / mstar
-    eps_r = _permittivity_at(section, prim.z_m)
-    dndx = np.gradient(n, x)
-    levels: list[tuple[float, float, str]] = []
-    for k in range(1, int(np.ceil(nu_bulk))):
-        if k < nu_bulk:
-            if k % 2 == 0:
-                levels.append((float(k), hw_c, "Landau gap hbar*omega_c"))
-            else:
-                # bare Zeeman gap |g*| mu_B B of GaAs (exchange enhancement ignored)
-                g_star = abs(materials.electron_g_factor_gaas())
-                gap = g_star * sc.physical_constants["Bohr magneton"][0] * B
-                levels.append((float(k), gap, "bare Zeeman gap |g*| mu_B B"))
+    extra: tuple = ()
     if settings.gap_energy_J is not None and settings.filling is not None:
-        if abs(settings.filling - round(settings.filling)) > 1e-9 and settings.filling < nu_bulk:
-            levels.append((settings.filling, settings.gap_energy_J, "user gap"))
-    strips = []
-    for nu_k, gap, why in sorted(levels):
-        xc = crossing_from_bulk(x, nu, nu_k)
-        if xc is None:
-            continue
-        g = interp_at(x, dndx, xc)
-        if not g > 0:
-            continue
-        a = strip_width(eps_r, gap, g)
-        e_strip = gap / (sc.e * a)
-        strips.append(
-            {
-                "filling": nu_k,
-                "gap_J": gap,
-                "gap_kind": why,
-                "centre_m": xc,
-                "width_m": a,
-                "density_gradient_m3": g,
-                "field_V_per_m": e_strip,
-                "velocity_m_per_s": e_strip / B,
-            }
-        )
+        if abs(settings.filling - round(settings.filling)) > 1e-9:
+            extra = ((settings.filling, settings.gap_energy_J, "user gap"),)
+    odd_J, odd_kind, _ = _odd_gap(settings)
+    strips = incompressible_strips(
+        x,
+        n,
+        B,
+        dos_J_m2=prim.dos_J_m2,
+        eps_r=_permittivity_at(section, prim.z_m),
+        g_bare=bare_g_factor(),
+        odd_gap_J=odd_J,
+        odd_gap_kind=odd_kind,
+        extra=extra,
+        min_width_lB=settings.strip_min_width_lB,
+        nu_bulk=nu_bulk,
+    )
     out["strips"] = tuple(strips)
     return out
 
@@ -428,3 +482,53 @@ def _permittivity_at(section: CrossSection, z: float) -> float:
     lz = np.asarray(section.layer_z_m)
     i = int(np.clip(np.searchsorted(lz, z) - 1, 0, lz.size - 2))
     return float(np.asarray(section.layer_permittivity)[i])
+
+
+def _odd_gap(settings: EdgeSettings) -> tuple[float | None, str, float | None]:
+    """Odd-integer strip gap (J), its kind and the |g*| used; gap None without a field."""
+    mu_b = sc.physical_constants["Bohr magneton"][0]
+    B = settings.field_T
+    if settings.spin_gap_J is not None:
+        return settings.spin_gap_J, "user spin gap", None
+    if settings.spin_gap == "enhanced" or settings.g_effective is not None:
+        g = (
+            settings.g_effective
+            if settings.g_effective is not None
+            else G_ENHANCEMENT * bare_g_factor()
+        )
+        kind = "exchange-enhanced Zeeman gap |g_eff| mu_B B"
+    else:
+        g = bare_g_factor()
+        kind = "bare Zeeman gap |g*| mu_B B"
+    return (None if not B else g * mu_b * B), kind, g
+
+
+def tail_model(section: CrossSection, surface: str) -> dict:
+    """Decay lengths of the section's linear Thomas–Fermi modes (:mod:`qhdesign.tf2d.tails`).
+
+    ``surface_mode_length_m``: the mode living above the top filled sheet, the one the gate
+    drives directly (the mode root nearest the closed form); ``surface_mode_closed_form_m``: the
+    closed form 2(d + eps/C_q)/pi (frozen) or (d + eps/C_q)/pi (pinned); ``modes_m``: the
+    slowest modes, longest first (the longest may live below the bottom sheet, with a small
+    amplitude in the upper sheets).
+    """
+    filled = [s for s in section.sheets if s.density_m2 > 0]
+    if not filled:
+        return {}
+    top = min(filled, key=lambda s: s.z_m)
+    lz = np.asarray(section.layer_z_m)
+    eps = np.asarray(section.layer_permittivity)
+    # thickness-weighted permittivity between the surface and the top sheet
+    edges = np.clip(lz, 0.0, top.z_m)
+    eps_above = float(np.sum(np.diff(edges) * eps) / top.z_m)
+    closed = top_mode_length(top.z_m, eps_above, top.dos_J_m2, surface)
+    modes = tail_modes(section, surface, count=8)
+    near = min(modes, key=lambda m: abs(m - closed)) if modes else None
+    return {
+        "surface": surface,
+        "top_sheet": top.name,
+        "surface_mode_length_m": near,
+        "surface_mode_closed_form_m": closed,
+        "slowest_mode_length_m": modes[0] if modes else None,
+        "modes_m": list(modes[:4]),
+    }

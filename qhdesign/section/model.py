@@ -103,6 +103,11 @@ class CrossSection:
         Default treatment of the exposed surface: ``"frozen"`` or ``"pinned"``.
     extra_levels_m
         Depths that must be mesh lines (probe lines for tests), m.
+    gate_dielectric_thickness_m, gate_dielectric_permittivity
+        A charge-free dielectric between every gate and the semiconductor (m; relative
+        permittivity); 0: metal on the semiconductor. Between the gates the surface is exposed.
+        The layer enters as a series capacitance per area eps_0 eps_d / t between the metal and
+        the surface under it (docs/models.md, "Gate dielectric").
     """
 
     layer_z_m: np.ndarray
@@ -119,8 +124,19 @@ class CrossSection:
     bottom_potential_V: float = 0.0
     extra_levels_m: tuple[float, ...] = ()
     surface_mode: str = "frozen"
+    gate_dielectric_thickness_m: float = 0.0
+    gate_dielectric_permittivity: float = 1.0
 
     def __post_init__(self):
+        if not (0.0 <= self.gate_dielectric_thickness_m < 10e-6):
+            raise InputError(
+                "gate dielectric thickness must lie in [0, 10 um)",
+                key="surface.dielectric_thickness",
+            )
+        if not self.gate_dielectric_permittivity >= 1.0:
+            raise InputError(
+                "gate dielectric permittivity must be >= 1", key="surface.dielectric_permittivity"
+            )
         z = np.asarray(self.layer_z_m, dtype=float)
         eps = np.asarray(self.layer_permittivity, dtype=float)
         if z.ndim != 1 or z.size < 2 or np.any(np.diff(z) <= 0):
@@ -192,6 +208,8 @@ def cross_section_from_sheet_model(model, *, gate_barrier_J: float | None = None
         surface_potential_V=float(surface_potential),
         gate_barrier_J=barrier if gate_barrier_J is None else float(gate_barrier_J),
         bottom="gate" if fixed_bottom else "zero_field",
+        gate_dielectric_thickness_m=float(getattr(model, "gate_dielectric_thickness_m", 0.0)),
+        gate_dielectric_permittivity=float(getattr(model, "gate_dielectric_permittivity", 1.0)),
         bottom_potential_V=float(getattr(model, "bottom_potential_V", 0.0))
         if fixed_bottom
         else 0.0,

@@ -236,7 +236,9 @@ class CrossSectionSolver:
         def dofs_of(tag: int) -> np.ndarray:
             return fem.locate_dofs_topological(V, 1, ft.find(tag))
 
-        groups: list[tuple[np.ndarray, str]] = [(dofs_of(TAGS["gate"]), "gate")]
+        # a gate on a dielectric is a Robin condition (series capacitance), not a Dirichlet one
+        on_metal = not self.section.gate_dielectric_thickness_m > 0.0
+        groups: list[tuple[np.ndarray, str]] = [(dofs_of(TAGS["gate"]), "gate")] if on_metal else []
         if self.options.exposed == "pinned" and self._outer is None:
             groups.append((dofs_of(TAGS["exposed"]), "surface"))
         if self.section.bottom == "gate" and self._outer is None:
@@ -250,7 +252,8 @@ class CrossSectionSolver:
             d = dofs_of(TAGS["sheet0"] + i)
             groups.append((d[self._dof_x_m[d] <= x_max + 1e-15], "gate"))
         self._bc_groups = groups
-        all_dofs = np.unique(np.concatenate([g[0] for g in groups])).astype(np.int32)
+        parts = [g[0] for g in groups] or [np.zeros(0, dtype=np.int32)]
+        all_dofs = np.unique(np.concatenate(parts)).astype(np.int32)
         self._bc_dofs = all_dofs
         self.bc = fem.dirichletbc(self._g, all_dofs)
 
@@ -259,6 +262,8 @@ class CrossSectionSolver:
 
     def _set_bc_values(self, gate_voltage_V: float) -> None:
         """Dirichlet values; a dof shared by groups of different value gets their mean."""
+        if hasattr(self, "v_gate"):
+            self.v_gate.value = self._gate_potential(gate_voltage_V)
         total = np.zeros(self._g.x.array.size)
         count = np.zeros(self._g.x.array.size)
         for dofs, kind in self._bc_groups:
@@ -303,6 +308,14 @@ class CrossSectionSolver:
         F -= self.q_lines("+") * v("+") * wS * dS((TAGS["levels"], *sheet_tags))
         F -= self.q_lines * v * (1.0 if wr is None else wr) * ds((TAGS["exposed"], TAGS["bottom"]))
         F -= self.sigma * v * (1.0 if wr is None else wr) * ds(TAGS["exposed"])
+        self.v_gate = fem.Constant(msh, default_scalar_type(0.0))
+        t_d = self.section.gate_dielectric_thickness_m
+        if t_d > 0.0:
+            # gate dielectric as a series capacitance per area: the displacement through the
+            # thin, charge-free layer eps_d (V_metal - phi)/t enters the surface under the gate
+            # (lengths in nm like the mesh)
+            c_d = C_EPS * self.section.gate_dielectric_permittivity / (t_d / NM)
+            F += c_d * (u - self.v_gate) * v * (1.0 if wr is None else wr) * ds(TAGS["gate"])
         self.E = []
         self.D = []
         for i, s in enumerate(self.section.sheets):

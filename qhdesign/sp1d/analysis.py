@@ -95,6 +95,8 @@ def tunnel_splitting(
     i1 = min(int(np.searchsorted(z, bot)), q1)
     zz = z[i0 : i1 + 1]
     u = state.U_J[i0 : i1 + 1]
+    if state.xc_J is not None:
+        u = u + state.xc_J[i0 : i1 + 1]  # the Schrödinger potential includes v_xc
     mass = dev.mass[i0:i1]
     # start from the converged subbands: the lowest one living in each of the two wells
     start = None

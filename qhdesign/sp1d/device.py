@@ -61,6 +61,9 @@ class Device:
         Boundaries at z[0] and z[-1].
     layer_of_cell
         Index of the stack layer of each cell, shape (N,) (-1 in a gate dielectric).
+    xc
+        Exchange–correlation potential of the quantum electrons: ``"none"`` (Hartree only),
+        ``"hedin-lundqvist"`` or ``"perdew-zunger"`` (see :mod:`qhdesign.sp1d.xc`).
     """
 
     z: np.ndarray
@@ -74,6 +77,7 @@ class Device:
     top: Boundary
     bottom: Boundary
     layer_of_cell: np.ndarray = field(default=None)
+    xc: str = "none"
 
     @property
     def h(self) -> np.ndarray:
@@ -87,11 +91,15 @@ class Device:
 
     def node_offset(self) -> np.ndarray:
         """Band offset at the nodes, the control-volume average of the two cells, shape (N+1,)."""
+        return self.node_average(self.offset_J)
+
+    def node_average(self, cell_values: np.ndarray) -> np.ndarray:
+        """Control-volume average at the nodes of a per-cell quantity, shape (N+1,)."""
         h = self.h
         num = np.zeros(len(self.z))
         den = np.zeros(len(self.z))
-        num[:-1] += self.offset_J * h
-        num[1:] += self.offset_J * h
+        num[:-1] += cell_values * h
+        num[1:] += cell_values * h
         den[:-1] += h
         den[1:] += h
         return num / den

@@ -21,7 +21,7 @@ import numpy as np
 from scipy import constants as sc
 from scipy.optimize import brentq
 
-from ..errors import InputError
+from ..errors import ConvergenceError, InputError
 from ..results import Table
 from .analysis import cell_electrons, per_layer, subband_wells
 from .options import BandsOptions
@@ -30,6 +30,8 @@ from .solve import METAL_GATE_NOTE, _check_temperature, check_gate_voltage, free
 __all__ = ["GateResult", "gate_response", "geometric_slope"]
 
 _CM2 = 1e4
+#: Stand-in subband energy above E_F (J) of a threshold probe that found no stable state.
+_EMPTY_J = 1e-3 * sc.e
 
 
 @dataclass(frozen=True)
@@ -254,6 +256,7 @@ def gate_response(
     iters = np.zeros(m, dtype=int)
     prev: list[np.ndarray] = []
     last_psi = None  # previous point's subbands start the next eigen-solve
+    last_state = None  # (and its exchange-correlation potential, if any)
     count = 0
     # every change of a well's state (filled <-> empty) between neighbouring points, with the
     # potentials and subbands at both ends: the thresholds are refined inside these brackets
@@ -275,7 +278,9 @@ def gate_response(
             count_hint=count,
             gated=gated,
             warm_psi=last_psi,
+            xc_guess=None if last_state is None else last_state.xc_J,
         )
+        last_state = st
         count = len(st.energies_J)
         last_psi = st.psi
         prev = [*prev[-1:], st.phi_V]
@@ -300,17 +305,27 @@ def gate_response(
         whose subband lies above every computed one returns the computed ceiling (> 0)."""
         va, vb, pa, pb, psi = bracket
         f = (v - va) / (vb - va)
-        st = solve_at(
-            stack,
-            frozen,
-            float(v),
-            t,
-            opts,
-            phi_guess=(1.0 - f) * pa + f * pb,
-            count_hint=count,
-            gated=gated,
-            warm_psi=psi,
-        )
+        try:
+            st = solve_at(
+                stack,
+                frozen,
+                float(v),
+                t,
+                opts,
+                phi_guess=(1.0 - f) * pa + f * pb,
+                count_hint=count,
+                gated=gated,
+                warm_psi=psi,
+            )
+        except ConvergenceError:
+            if layout.device.xc == "none":
+                raise
+            # With the LDA exchange-correlation potential at low temperature the well's density
+            # drops to zero in a jump (exchange makes a dilute sheet's compressibility
+            # negative): between the end of the filled branch and the empty branch the
+            # iteration may find no stable state. Count such a point as empty, so Brent's
+            # bracket closes on the end of the filled branch (docs/models.md).
+            return _EMPTY_J
         weights = subband_wells(layout, st.psi)[:, list(wells)]
         mine = np.nonzero(np.argmax(weights, axis=1) == k)[0]
         return float(st.energies_J[mine[0]]) if len(mine) else float(st.energies_J[-1])

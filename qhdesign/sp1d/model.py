@@ -178,6 +178,7 @@ def build_device(
         top=top_boundary(stack, 0.0, pinned=True),
         bottom=bottom_boundary(stack),
         layer_of_cell=layer_of_cell,
+        xc=getattr(stack, "exchange_correlation", "none"),
     )
     return DeviceLayout(
         device=dev,

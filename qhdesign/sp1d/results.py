@@ -9,6 +9,7 @@ import numpy as np
 from scipy import constants as sc
 
 from ..results import Table
+from .xc import XC_REFERENCES
 
 __all__ = ["BandsResult", "DopingResult", "Flags", "SubbandResult", "WellResult"]
 
@@ -118,6 +119,8 @@ class BandsResult:
     warnings: tuple[str, ...] = ()
     fermi_level_J: float = 0.0
     other_layers_electrons_m2: dict = field(default_factory=dict)
+    exchange_correlation: str = "none"
+    xc_potential_J: np.ndarray | None = None
 
     def well(self, name: str) -> WellResult:
         """The well called ``name``."""
@@ -145,6 +148,10 @@ class BandsResult:
             "cool_bias_V": self.cool_bias_V,
             "surface_kind": self.surface_kind,
             "fermi_level_eV": self.fermi_level_J / sc.e,
+            "exchange_correlation": {
+                "model": self.exchange_correlation,
+                "reference": XC_REFERENCES.get(self.exchange_correlation, ""),
+            },
             "wells": {
                 w.name: {
                     "role": w.role,
@@ -213,6 +220,13 @@ class BandsResult:
                 "z_m": self.z_m.tolist(),
                 "conduction_band_eV": (self.conduction_band_J / sc.e).tolist(),
                 "electron_density_m3": self.electron_density_m3.tolist(),
+                # LDA exchange-correlation potential energy (zero when the model is "none");
+                # the Schrödinger potential is conduction_band + xc_potential
+                "xc_potential_eV": (
+                    np.zeros_like(self.z_m)
+                    if self.xc_potential_J is None
+                    else self.xc_potential_J / sc.e
+                ).tolist(),
                 # one list per subband, same order as "subbands"; normalised to
                 # sum_j w_j psi_j^2 = 1 with the control-volume widths w_j
                 "psi_m-1/2": self.psi.tolist(),

@@ -33,6 +33,7 @@ from .charge import classical_density, donor_ionized_fraction, subband_dos
 from .device import Device
 from .poisson import PoissonOperator, newton_poisson
 from .schrodinger import control_widths, count_below, refine_subbands, solve_subbands
+from .xc import xc_potential
 
 __all__ = ["SolveOptions", "State", "solve_device"]
 
@@ -110,6 +111,10 @@ class State:
         Largest potential change per outer iteration (V).
     charge_balance_C_m2
         Sum of all charges including the boundaries.
+    xc_J
+        Exchange–correlation potential energy of the quantum electrons at the nodes, shape
+        (N+1,), J (zero outside the quantum region and for ``Device.xc == "none"``). The
+        Schrödinger potential is ``U_J + xc_J``.
     """
 
     phi_V: np.ndarray
@@ -129,6 +134,7 @@ class State:
     positive_charge_C_m2: float
     temperature_K: float
     newton_iterations: int = 0
+    xc_J: np.ndarray | None = None
 
 
 class _Problem:
@@ -176,6 +182,17 @@ class _Problem:
         self.charge_scale = E * max(total_donors, 1e14) + abs(self.q_fixed).sum()
         self.qz = z[q0 : q1 + 1]
         self.q_mass = dev.mass[q0:q1]
+        # local band mass and permittivity at the quantum nodes (effective atomic units of the
+        # exchange-correlation potential)
+        self.xc = dev.xc
+        self.q_node_mass = dev.node_average(dev.mass)[q0 : q1 + 1]
+        self.q_node_eps = dev.node_average(dev.eps)[q0 : q1 + 1]
+
+    def xc_of(self, n_q: np.ndarray) -> np.ndarray:
+        """Exchange–correlation potential energy (J) on the quantum nodes for density n_q (m^-3)."""
+        v = xc_potential(n_q, self.q_node_mass, self.q_node_eps, self.xc)
+        v[0] = v[-1] = 0.0  # psi = 0 on the end nodes
+        return v
 
     def _set_classical(self, left_w, right_w):
         """Half-cell widths counted classically: cell c's left half sits at node c, its right
@@ -269,12 +286,22 @@ class _Problem:
         return q, dq
 
     # ---- Schrödinger -------------------------------------------------------------------
-    def subbands(self, phi, opts: SolveOptions, count_hint: int, warm: np.ndarray | None = None):
+    def subbands(
+        self,
+        phi,
+        opts: SolveOptions,
+        count_hint: int,
+        warm: np.ndarray | None = None,
+        vxc: np.ndarray | None = None,
+    ):
         """Subbands at ``phi``: as many as lie below the cutoff plus one (at least
         ``opts.min_subbands``). ``warm``: the previous iteration's wavefunctions on the
-        quantum grid, shape (S, Nq); tried first (certified warm-started solve)."""
+        quantum grid, shape (S, Nq); tried first (certified warm-started solve). ``vxc``:
+        exchange–correlation potential energy on the quantum nodes (J), added to U."""
         sl = slice(self.q0, self.q1 + 1)
         u = self.node_offset[sl] - E * phi[sl]
+        if vxc is not None:
+            u = u + vxc
         n_int = self.q1 - self.q0 - 1
         target = opts.cutoff_kT * self.kT + opts.cutoff_J
         got = None if warm is None else refine_subbands(self.qz, u, self.q_mass, warm)
@@ -341,6 +368,7 @@ def solve_device(
     options: SolveOptions | None = None,
     count_hint: int = 0,
     warm_psi: np.ndarray | None = None,
+    xc_guess: np.ndarray | None = None,
 ) -> State:
     """Self-consistent Schrödinger–Poisson solve of ``dev`` at ``temperature``.
 
@@ -363,6 +391,10 @@ def solve_device(
         Wavefunctions of a previous solve on the quantum grid, shape (S, Nq), as the start of
         the first warm-started eigen-solve (later iterations start from their predecessor).
         Only the speed depends on it: the subbands are certified or solved cold.
+    xc_guess
+        Exchange–correlation potential energy (J, shape (N+1,)) of a previous solve to start
+        from (with ``Device.xc != "none"``). Without it, a warm start takes v_xc from the
+        density of the subbands at ``phi_guess``, a cold start from the semiclassical guess.
 
     Returns
     -------
@@ -407,9 +439,26 @@ def solve_device(
             charge_scale=prob.charge_scale,
             tol_V=1e-4,
         )
+        if dev.xc != "none":
+            # exchange-correlation of the first Schrödinger solve from this semiclassical density
+            s_cl, _ = prob.classical(phi)
+            n_start = (s_cl / prob.w)[prob.q0 : prob.q1 + 1]
         prob._set_classical(*saved)
 
     sl = slice(prob.q0, prob.q1 + 1)
+    use_xc = dev.xc != "none"
+    nq_nodes = prob.q1 - prob.q0 + 1
+    vxc = np.zeros(nq_nodes)
+    if use_xc:
+        if xc_guess is not None:
+            vxc = np.array(xc_guess[sl], dtype=float)
+        elif phi_guess is None:
+            vxc = prob.xc_of(n_start)
+        else:
+            # density of the subbands at the guessed potential (Hartree only) seeds v_xc
+            en0, psi0, m0 = prob.subbands(phi, opts, count_hint, warm=warm_psi)
+            n0_fn = prob.quantum_predictor(en0, psi0**2 * subband_dos(m0)[:, None], phi.copy())
+            vxc = prob.xc_of(n0_fn(phi)[0])
     residuals: list[float] = []
     charge_res: list[float] = []
     count = count_hint
@@ -418,7 +467,7 @@ def solve_device(
     hist_x: list[np.ndarray] = []
     hist_g: list[np.ndarray] = []
     for it in range(1, opts.max_iterations + 1):
-        en, psi, m_sub = prob.subbands(phi, opts, count, warm=warm)
+        en, psi, m_sub = prob.subbands(phi, opts, count, warm=warm, vxc=vxc if use_xc else None)
         warm = psi
         count = len(en)
         psi2_dos = psi**2 * subband_dos(m_sub)[:, None]
@@ -447,16 +496,24 @@ def solve_device(
         )
         newton_total += n_newton
         change = float(np.max(np.abs(phi_new - phi)))
-        phi_next = phi_new
+        # the iterated state: the potential, and with exchange-correlation also v_xc (in V) on
+        # the quantum nodes, recomputed from the predictor's density at the new potential
+        x_cur, x_new = phi, phi_new
+        if use_xc:
+            vxc_new = prob.xc_of(n_fn(phi_new)[0])
+            change = max(change, float(np.max(np.abs(vxc_new - vxc))) / E)
+            x_cur = np.concatenate([phi, vxc / E])
+            x_new = np.concatenate([phi_new, vxc_new / E])
+        x_next = x_new
         if opts.anderson_depth > 0:
-            # Anderson acceleration of the outer fixed-point map phi -> G(phi) (G: Schrödinger
+            # Anderson acceleration of the outer fixed-point map x -> G(x) (G: Schrödinger
             # solve + predictor Newton). Restart when the change grows (outside the
             # contractive regime the extrapolation is not trusted).
             if residuals and change > 2.0 * residuals[-1]:
                 hist_x.clear()
                 hist_g.clear()
-            hist_x.append(phi.copy())
-            hist_g.append(phi_new.copy())
+            hist_x.append(x_cur.copy())
+            hist_g.append(x_new.copy())
             del hist_x[: -(opts.anderson_depth + 1)], hist_g[: -(opts.anderson_depth + 1)]
             if len(hist_x) >= 2:
                 f_cols = np.array([g - x for g, x in zip(hist_g, hist_x, strict=True)]).T
@@ -464,9 +521,11 @@ def solve_device(
                 d_f = np.diff(f_cols, axis=1)
                 d_g = np.diff(g_cols, axis=1)
                 gamma, *_ = np.linalg.lstsq(d_f, f_cols[:, -1], rcond=None)
-                phi_next = phi_new - d_g @ gamma
+                x_next = x_new - d_g @ gamma
         residuals.append(change)
-        phi = phi_next
+        phi = x_next[: len(phi)]
+        if use_xc:
+            vxc = x_next[len(phi) :] * E
         if not np.all(np.isfinite(phi)):
             raise ConvergenceError(
                 "1D Schrödinger–Poisson", it, residuals, "V", reason="potential not finite"
@@ -495,6 +554,9 @@ def solve_device(
     positive = float(qd.sum() + max(prob.q_fixed.sum(), 0.0) + max(top, 0) + max(bottom, 0))
     psi_full = np.zeros((len(en), len(phi)))
     psi_full[:, sl] = psi
+    xc_full = np.zeros(len(phi))
+    if use_xc:
+        xc_full[sl] = vxc
     return State(
         phi_V=phi,
         U_J=prob.node_offset - E * phi,
@@ -513,4 +575,5 @@ def solve_device(
         charge_balance_C_m2=balance,
         positive_charge_C_m2=positive,
         temperature_K=float(temperature),
+        xc_J=xc_full,
     )

@@ -94,12 +94,24 @@ def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
             "bottom_kind": "dirichlet",
             "bottom_potential_V": float((offset - u_bottom) / sc.e),
         }
+    # a gate dielectric (z < 0 on the 1D grid) holds no charge: the columns start at the surface
+    keep = np.asarray(r.cell_centres_m, dtype=float) > 0.0
+    nodes = np.asarray(r.z_m, dtype=float)
+    t_d = float(getattr(surf, "dielectric_thickness", 0.0) or 0.0) if surf.kind == "gate" else 0.0
+    dielectric = {
+        "gate_dielectric_thickness_m": t_d,
+        "gate_dielectric_permittivity": float(getattr(surf, "dielectric_permittivity", 1.0))
+        if t_d > 0.0
+        else 1.0,
+    }
+    if residual is not None:
+        residual = residual[keep]
     return SheetModel(
         sheets=tuple(sheets),
         temperature_K=float(r.temperature_K),
-        fixed_charge_z_m=np.asarray(r.cell_centres_m, dtype=float).copy(),
-        fixed_charge_C_m3=np.asarray(r.fixed_charge_C_m3, dtype=float).copy(),
-        fixed_charge_edges_m=np.asarray(r.z_m, dtype=float).copy(),
+        fixed_charge_z_m=np.asarray(r.cell_centres_m, dtype=float)[keep].copy(),
+        fixed_charge_C_m3=np.asarray(r.fixed_charge_C_m3, dtype=float)[keep].copy(),
+        fixed_charge_edges_m=nodes[nodes >= -1e-15].copy(),
         substrate_kind=str(stack.substrate.kind),
         surface_charge_C_m2=float(r.surface_charge_C_m2) if surf.kind == "exposed" else 0.0,
         surface_kind=str(surf.kind),
@@ -113,4 +125,5 @@ def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
         name=str(getattr(stack, "name", "") or ""),
         source=str(getattr(stack, "source", "") or ""),
         **bottom,
+        **dielectric,
     )

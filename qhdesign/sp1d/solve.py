@@ -16,7 +16,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy import constants as sc
 
-from ..errors import InputError
+from ..errors import ConvergenceError, InputError
 from .analysis import build_results
 from .model import DeviceLayout, build_device, top_boundary
 from .options import BandsOptions
@@ -127,13 +127,20 @@ def solve_at(
     count_hint: int = 0,
     gated: bool = False,
     warm_psi: np.ndarray | None = None,
+    xc_guess: np.ndarray | None = None,
 ) -> State:
     """One solve with the frozen charge at ``gate_voltage`` and ``temperature``.
 
     ``gated=True`` on an exposed surface lays a metal gate (same barrier) on it. The first
     eigen-solve starts from ``warm_psi`` (full-grid wavefunctions, shape (S, N+1)) or the
     freeze-out subbands; this changes only the speed (see
-    :func:`~qhdesign.sp1d.schrodinger.refine_subbands`).
+    :func:`~qhdesign.sp1d.schrodinger.refine_subbands`). ``xc_guess``: the exchange–correlation
+    potential of a previous solve (J, full grid) to start from.
+
+    With an exchange–correlation potential, a warm-started solve that does not converge is
+    retried once from the freeze-out potential: near a well's threshold at millikelvin
+    temperatures the LDA makes the well's density drop steeply (exchange lowers its
+    compressibility), and an extrapolated start can land between the two branches.
     """
     surf = stack.surface
     layout = frozen.layout
@@ -145,16 +152,27 @@ def solve_at(
         top = top_boundary(stack, gate_voltage, pinned=True)
     dev = layout.device.with_boundaries(top=top)
     try:
-        return _solve_frozen(dev, temperature, frozen, phi_guess, options, count_hint, warm_psi)
+        try:
+            return _solve_frozen(
+                dev, temperature, frozen, phi_guess, options, count_hint, warm_psi, xc_guess
+            )
+        except ConvergenceError:
+            if dev.xc == "none" or phi_guess is None:
+                raise
+            return _solve_frozen(dev, temperature, frozen, None, options, count_hint, None, None)
     except InputError as exc:  # name the stack file the refusal is about
         if exc.source is None:
             raise InputError(exc.message, source=stack.source, key=exc.key) from None
         raise
 
 
-def _solve_frozen(dev, temperature, frozen, phi_guess, options, count_hint, warm_psi):
+def _solve_frozen(
+    dev, temperature, frozen, phi_guess, options, count_hint, warm_psi, xc_guess=None
+):
     q0, q1 = frozen.layout.device.quantum
     guess = frozen.state.phi_V if phi_guess is None else phi_guess
+    if phi_guess is None and xc_guess is None:
+        xc_guess = frozen.state.xc_J
     return solve_device(
         dev,
         temperature,
@@ -163,6 +181,7 @@ def _solve_frozen(dev, temperature, frozen, phi_guess, options, count_hint, warm
         options=options.solve,
         count_hint=count_hint,
         warm_psi=(frozen.state.psi if warm_psi is None else warm_psi)[:, q0 : q1 + 1],
+        xc_guess=xc_guess if dev.xc != "none" else None,
     )
 
 
@@ -322,4 +341,6 @@ def assemble(
         quantum_region_m=(float(dev.z[dev.quantum[0]]), float(dev.z[dev.quantum[1]])),
         warnings=tuple(warn),
         other_layers_electrons_m2=others,
+        exchange_correlation=dev.xc,
+        xc_potential_J=None if st.xc_J is None else st.xc_J.copy(),
     )

@@ -26,6 +26,7 @@ MOVED = {
     "solver": "qhdesign.section.solver",
     "island": "qhdesign.island.conductor",
     "from_stack": "qhdesign.pipeline",
+    "tails": "qhdesign.section.tails",
 }
 #: Public names of the old package -> the module that holds them now (None: its __all__).
 NAMES = {

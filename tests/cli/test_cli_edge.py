@@ -175,3 +175,44 @@ def test_pinchoff_without_electrons_exit_2(cli_runner, app, tmp_path):
     undoped.write_text(re.sub(r'sheet = "[^"]*"', 'sheet = "1e6 cm^-2"', text))
     r = cli_runner.invoke(app, ["pinchoff", str(undoped), "--gap", "300 nm"])
     assert "no electrons" in _one_line_error(r)
+
+
+def test_edge_flags_strips_narrower_than_the_magnetic_length(
+    cli_runner, app, screened_path, tmp_path
+):
+    # at 10 T, l_B = sqrt(hbar/eB) = 8.11 nm (analytic); a 0.1 meV nu = 1/3 gap gives a CSG strip
+    # of a few nm on the demo edge: the flag must appear in the text, the JSON and the plot
+    out = tmp_path / "edge.json"
+    args = ["edge", str(screened_path), "--gate-voltage", "-1.0", "--field", "10 T"]
+    args += ["--filling", "1/3", "--gap-energy", "0.1 meV", "--spin-gap", "enhanced"]
+    args += ["--json", str(out), "--plot", str(tmp_path / "edge.png")]
+    r = cli_runner.invoke(app, args)
+    assert r.exit_code == 0, r.output
+    data = json.loads(out.read_text())
+    l_b = (1.054571817e-34 / (1.602176634e-19 * 10.0)) ** 0.5
+    strips = {round(s["filling"], 6): s for s in data["strips"]}
+    s13 = strips[round(1 / 3, 6)]
+    assert s13["magnetic_length_m"] == pytest.approx(l_b, rel=1e-9)
+    assert s13["narrower_than_lB"] == (s13["width_m"] < l_b)
+    assert s13["narrower_than_lB"]
+    assert data["strips_narrower_than_lB"] == [
+        s["filling"] for s in data["strips"] if s["narrower_than_lB"]
+    ]
+    assert data["strip_model"]["odd_gap_kind"].startswith("exchange-enhanced")
+    assert data["strip_model"]["min_width_magnetic_lengths"] == 1.0
+    assert "narrower than 1 l_B" in r.output
+    assert (tmp_path / "edge.png").stat().st_size > 10_000
+
+
+@pytest.mark.parametrize(
+    ("args", "needle"),
+    [
+        (["--spin-gap", "huge"], "--spin-gap"),
+        (["--spin-gap", "-1 meV"], "--spin-gap"),
+        (["--g-effective", "0"], "--g-effective"),
+        (["--strip-min-lb", "0"], "--strip-min-lb"),
+    ],
+)
+def test_edge_bad_strip_options_exit_2(cli_runner, app, screened_path, args, needle):
+    r = cli_runner.invoke(app, ["edge", str(screened_path), "--gate-voltage", "-1", *args])
+    assert needle in _one_line_error(r)

@@ -28,8 +28,8 @@ def pair():
 def test_healing_length_converged(pair):
     a, b = pair
     for w, wf in zip(a.wells, b.wells, strict=True):
-        assert w.healing_length_m is not None
-        assert abs(w.healing_length_m - wf.healing_length_m) < 1e-9  # < 1 nm
+        assert w.rise_10_90_m is not None
+        assert abs(w.rise_10_90_m - wf.rise_10_90_m) < 1e-9  # < 1 nm
 
 
 def test_edge_shift_per_volt_converged(pair):

@@ -118,3 +118,15 @@ def test_range_errors_show_the_value_in_the_unit_of_the_range():
         loads_stack(text, source="b.toml")
     msg = str(info.value)
     assert "value 5 eV is out of range" in msg and "from -0.5 to 3 eV" in msg
+
+
+def test_exchange_correlation_key_reads_validates_and_sweeps():
+    text = SCREENED.read_text()
+    stack = loads_stack(text + '\n[models]\nexchange_correlation = "perdew-zunger"\n')
+    assert stack.exchange_correlation == "perdew-zunger"
+    assert stack.to_dict()["models"]["exchange_correlation"] == "perdew-zunger"
+    assert load_stack(SCREENED).exchange_correlation == "none"
+    assert stack.with_value("models.exchange_correlation", "none").exchange_correlation == "none"
+    with pytest.raises(StackError, match=r"models\.exchange_correlation") as exc:
+        loads_stack(text + '\n[models]\nexchange_correlation = "slater"\n')
+    assert "hedin-lundqvist" in str(exc.value)
