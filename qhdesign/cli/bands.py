@@ -331,14 +331,21 @@ def register(app: typer.Typer) -> None:
         res = calibrate(
             stack, parameter, target=target, well=well, measured=measured, bracket=bracket
         )
-        typer.echo(
-            f"{parameter}: fitted {res.fitted_value:.6g} (SI), was {res.initial_value:.6g}; "
-            f"reproduces the measured {target} of {res.well} "
-            f"({res.achieved:.6g} vs {res.measured:.6g} SI) after {res.evaluations} solves"
-        )
         from qhdesign.io import atomic_write_json, atomic_write_text
+        from qhdesign.stackedit import edit_value, format_in_unit, unit_in_file
 
-        atomic_write_text(out, res.stack.to_toml())
+        # the stack file edited in place: comments kept, the value in the file's own unit
+        text = Path(stack_file).read_text(encoding="utf-8")
+        edited, written = edit_value(text, stack, parameter, res.fitted_value)
+        was = format_in_unit(res.initial_value, unit_in_file(text, stack, parameter))
+        unit = "V" if target == "threshold" else "cm^-2"
+        what = "depletion threshold" if target == "threshold" else "density"
+        typer.echo(
+            f"{parameter}: {was} -> {written}; reproduces the measured {what} of {res.well}: "
+            f"{format_in_unit(res.achieved, unit)} (measured {format_in_unit(res.measured, unit)}) "
+            f"after {res.evaluations} solves"
+        )
+        atomic_write_text(out, edited)
         typer.echo(f"wrote {out}")
         if json_out is not None:
             atomic_write_json(json_out, res.to_dict())
