@@ -32,9 +32,9 @@ def one(refine: float) -> dict:
     """Island solve at ``refine`` in this process (1D stage outside the timing)."""
     from mpi4py import MPI  # noqa: F401  (before dolfinx)
 
+    from qhdesign.island import solve_island
     from qhdesign.sp1d import sheet_model, solve_bands
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d import solve_island
 
     stack = load_stack(STACK)
     t0 = time.perf_counter()

@@ -26,15 +26,15 @@ STACK = ROOT / "stacks" / "ql2417_screened.toml"
 
 
 def _section():
+    from qhdesign.pipeline import section_from_stack
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d import section_from_stack
 
     return section_from_stack(load_stack(STACK))
 
 
 def edge_run() -> dict:
-    import qhdesign.tf2d.solver as solver_mod
-    from qhdesign.tf2d import EdgeSettings, solve_edge
+    import qhdesign.section.solver as solver_mod
+    from qhdesign.section import EdgeSettings, solve_edge
 
     section = _section()
     solve_edge(section, EdgeSettings(-1.0))  # warm-up: JIT forms into the cache
@@ -70,7 +70,7 @@ def edge_run() -> dict:
 
 
 def scaling_run(refine: float, linear_solver: str) -> dict:
-    from qhdesign.tf2d import CrossSectionSolver, GateLayout, MeshOptions, SolverOptions
+    from qhdesign.section import CrossSectionSolver, GateLayout, MeshOptions, SolverOptions
 
     section = _section()
     t0 = time.perf_counter()

@@ -1,7 +1,7 @@
 """The island stage seen as interferometer figures: one thin adapter for ``island``, ``size`` and
 the sweep stage.
 
-:func:`island_figures` solves the island (whatever model :func:`qhdesign.tf2d.solve_island`
+:func:`island_figures` solves the island (whatever model :func:`qhdesign.pipeline.solve_island`
 implements) and turns its energies and areas into the figures of :mod:`qhdesign.interferometer`
 at given quantum Hall conditions. It reads the island result through :func:`_areas` and the
 ``K_*`` attributes only, so a new island model that reports its own areas (``A_I_m2``,
@@ -103,15 +103,15 @@ def island_column(stack):
     1D stage again).
     """
     try:
-        from qhdesign.tf2d.island import _column
+        from qhdesign.pipeline import island_column_from_stack
     except ImportError:  # another island model: let solve_island take the stack
         return stack
-    return _column(stack)
+    return island_column_from_stack(stack)
 
 
 def _is_column(source) -> bool:
     try:
-        from qhdesign.tf2d import IslandColumn
+        from qhdesign.island import IslandColumn
     except ImportError:
         return False
     return isinstance(source, IslandColumn)
@@ -197,7 +197,8 @@ def figures_from_result(res, cond: QHConditions, bulk_density_m2: float | None =
 def edge_lever_arm(stack, gate_voltage_V: float, field_T: float, filling: float) -> dict:
     """Edge shift per volt (m/V) and edge velocity (m/s) from the 2D edge stage at the gate
     voltage, field and filling (one straight-edge solve; the shift is independent of R)."""
-    from qhdesign.tf2d import EdgeSettings, section_from_stack, solve_edge
+    from qhdesign.pipeline import section_from_stack
+    from qhdesign.section import EdgeSettings, solve_edge
 
     res = solve_edge(
         section_from_stack(stack),
@@ -219,12 +220,12 @@ def island_figures(
 ) -> dict:
     """Solve the island of ``source`` (stack or column) and return its figures (flat, SI).
 
-    ``island_options`` are those of :func:`qhdesign.tf2d.solve_island` (``radius``,
+    ``island_options`` are those of :func:`qhdesign.pipeline.solve_island` (``radius``,
     ``ring_width``, ``gate_offset``, ``split_gap``, ``screening``, ``surface``, ``far``,
     ``outer_well``, ``refine``, ...). With ``keep_result`` the island result is returned under
     ``"_result"``.
     """
-    from qhdesign.tf2d import solve_island
+    from qhdesign.pipeline import solve_island
 
     column = source if _is_column(source) else island_column(source)
     res = solve_island(column, comm=comm, **island_options)
@@ -296,7 +297,7 @@ def split_island_options(
             raise InputError(exc.message, **_where("gap_kind", source_prefix)) from None
         opts["gap"] = f"{gap!r} J"
         kw["gap_qp_J"] = gap
-    from qhdesign.tf2d.island import parse_filling
+    from qhdesign.island.conductor import parse_filling
 
     nu = parse_filling(opts.get("filling")) if opts.get("filling") is not None else None
     if nu is None:
@@ -320,7 +321,8 @@ def conditions_from_edge(stack, cond: QHConditions, gate_voltage_V: float, comm=
     if B is None:
         col = island_column(stack)
         B = col.primary.density_m2 * itf.PHI0 / cond.filling
-    from qhdesign.tf2d import EdgeSettings, section_from_stack, solve_edge
+    from qhdesign.pipeline import section_from_stack
+    from qhdesign.section import EdgeSettings, solve_edge
 
     kw = {} if comm is None else {"comm": comm}
     res = solve_edge(

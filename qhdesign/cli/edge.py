@@ -17,8 +17,8 @@ from .common import guarded, option_quantity, warn
 
 def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
     from qhdesign.errors import InputError
+    from qhdesign.pipeline import section_from_stack
     from qhdesign.stack import load_stack
-    from qhdesign.tf2d import section_from_stack
 
     stack = load_stack(stack_file)
     barrier = option_quantity(gate_barrier, "energy", "--gate-barrier")
@@ -78,7 +78,7 @@ def _positive_length(value: str | None, option: str) -> float | None:
 
 
 def _is_root() -> bool:
-    from qhdesign.tf2d.backend import load
+    from qhdesign.fem.backend import load
 
     MPI, _ = load()
     return MPI.COMM_WORLD.rank == 0
@@ -189,7 +189,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Depletion edge of STACK_FILE under a gate: width, healing, strips, lever arm."""
         from qhdesign.errors import InputError
-        from qhdesign.tf2d import EdgeSettings, MeshOptions, SolverOptions
+        from qhdesign.section import EdgeSettings, MeshOptions, SolverOptions
 
         v = option_quantity(gate_voltage, "voltage", "--gate-voltage")
         b = _field(field)
@@ -211,7 +211,7 @@ def register(app: typer.Typer) -> None:
         if w is not None:
             _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields)
             return
-        from qhdesign.tf2d import solve_edge
+        from qhdesign.section import solve_edge
 
         res = solve_edge(section, settings, mesh, opts)
         if fields is not None:  # collective: every rank writes its part
@@ -264,7 +264,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Centre density of a split-gate constriction vs gate voltage; pinch-off per well."""
         from qhdesign.errors import InputError
-        from qhdesign.tf2d import MeshOptions, SolverOptions, solve_pinchoff
+        from qhdesign.section import MeshOptions, SolverOptions, solve_pinchoff
 
         w = _positive_length(gap, "--gap")
         a = option_quantity(v_start, "voltage", "--from")
@@ -336,7 +336,7 @@ def register(app: typer.Typer) -> None:
 
 
 def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields):
-    from qhdesign.tf2d import solve_constriction
+    from qhdesign.section import solve_constriction
 
     res = solve_constriction(section, w, v, mesh, opts)
     if fields is not None:  # collective: every rank writes its part

@@ -121,7 +121,7 @@ def register(app: typer.Typer) -> None:
         periods (with propagated uncertainties)."""
         from qhdesign.errors import InputError
         from qhdesign.interpretation import Measured, Measurement, interpret_measurement
-        from qhdesign.tf2d.island import parse_filling
+        from qhdesign.island.conductor import parse_filling
 
         nu = parse_filling(filling)
         try:

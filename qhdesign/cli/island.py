@@ -94,10 +94,11 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Capacitance matrix, K_I, K_L, K_IL and charging energy of an island in STACK_FILE."""
         from qhdesign.errors import InputError
+        from qhdesign.fem.backend import load
+        from qhdesign.island import IslandGeometry
+        from qhdesign.island.conductor import parse_filling
+        from qhdesign.pipeline import solve_island
         from qhdesign.stack import load_stack
-        from qhdesign.tf2d import IslandGeometry, solve_island
-        from qhdesign.tf2d.backend import load
-        from qhdesign.tf2d.island import parse_filling
 
         geometry = IslandGeometry(
             radius_m=option_quantity(radius, "length", "--radius"),

@@ -13,7 +13,7 @@ def plot_island(result, axes=None):
     Parameters
     ----------
     result
-        :class:`qhdesign.tf2d.IslandResult` with its solution kept.
+        :class:`qhdesign.island.IslandResult` with its solution kept.
     axes
         Optional pair of matplotlib axes.
 

@@ -1,93 +1,25 @@
-"""Per-well sheet model handed from the 1D Schrödinger–Poisson stage to the 2D Thomas–Fermi stage.
+"""Build the sheet model (:class:`qhdesign.sheets.SheetModel`, the contract with the FEM stages)
+from a 1D Schrödinger–Poisson solution.
 
 Each quantum well becomes a charged sheet at its wavefunction-weighted charge centroid, with the
-2D density of states of its material. The frozen fixed charge (donors, plus the surface charge of an
-exposed surface) is passed on as a cell-centred density on the 1D grid. Energy zero: the Fermi
-level of the grounded 2DEG.
+2D density of states of its material. The frozen fixed charge (donors) and the electrons outside
+the well layers are passed on as cell densities on the 1D grid; the surface potential is the 1D
+solution's own, and a back gate or a pinned substrate becomes a fixed-potential bottom.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
+from scipy import constants as sc
+
+from qhdesign.sheets import SheetModel, WellSheet
 
 if TYPE_CHECKING:  # pragma: no cover
     from .results import BandsResult
 
 __all__ = ["SheetModel", "WellSheet", "sheet_model"]
-
-
-@dataclass(frozen=True)
-class WellSheet:
-    """One quantum well reduced to a charged sheet.
-
-    Attributes
-    ----------
-    name, role
-        Layer name and role (``"primary"`` or ``"screening"``).
-    z_m
-        Charge centroid depth (m, positive down); for an empty well the centroid of its lowest
-        subband's probability density.
-    density_m2
-        Sheet density from the 1D solve the model was built from (zero gate bias), m^-2.
-    dos_J_m2
-        2D density of states m*/(pi hbar^2) with spin degeneracy 2, J^-1 m^-2.
-    z_top_m, z_bottom_m
-        The well layer's extent (m).
-    subband_energy_J
-        Lowest subband energy of this well relative to the Fermi level (J).
-    """
-
-    name: str
-    role: str
-    z_m: float
-    density_m2: float
-    dos_J_m2: float
-    z_top_m: float
-    z_bottom_m: float
-    subband_energy_J: float = float("nan")
-
-
-@dataclass(frozen=True)
-class SheetModel:
-    """Everything the 2D Thomas–Fermi stage needs from the 1D stage.
-
-    Attributes
-    ----------
-    sheets
-        Wells top to bottom.
-    temperature_K
-        Solve temperature (K).
-    fixed_charge_z_m, fixed_charge_C_m3
-        Cell centres of the 1D grid, shape (N,), and the frozen donor charge density there (C/m^3).
-    fixed_charge_edges_m
-        The 1D grid's nodes, shape (N+1,): the cells' true edges (on a graded grid these are not
-        the midpoints between centres).
-    substrate_kind
-        The stack's bottom boundary (``"deep"``, ``"back_gate"``, ``"pinned"``).
-    surface_charge_C_m2
-        Frozen surface charge of an exposed surface (0 for a gate or a pinned surface), C/m^2.
-    surface_kind, surface_barrier_J, surface_bias_V
-        Top boundary as in the stack.
-    layer_z_m, layer_permittivity
-        Layer boundaries, shape (L+1,), and relative permittivities, shape (L,).
-    """
-
-    sheets: tuple[WellSheet, ...]
-    temperature_K: float
-    fixed_charge_z_m: np.ndarray
-    fixed_charge_C_m3: np.ndarray
-    surface_charge_C_m2: float
-    surface_kind: str
-    surface_barrier_J: float
-    surface_bias_V: float
-    layer_z_m: np.ndarray
-    layer_permittivity: np.ndarray
-    surface_charge_mode: str = "frozen"
-    fixed_charge_edges_m: np.ndarray | None = None
-    substrate_kind: str | None = None
 
 
 def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
@@ -123,6 +55,33 @@ def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
     layer_z = np.array([p.z_top for p in prof] + [prof[-1].z_bottom], dtype=float)
     layer_eps = np.array([p.permittivity for p in prof], dtype=float)
     surf = stack.surface
+    # Potential convention: phi = -(U - E_c0(z) + E_c0(surface layer))/e, so that phi = V_g -
+    # Phi_B/e under a gate. The far-field surface potential is the 1D solution's own -U(0)/e
+    # (for a frozen surface it differs from the pinned level by the low-temperature
+    # redistribution).
+    z = np.asarray(r.z_m)
+    u = np.asarray(r.conduction_band_J)
+    surface_potential = float(-u[int(np.argmin(np.abs(z)))] / sc.e)
+    # Electrons outside the well layers (wavefunction tails, classical electrons) are in no
+    # sheet: they are passed on where the 1D solution has them, so the column carries every charge.
+    residual = None
+    n_node = np.asarray(getattr(r, "electron_density_m3", np.zeros(0)), dtype=float)
+    zc = np.asarray(r.cell_centres_m, dtype=float)
+    if n_node.size == z.size and z.size == zc.size + 1:
+        n_cell = 0.5 * (n_node[1:] + n_node[:-1])
+        for w in r.wells:
+            n_cell[(zc >= w.z_top_m) & (zc <= w.z_bottom_m)] = 0.0
+        residual = -(sc.e * n_cell)
+    # A back gate or a pinned substrate fixes the potential at the bottom of the last layer.
+    sub = stack.substrate
+    bottom = {"bottom_kind": "zero_field", "bottom_potential_V": 0.0}
+    if sub.kind in ("back_gate", "pinned"):
+        u_bottom = sub.barrier - (sc.e * sub.bias if sub.kind == "back_gate" else 0.0)
+        offset = prof[-1].band_offset - prof[0].band_offset
+        bottom = {
+            "bottom_kind": "dirichlet",
+            "bottom_potential_V": float((offset - u_bottom) / sc.e),
+        }
     return SheetModel(
         sheets=tuple(sheets),
         temperature_K=float(r.temperature_K),
@@ -137,4 +96,9 @@ def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
         layer_z_m=layer_z,
         layer_permittivity=layer_eps,
         surface_charge_mode=str(getattr(surf, "charge", "frozen")),
+        surface_potential_V=surface_potential,
+        residual_charge_C_m3=residual,
+        name=str(getattr(stack, "name", "") or ""),
+        source=str(getattr(stack, "source", "") or ""),
+        **bottom,
     )

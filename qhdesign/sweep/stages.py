@@ -5,8 +5,9 @@ A stage takes a validated :class:`~qhdesign.stack.Stack` and its options and ret
 Stage modules are imported only when a stage is first used, in the process that evaluates it.
 
 Built-in names: ``capacitor`` (closed-form lever arms, always available), ``bands`` and ``gate``
-(1D Schrödinger–Poisson, :mod:`qhdesign.sp1d`), ``edge`` and ``island`` (2D Thomas–Fermi,
-:mod:`qhdesign.tf2d`). Any other stage plugs in as ``"package.module:function"``.
+(1D Schrödinger–Poisson, :mod:`qhdesign.sp1d`), ``edge`` and ``island`` (the FEM stages
+:mod:`qhdesign.section` and :mod:`qhdesign.island`, reached through :mod:`qhdesign.pipeline`).
+Any other stage plugs in as ``"package.module:function"``.
 """
 
 from __future__ import annotations
@@ -145,12 +146,13 @@ def flatten(d: dict, prefix: str = "") -> dict[str, float]:
 
 def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, perimeter=None):
     """2D edge cross-section: 1D solve -> sheets -> DOLFINx Thomas-Fermi, one process per design."""
-    solve_edge = _import("qhdesign.tf2d", "solve_edge", "edge")
+    solve_edge = _import("qhdesign.section", "solve_edge", "edge")
     # Each design is one serial 2D solve: COMM_SELF, never the world of an MPI sweep (whose
     # other ranks are busy with their own designs). The 2D stage has loaded mpi4py already.
     from mpi4py import MPI
 
-    from qhdesign.tf2d import EdgeSettings, section_from_stack
+    from qhdesign.pipeline import section_from_stack
+    from qhdesign.section import EdgeSettings
 
     if gate_voltage is None:
         raise InputError("the edge stage needs gate_voltage", key="options.gate_voltage")
@@ -171,7 +173,7 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
 
 def _island(stack, **options):
     """Island capacitances plus the interferometer figures (``interferometer.*`` columns)."""
-    _import("qhdesign.tf2d", "solve_island", "island")
+    _import("qhdesign.pipeline", "solve_island", "island")
     from mpi4py import MPI  # one serial solve per design, as in _edge
 
     from qhdesign.island_figures import figure_columns, island_figures, split_island_options
@@ -198,8 +200,8 @@ STAGES: dict[str, tuple[StageFunc, str]] = {
 _PROBES = {
     "bands": ("qhdesign.sp1d", "solve_bands"),
     "gate": ("qhdesign.sp1d", "gate_response"),
-    "edge": ("qhdesign.tf2d", "solve_edge"),
-    "island": ("qhdesign.tf2d", "solve_island"),
+    "edge": ("qhdesign.section", "solve_edge"),
+    "island": ("qhdesign.pipeline", "solve_island"),
 }
 
 

@@ -32,8 +32,9 @@ import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import ConvergenceError, InputError
+from qhdesign.fem.tensor_mesh import NM
 
-from .geometry import NM, TAGS, GateLayout, MeshOptions, StructuredGrid, build_grid, build_mesh
+from .geometry import TAGS, GateLayout, MeshOptions, StructuredGrid, build_grid, build_mesh
 from .model import CrossSection, calibrate, thomas_fermi_density
 
 __all__ = ["CrossSectionSolver", "FieldSolution", "SolverOptions"]
@@ -155,7 +156,7 @@ class CrossSectionSolver:
         outer_dirichlet: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
         sheet_metal: list[tuple[int, float]] | None = None,
     ):
-        from .backend import load
+        from qhdesign.fem.backend import load
 
         MPI, _ = load()
 
@@ -271,6 +272,8 @@ class CrossSectionSolver:
         from dolfinx import default_scalar_type, fem
         from dolfinx.fem.petsc import NonlinearProblem
 
+        from qhdesign.fem import forms, petsc
+
         msh, ft = self.mesh, self.facet_tags
         u, v = self.phi, ufl.TestFunction(self.V)
         cal = self.calibration
@@ -283,17 +286,9 @@ class CrossSectionSolver:
         dx = ufl.Measure("dx", domain=msh, subdomain_data=self.cell_tags)
         dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
         ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
-        qd = self.options.sheet_quadrature_degree
-        dS_v = ufl.Measure(
-            "dS",
-            domain=msh,
-            subdomain_data=ft,
-            metadata={"quadrature_rule": "vertex", "quadrature_degree": 1}
-            if qd == 0
-            else {"quadrature_degree": qd},
-        )
+        dS_v = forms.sheet_measure(msh, ft, self.options.sheet_quadrature_degree)
         sheet_tags = tuple(TAGS["sheet0"] + i for i in range(len(self.section.sheets)))
-        F = C_EPS * self.eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * dx
+        F = forms.dielectric(u, v, self.eps, dx, scale=C_EPS)
         F -= self.q_lines("+") * v("+") * dS((TAGS["levels"], *sheet_tags))
         F -= self.q_lines * v * ds((TAGS["exposed"], TAGS["bottom"]))
         F -= self.sigma * v * ds(TAGS["exposed"])
@@ -302,38 +297,22 @@ class CrossSectionSolver:
         for i, s in enumerate(self.section.sheets):
             E = fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
             D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
-            a = (u("+") - E) / self.kT
-            softplus = ufl.max_value(a, 0.0) + ufl.ln(1.0 + ufl.exp(-abs(a)))
-            F += D * self.kT * softplus * v("+") * dS_v(sheet_tags[i])
+            density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
+            F += forms.sheet(density, v, dS_v(sheet_tags[i]))
             self.E.append(E)
             self.D.append(D)
         use_lu = self.options.linear_solver == "lu" or (
             self.options.linear_solver == "auto" and self.num_dofs <= self.options.direct_max_dofs
         )
         self.linear_solver = "lu" if use_lu else "gamg"
-        opts = {
-            "snes_type": "newtonls",
-            "snes_linesearch_type": "bt",
-            "snes_rtol": self.options.rtol,
-            "snes_atol": self.options.atol,
-            "snes_stol": 0.0,
-            "snes_max_it": self.options.max_it,
-        }
-        if use_lu:
-            opts |= {"ksp_type": "preonly", "pc_type": "lu", "pc_factor_mat_solver_type": "mumps"}
-        else:
-            opts |= {
-                "ksp_type": "cg",
-                "pc_type": "gamg",
-                "ksp_rtol": 1e-9,
-                "ksp_atol": 1e-16,
-                "ksp_max_it": 500,
-                "pc_gamg_threshold": 0.02,
-                "mg_levels_ksp_type": "chebyshev",
-                "mg_levels_pc_type": "jacobi",
-            }
+        opts = petsc.newton(self.options.rtol, self.options.atol, self.options.max_it)
+        opts |= petsc.LU_MUMPS if use_lu else petsc.CG_GAMG
         self.problem = NonlinearProblem(
-            F, u, bcs=[self.bc], petsc_options_prefix=f"qh_tf2d_{id(self)}_", petsc_options=opts
+            F,
+            u,
+            bcs=[self.bc],
+            petsc_options_prefix=petsc.options_prefix("section"),
+            petsc_options=opts,
         )
         snes = self.problem.solver
         self._history: list[float] = []

@@ -1,7 +1,8 @@
 """Load the DOLFINx stack in the order it needs: mpi4py's MPI before dolfinx.
 
 ``libmpi`` is found only when ``mpi4py.MPI`` is loaded first (observed with the DOLFINx 0.11
-wheels); keeping the order in one function protects it from import sorting.
+wheels); keeping the order in one function protects it from import sorting. Part of the FEM
+engine, :mod:`qhdesign.fem`.
 """
 
 from __future__ import annotations
@@ -24,12 +25,13 @@ def load():
     return MPI, dolfinx
 
 
-def mesh_from_gmsh(build_model, comm):
+def mesh_from_gmsh(build_model, comm, gdim: int = 2):
     """Build a gmsh model on rank 0 with ``build_model()`` and distribute it as a DOLFINx mesh.
 
     gmsh is started here (not interruptible, quiet) unless it already runs, and finalized only if
     started here. Facets are ghosted (``GhostMode.shared_facet``): interior-facet (sheet)
     integrals need it in parallel (facets on a process boundary need both neighbouring cells).
+    ``gdim`` is the geometric dimension (2 for the (x, z) and (r, z) meshes).
 
     Returns
     -------
@@ -49,11 +51,11 @@ def mesh_from_gmsh(build_model, comm):
             gmsh.option.setNumber("General.Terminal", 0)
             build_model()
             data = dolfinx.io.gmsh.model_to_mesh(
-                gmsh.model, comm, 0, gdim=2, partitioner=partitioner
+                gmsh.model, comm, 0, gdim=gdim, partitioner=partitioner
             )
             gmsh.model.remove()
         else:
-            data = dolfinx.io.gmsh.model_to_mesh(None, comm, 0, gdim=2, partitioner=partitioner)
+            data = dolfinx.io.gmsh.model_to_mesh(None, comm, 0, gdim=gdim, partitioner=partitioner)
     finally:
         if started and gmsh is not None:
             gmsh.finalize()

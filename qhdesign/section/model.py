@@ -1,8 +1,8 @@
 """The electrostatic description of a cross-section: layers, sheets, frozen charge, boundaries.
 
-No DOLFINx here: this module turns the 1D stage's :class:`~qhdesign.sp1d.sheets.SheetModel` into a
-:class:`CrossSection` and calibrates the sheet energies E_w by an exact 1D solve on the same
-z-levels the 2D mesh uses.
+No DOLFINx here: this module turns the sheet model (:class:`qhdesign.sheets.SheetModel`, the
+contract with the 1D stage) into a :class:`CrossSection` and calibrates the sheet energies E_w by
+an exact 1D solve on the same z-levels the 2D mesh uses.
 
 Model (see docs/models.md, "2D Thomas–Fermi")
 ----------------------------------------------
@@ -141,12 +141,16 @@ class CrossSection:
 
 
 def cross_section_from_sheet_model(model, *, gate_barrier_J: float | None = None) -> CrossSection:
-    """Build a :class:`CrossSection` from the 1D stage's ``SheetModel``.
+    """Build a :class:`CrossSection` from a :class:`qhdesign.sheets.SheetModel` (the contract).
+
+    Everything comes from the sheet model: the sheets, the frozen charge plus the residual
+    electrons outside the wells, the far-field surface potential of the 1D solution, and the
+    bottom boundary (a fixed-potential bottom becomes ``bottom="gate"``).
 
     Parameters
     ----------
     model
-        A :class:`qhdesign.sp1d.sheets.SheetModel` (read by attribute).
+        A :class:`qhdesign.sheets.SheetModel` (read by attribute).
     gate_barrier_J
         Schottky barrier of the depletion-gate metal (J). Default: the stack's surface barrier,
         so that at zero gate bias a gate changes nothing on a pinned surface.
@@ -166,6 +170,15 @@ def cross_section_from_sheet_model(model, *, gate_barrier_J: float | None = None
     frozen = (
         model.surface_kind == "exposed" and getattr(model, "surface_charge_mode", "") == "frozen"
     )
+    edges = getattr(model, "fixed_charge_edges_m", None)
+    rho = np.asarray(model.fixed_charge_C_m3, dtype=float)
+    residual = getattr(model, "residual_charge_C_m3", None)
+    if residual is not None:
+        rho = rho + np.asarray(residual, dtype=float)
+    surface_potential = getattr(model, "surface_potential_V", None)
+    if surface_potential is None:  # a hand-built model without a 1D solution: the pinning formula
+        surface_potential = float(model.surface_bias_V) - barrier / sc.e
+    fixed_bottom = getattr(model, "bottom_kind", "zero_field") == "dirichlet"
     return CrossSection(
         surface_mode="frozen" if frozen else "pinned",
         layer_z_m=np.asarray(model.layer_z_m, dtype=float),
@@ -173,16 +186,15 @@ def cross_section_from_sheet_model(model, *, gate_barrier_J: float | None = None
         sheets=sheets,
         temperature_K=float(model.temperature_K),
         charge_z_m=np.asarray(model.fixed_charge_z_m, dtype=float),
-        charge_C_m3=np.asarray(model.fixed_charge_C_m3, dtype=float),
-        charge_edges_m=np.asarray(
-            getattr(model, "fixed_charge_edges_m", None)
-            if getattr(model, "fixed_charge_edges_m", None) is not None
-            else np.zeros(0),
-            dtype=float,
-        ),
+        charge_C_m3=rho,
+        charge_edges_m=np.asarray(edges if edges is not None else np.zeros(0), dtype=float),
         surface_charge_C_m2=float(model.surface_charge_C_m2),
-        surface_potential_V=float(model.surface_bias_V) - barrier / sc.e,
+        surface_potential_V=float(surface_potential),
         gate_barrier_J=barrier if gate_barrier_J is None else float(gate_barrier_J),
+        bottom="gate" if fixed_bottom else "zero_field",
+        bottom_potential_V=float(getattr(model, "bottom_potential_V", 0.0))
+        if fixed_bottom
+        else 0.0,
     )
 
 

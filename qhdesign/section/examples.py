@@ -3,7 +3,7 @@
 Invented numbers in the spirit of the Quillfeather Epitaxy Lab QL-24xx screened wafers: a
 primary well with a screening well above and below, two donor layers and a frozen exposed
 surface. It does not come from a 1D solve; the real pipeline builds its cross-section with
-:func:`qhdesign.tf2d.section_from_stack`.
+:func:`qhdesign.pipeline.section_from_stack`.
 """
 
 from __future__ import annotations

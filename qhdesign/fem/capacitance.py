@@ -1,6 +1,7 @@
 """Axisymmetric (r, z) capacitance matrices of thin conductors in layered dielectrics (DOLFINx).
 
-A linear electrostatics engine for :mod:`qhdesign.tf2d.island` and its validation problems
+The linear electrostatics solver of the FEM engine (:mod:`qhdesign.fem`), used by the island
+stage (:mod:`qhdesign.island`) and its validation problems
 (isolated disk, coaxial disks, disk between grounded planes). Every object is a horizontal line
 ``z = const, r0 < r < r1`` (a disk or a ring in 3D):
 
@@ -23,11 +24,14 @@ Robin term). This is the Galerkin reaction charge, which converges at twice the 
 energy-norm error; flux integrals over a conductor converge slowly at the edge singularity
 (they were tried and measured worse).
 
-Mesh: the tensor product of a graded r-node list and a graded z-level list (fine at every line
-end and every boundary-kind change, where the field is singular; coarse far away), each
-rectangle cut into two triangles, handed to gmsh as discrete entities with physical groups and
-distributed with ghosted shared facets (needed by interior-facet sheet integrals under MPI).
-Mesh coordinates are nm, (r, y = -z).
+The solve runs in four steps, each a function of this module: :func:`build` (grid, mesh,
+spaces, forms, Dirichlet dofs), :func:`assemble` (matrix and its LU factorisation),
+:func:`solve` (one potential per conductor) and :func:`extract` (capacitance matrix and checks);
+:func:`solve_capacitance` runs them in a row.
+
+Mesh: the engine's tensor mesh (:mod:`qhdesign.fem.tensor_mesh`) of a graded r-node list and a
+graded z-level list (:mod:`qhdesign.fem.grid`; fine at every line end and every boundary-kind
+change, where the field is singular; coarse far away). Mesh coordinates are nm, (r, y = -z).
 
 References
 ----------
@@ -40,24 +44,29 @@ from __future__ import annotations
 import itertools
 import time
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
 
-from .geometry import add_layer_surfaces
-from .grid import size_function
+from .grid import graded_nodes
+from .tensor_mesh import NM, TensorNumbering, build_tensor_mesh
 
 __all__ = [
     "AxiLine",
     "AxiMeshOptions",
     "AxiProblem",
+    "AxiSystem",
     "CapacitanceSolution",
+    "assemble",
+    "build",
+    "extract",
+    "solve",
     "solve_capacitance",
 ]
 
-NM = 1e-9
 #: Boundary facet tags by kind; line i has tag LINE0 + i.
 BOUNDARY_TAGS = {"ground": 1, "free": 2, "far": 3}
 LINE0 = 100
@@ -236,34 +245,6 @@ class CapacitanceSolution:
 
 
 # ---------------------------------------------------------------------------- grid
-def graded_nodes_geometric(
-    breakpoints, attractors, growth: float, h_max: float, min_cells: int = 2
-) -> np.ndarray:
-    """Like :func:`qhdesign.tf2d.grid.graded_nodes`, for sizes down to 1e-6 of the interval.
-
-    The size h(s) = min(h_i + g |s - s_i|, h_max) near an attractor makes a geometric grading
-    (cell k has size ~ h_i (1 + g)^k), whose node count grows only like ln(1/h_i)/g. The
-    cumulative integral of 1/h is taken on sample points that are themselves geometric around
-    every attractor, so it stays exact for tiny h_i.
-    """
-    bps = np.unique(np.asarray(breakpoints, dtype=float))
-    nodes = [bps[:1]]
-    for a, b in itertools.pairwise(bps):
-        L = b - a
-        s = [np.linspace(a, b, 2001)]
-        for s0, h0 in attractors:
-            d = np.geomspace(max(h0, 1e-9 * L) * 1e-2, 2 * L + abs(s0 - a) + abs(s0 - b), 600)
-            s.append(np.concatenate((s0 - d, s0 + d)))
-        s = np.unique(np.clip(np.concatenate(s), a, b))
-        inv_h = 1.0 / size_function(s, attractors, growth, h_max)
-        cum = np.concatenate(([0.0], np.cumsum(0.5 * (inv_h[1:] + inv_h[:-1]) * np.diff(s))))
-        n = max(int(min_cells), int(np.ceil(cum[-1] - 1e-9)))
-        seg = np.interp(np.linspace(0.0, cum[-1], n + 1), cum, s)
-        seg[0], seg[-1] = a, b
-        nodes.append(seg[1:])
-    return np.concatenate(nodes)
-
-
 def build_axi_grid(problem: AxiProblem, opts: AxiMeshOptions) -> tuple[np.ndarray, np.ndarray]:
     """Graded r-nodes and z-levels (m) containing every line end, line and layer boundary."""
     f = float(opts.refine)
@@ -277,8 +258,13 @@ def build_axi_grid(problem: AxiProblem, opts: AxiMeshOptions) -> tuple[np.ndarra
         r_breaks |= {float(a), float(b)}
     # singular points: line ends away from the axis and the outer edge, boundary-kind changes
     r_attr = sorted(r for r in r_breaks if 0.0 < r < R)
-    r = graded_nodes_geometric(
-        sorted(r_breaks), [(x, h_edge) for x in r_attr], growth, h_max, min_cells=2
+    r = graded_nodes(
+        sorted(r_breaks),
+        [(x, h_edge) for x in r_attr],
+        growth,
+        h_max,
+        min_cells=2,
+        geometric_samples=True,
     )
     zl = np.asarray(problem.layer_z_m, dtype=float)
     line_z = sorted({ln.z_m for ln in problem.lines})
@@ -287,103 +273,74 @@ def build_axi_grid(problem: AxiProblem, opts: AxiMeshOptions) -> tuple[np.ndarra
     if any(k != "far" for _, _, k in problem.top):  # a gate edge or surface on top
         z_attr.append((float(zl[0]), h_edge))
     z_attr += [(float(zz), 4 * h_line) for zz in zl[1:-1]]
-    z = graded_nodes_geometric(z_breaks, z_attr, growth, h_max, min_cells=2)
+    z = graded_nodes(z_breaks, z_attr, growth, h_max, min_cells=2, geometric_samples=True)
     for zz in line_z:  # exact line depths (graded_nodes keeps breakpoints; remove fp noise)
         z[int(np.argmin(np.abs(z - zz)))] = zz
     return r, z
 
 
-def _gmsh_model(problem: AxiProblem, r_m: np.ndarray, z_m: np.ndarray) -> None:
-    """Discrete gmsh model of the tensor grid (rank 0): one surface per layer, tagged lines."""
-    import gmsh
+def _facet_groups(problem: AxiProblem, r_m: np.ndarray, z_m: np.ndarray) -> list:
+    """Facet groups of the tensor mesh: boundary parts by kind, then line i as LINE0 + i."""
+    num = TensorNumbering(r_m.size, z_m.size)
+    nz = z_m.size
+    rc = 0.5 * (r_m[1:] + r_m[:-1])
 
-    x = r_m / NM
-    y = -z_m / NM
-    nr, nz = x.size, y.size
-    X, Y = np.meshgrid(x, y)  # (nz, nr), row = level
-    coords = np.column_stack((X.ravel(), Y.ravel(), np.zeros(X.size))).ravel()
-    node = np.arange(1, nr * nz + 1, dtype=np.int64).reshape(nz, nr)
-    gmsh.model.add("qhdesign_axisymmetric")
-    a, b, c, d = node[:-1, :-1], node[:-1, 1:], node[1:, 1:], node[1:, :-1]
-    t1 = np.stack((a, b, c), -1)
-    t2 = np.stack((a, c, d), -1)
-    zl = np.asarray(problem.layer_z_m, dtype=float)
-    mid = 0.5 * (z_m[1:] + z_m[:-1])
-    layer = np.clip(np.searchsorted(zl, mid) - 1, 0, zl.size - 2)
-    _, next_elem = add_layer_surfaces(gmsh, node, coords, t1, t2, layer, zl.size - 1)
+    def row(k: int, r0: float, r1: float) -> np.ndarray:
+        return num.row(k, (rc > r0) & (rc < r1))
 
     curves: dict[int, list[np.ndarray]] = {}
-
-    def row_segments(k: int, r0: float, r1: float) -> np.ndarray:
-        xc = 0.5 * (r_m[1:] + r_m[:-1])
-        keep = (xc > r0) & (xc < r1)
-        return np.column_stack((node[k, :-1][keep], node[k, 1:][keep]))
-
     for a0, b0, kind in problem.top:
-        curves.setdefault(BOUNDARY_TAGS[kind], []).append(row_segments(0, a0, b0))
-    curves.setdefault(BOUNDARY_TAGS[problem.bottom], []).append(row_segments(nz - 1, 0.0, r_m[-1]))
-    curves.setdefault(BOUNDARY_TAGS[problem.side], []).append(
-        np.column_stack((node[:-1, -1], node[1:, -1]))
-    )
+        curves.setdefault(BOUNDARY_TAGS[kind], []).append(row(0, a0, b0))
+    curves.setdefault(BOUNDARY_TAGS[problem.bottom], []).append(row(nz - 1, 0.0, r_m[-1]))
+    curves.setdefault(BOUNDARY_TAGS[problem.side], []).append(num.column(r_m.size - 1))
     for i, ln in enumerate(problem.lines):
         k = int(np.argmin(np.abs(z_m - ln.z_m)))
-        curves[LINE0 + i] = [row_segments(k, ln.r_from_m, ln.r_to_m)]
-    for n, (tag, parts) in enumerate(sorted(curves.items())):
-        seg = np.concatenate(parts)
-        if seg.size == 0:
-            continue
-        gmsh.model.addDiscreteEntity(1, n + 1)
-        ne = seg.shape[0]
-        gmsh.model.mesh.addElementsByType(
-            n + 1, 1, np.arange(next_elem, next_elem + ne), seg.ravel()
-        )
-        next_elem += ne
-        gmsh.model.addPhysicalGroup(1, [n + 1], tag)
+        curves[LINE0 + i] = [row(k, ln.r_from_m, ln.r_to_m)]
+    return [(tag, f"group{tag}", np.concatenate(parts)) for tag, parts in sorted(curves.items())]
 
 
-def _build_mesh(problem: AxiProblem, r_m: np.ndarray, z_m: np.ndarray, comm):
-    from .backend import mesh_from_gmsh
-
-    return mesh_from_gmsh(lambda: _gmsh_model(problem, r_m, z_m), comm)
+def _layer_of_interval(problem: AxiProblem, z_m: np.ndarray) -> np.ndarray:
+    zl = np.asarray(problem.layer_z_m, dtype=float)
+    mid = 0.5 * (z_m[1:] + z_m[:-1])
+    return np.clip(np.searchsorted(zl, mid) - 1, 0, zl.size - 2)
 
 
 # ---------------------------------------------------------------------------- solve
-def solve_capacitance(
-    problem: AxiProblem,
-    mesh_options: AxiMeshOptions | None = None,
-    *,
-    comm=None,
-    keep_potentials: bool = False,
-) -> CapacitanceSolution:
-    """Maxwell capacitance matrix of the conductors of ``problem`` (F).
+@dataclass(eq=False)
+class AxiSystem:
+    """The built finite-element system of an :class:`AxiProblem` (step 1, :func:`build`).
 
-    Parameters
-    ----------
-    problem
-        Geometry, materials and boundary conditions.
-    mesh_options
-        Mesh and element (defaults: :class:`AxiMeshOptions`).
-    comm
-        MPI communicator (default ``MPI.COMM_WORLD``); the result is the same on every rank.
-    keep_potentials
-        Also return u_i on the grid nodes (for plots), shape (N, nz, nr).
-
-    Returns
-    -------
-    CapacitanceSolution
-
-    Notes
-    -----
-    One LU factorisation (MUMPS) serves every conductor: the Dirichlet dofs are the same for all
-    right-hand sides, only their values change.
+    Holds the grid (``r_m``, ``z_m``), the DOLFINx mesh and space ``V``, the bilinear form
+    ``energy(u, v)`` (in units of eps_0 nm; C = 2 pi eps_0 nm a), the compiled forms, the
+    Dirichlet condition (``bc`` on the function ``g``) and the dofs of every conductor.
     """
+
+    problem: AxiProblem
+    options: AxiMeshOptions
+    comm: Any
+    names: tuple[str, ...]
+    r_m: np.ndarray
+    z_m: np.ndarray
+    mesh: Any
+    V: Any
+    energy: Any
+    a_form: Any
+    L_form: Any
+    bc: Any
+    g: Any
+    cond_dofs: list
+    timings: dict = field(default_factory=dict)
+
+
+def build(problem: AxiProblem, mesh_options: AxiMeshOptions | None = None, *, comm=None):
+    """Step 1: grid, mesh, function space, forms and Dirichlet dofs of ``problem``."""
     from .backend import load
 
     MPI, _dolfinx = load()
     import ufl
     from dolfinx import default_scalar_type, fem
-    from dolfinx.fem import petsc as fpetsc
-    from petsc4py import PETSc
+
+    from . import forms
 
     opts = mesh_options or AxiMeshOptions()
     comm = comm if comm is not None else MPI.COMM_WORLD
@@ -393,7 +350,16 @@ def solve_capacitance(
     timings: dict[str, float] = {}
     t0 = time.perf_counter()
     r_m, z_m = build_axi_grid(problem, opts)
-    data = _build_mesh(problem, r_m, z_m, comm)
+    groups = _facet_groups(problem, r_m, z_m) if comm.rank == 0 else []
+    data = build_tensor_mesh(
+        "qhdesign_axisymmetric",
+        r_m,
+        z_m,
+        _layer_of_interval(problem, z_m),
+        len(problem.layer_permittivity),
+        groups,
+        comm,
+    )
     msh, ct, ft = data.mesh, data.cell_tags, data.facet_tags
     timings["mesh_s"] = time.perf_counter() - t0
 
@@ -404,25 +370,22 @@ def solve_capacitance(
     eps.x.array[ct.indices] = np.asarray(problem.layer_permittivity, dtype=float)[ct.values - 1]
     eps.x.scatter_forward()
 
-    xs = ufl.SpatialCoordinate(msh)
-    r = xs[0]
-    n = ufl.FacetNormal(msh)
-    centre = ufl.as_vector((0.0, -problem.far_centre_z_m / NM))
-    rho = xs - centre
-    beta = ufl.dot(n, rho) / ufl.dot(rho, rho)  # Robin coefficient (nm^-1)
+    r = ufl.SpatialCoordinate(msh)[0]
+    centre = (0.0, -problem.far_centre_z_m / NM)
     dx = ufl.Measure("dx", domain=msh)
     ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
     dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
 
     def energy(u, v):
         """The bilinear form in units of eps_0 * nm (times 2 pi): C = 2 pi eps_0 nm * a."""
-        a = eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * r * dx
-        a += eps * beta * u * v * r * ds(BOUNDARY_TAGS["far"])
+        a = forms.dielectric(u, v, eps, dx, r=r)
+        a += forms.far_field_robin(u, v, eps, ds(BOUNDARY_TAGS["far"]), centre, r=r)
         for i, ln in enumerate(problem.lines):
             if ln.kind == "sheet":
                 # linear Thomas–Fermi sheet: e^2 D / eps_0 in nm^-1 (the quantum capacitance)
                 q = default_scalar_type(sc.e**2 * ln.dos_J_m2 / sc.epsilon_0 * NM)
-                a += fem.Constant(msh, q) * u("+") * v("+") * r("+") * dS(LINE0 + i)
+                density = forms.linear_sheet_density(fem.Constant(msh, q), u("+"))
+                a += forms.sheet(density, v, dS(LINE0 + i), r=r)
         return a
 
     u_t, v_t = ufl.TrialFunction(V), ufl.TestFunction(V)
@@ -443,27 +406,62 @@ def solve_capacitance(
     all_dofs = np.unique(np.concatenate([dofs_of(ground_tags), *cond_dofs])).astype(np.int32)
     g = fem.Function(V)
     bc = fem.dirichletbc(g, all_dofs)
-    A = fpetsc.assemble_matrix(a_form, bcs=[bc])
+    timings["forms_s"] = time.perf_counter() - t0
+    return AxiSystem(
+        problem,
+        opts,
+        comm,
+        tuple(names),
+        r_m,
+        z_m,
+        msh,
+        V,
+        energy,
+        a_form,
+        L_form,
+        bc,
+        g,
+        cond_dofs,
+        timings,
+    )
+
+
+def assemble(system: AxiSystem):
+    """Step 2: the matrix with the Dirichlet rows and its LU factorisation (a PETSc KSP).
+
+    One factorisation serves every conductor: the Dirichlet dofs are the same for all
+    right-hand sides, only their values change. The caller destroys the KSP (``ksp.destroy()``;
+    :func:`solve_capacitance` does).
+    """
+    from dolfinx.fem import petsc as fpetsc
+
+    from .petsc import LU_MUMPS, linear_solver, options_prefix
+
+    t0 = time.perf_counter()
+    A = fpetsc.assemble_matrix(system.a_form, bcs=[system.bc])
     A.assemble()
-    ksp = PETSc.KSP().create(comm)
-    ksp.setOperators(A)
-    ksp.setType("preonly")
-    pc = ksp.getPC()
-    pc.setType("lu")
-    pc.setFactorSolverType("mumps")
-    ksp.setFromOptions()
-    timings["assemble_s"] = time.perf_counter() - t0
+    ksp = linear_solver(system.comm, A, LU_MUMPS, options_prefix("capacitance"))
+    system.timings["assemble_s"] = time.perf_counter() - t0
+    return ksp
+
+
+def solve(system: AxiSystem, ksp) -> list:
+    """Step 3: u_i for conductor i at 1 V and every other conductor at 0 V (DOLFINx Functions)."""
+    from dolfinx import fem
+    from dolfinx.fem import petsc as fpetsc
+    from petsc4py import PETSc
 
     t0 = time.perf_counter()
     sols = []
-    for dofs in cond_dofs:
+    g, bc = system.g, system.bc
+    for dofs in system.cond_dofs:
         g.x.array[:] = 0.0
         g.x.array[dofs] = 1.0
-        b = fpetsc.assemble_vector(L_form)
-        fpetsc.apply_lifting(b, [a_form], bcs=[[bc]])
+        b = fpetsc.assemble_vector(system.L_form)
+        fpetsc.apply_lifting(b, [system.a_form], bcs=[[bc]])
         b.ghostUpdate(addv=PETSc.InsertMode.ADD, mode=PETSc.ScatterMode.REVERSE)
         fpetsc.set_bc(b, [bc])
-        u = fem.Function(V)
+        u = fem.Function(system.V)
         ksp.solve(b, u.x.petsc_vec)
         if ksp.getConvergedReason() <= 0:  # pragma: no cover - LU does not fail quietly
             from qhdesign.errors import ConvergenceError
@@ -472,12 +470,20 @@ def solve_capacitance(
         u.x.scatter_forward()
         sols.append(u)
         b.destroy()
-    timings["solve_s"] = time.perf_counter() - t0
+    system.timings["solve_s"] = time.perf_counter() - t0
+    return sols
+
+
+def extract(system: AxiSystem, sols: list, *, keep_potentials: bool = False):
+    """Step 4: the Maxwell matrix C_ij = a(u_i, u_j) (F), the reciprocity check, the record."""
+    from dolfinx import fem
+    from mpi4py import MPI
 
     t0 = time.perf_counter()
+    comm, V = system.comm, system.V
     ua, ub = fem.Function(V), fem.Function(V)
-    c_form = fem.form(energy(ua, ub))
-    N = len(names)
+    c_form = fem.form(system.energy(ua, ub))
+    N = len(system.names)
     C = np.zeros((N, N))
     scale = 2.0 * np.pi * sc.epsilon_0 * NM  # F per unit of the nm-form
     for i in range(N):
@@ -493,24 +499,24 @@ def solve_capacitance(
         ua.x.array[:] = sols[i].x.array
         for j in range(N):
             ub.x.array[:] = 0.0
-            ub.x.array[cond_dofs[j]] = 1.0
+            ub.x.array[system.cond_dofs[j]] = 1.0
             R[i, j] = scale * comm.allreduce(fem.assemble_scalar(c_form), op=MPI.SUM)
     diag = np.sqrt(np.outer(np.diag(C), np.diag(C)))
     reciprocity = float(np.max(np.abs(R - R.T) / diag))
     reaction_vs_energy = float(np.max(np.abs(R - C) / diag))
-    timings["energy_s"] = time.perf_counter() - t0
-
+    system.timings["energy_s"] = time.perf_counter() - t0
+    r_m, z_m = system.r_m, system.z_m
     pots = None
     if keep_potentials:
         pots = np.stack([_on_grid(u, V, r_m, z_m, comm) for u in sols])
-    ksp.destroy()
-    A.destroy()
+    timings = {k: system.timings[k] for k in ("mesh_s", "assemble_s", "solve_s", "energy_s")}
+    timings["assemble_s"] += system.timings.get("forms_s", 0.0)
     info = {
         "dofs": int(V.dofmap.index_map.size_global),
-        "cells": int(msh.topology.index_map(2).size_global),
+        "cells": int(system.mesh.topology.index_map(2).size_global),
         "grid_nodes_r": int(r_m.size),
         "grid_levels_z": int(z_m.size),
-        "element_degree": int(opts.degree),
+        "element_degree": int(system.options.degree),
         "smallest_cell_m": float(min(np.diff(r_m).min(), np.diff(z_m).min())),
         "ranks": int(comm.size),
         "linear_solver": "LU (MUMPS)",
@@ -518,7 +524,43 @@ def solve_capacitance(
         "reaction_vs_energy": reaction_vs_energy,
         "timings_s": timings,
     }
-    return CapacitanceSolution(tuple(names), C, r_m, z_m, pots, info)
+    return CapacitanceSolution(tuple(system.names), C, r_m, z_m, pots, info)
+
+
+def solve_capacitance(
+    problem: AxiProblem,
+    mesh_options: AxiMeshOptions | None = None,
+    *,
+    comm=None,
+    keep_potentials: bool = False,
+) -> CapacitanceSolution:
+    """Maxwell capacitance matrix of the conductors of ``problem`` (F): build, assemble, solve,
+    extract.
+
+    Parameters
+    ----------
+    problem
+        Geometry, materials and boundary conditions.
+    mesh_options
+        Mesh and element (defaults: :class:`AxiMeshOptions`).
+    comm
+        MPI communicator (default ``MPI.COMM_WORLD``); the result is the same on every rank.
+    keep_potentials
+        Also return u_i on the grid nodes (for plots), shape (N, nz, nr).
+
+    Returns
+    -------
+    CapacitanceSolution
+    """
+    system = build(problem, mesh_options, comm=comm)
+    ksp = assemble(system)
+    try:
+        sols = solve(system, ksp)
+    finally:
+        A = ksp.getOperators()[0]
+        ksp.destroy()
+        A.destroy()
+    return extract(system, sols, keep_potentials=keep_potentials)
 
 
 def _on_grid(u, V, r_m, z_m, comm) -> np.ndarray:

@@ -17,7 +17,7 @@ infinite mutual capacitance). Everything else is at the Fermi level of the conta
 - bottom: grounded for a pinned substrate or a back gate, else the last layer continues down to
   the far boundary; far boundary: Robin monopole condition or grounded.
 
-Maxwell matrix C of {I, L} by the energy form (:mod:`qhdesign.tf2d.axicap`); K = e^2 C^-1.
+Maxwell matrix C of {I, L} by the energy form (:mod:`qhdesign.fem.capacitance`); K = e^2 C^-1.
 Our derivations (docs/derivations.md sections 10-11, not taken from a paper): K~ = K_L - K_IL^2/K_I,
 E_C = K~/2, periods dB_comp = Phi0/A and dB_inc = (e/e*) Phi0/(A (1 - K_IL/K_I)), and the
 fixed-filling window dB_window = (Phi0/(nu A)) [e*/e + (e/e*) Delta_qp/E_C] with e*/e = nu = 1/m.
@@ -40,8 +40,7 @@ import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
-
-from .axicap import AxiLine, AxiMeshOptions, AxiProblem, solve_capacitance
+from qhdesign.fem.capacitance import AxiLine, AxiMeshOptions, AxiProblem, solve_capacitance
 
 __all__ = [
     "IslandColumn",
@@ -125,13 +124,14 @@ class IslandColumn:
 
 
 def column_from_sheet_model(sheets, stack=None) -> IslandColumn:
-    """The column of a :class:`qhdesign.sp1d.sheets.SheetModel` (and its stack's boundaries)."""
+    """The column of a :class:`qhdesign.sheets.SheetModel` (``stack``: optional, read by
+    attribute for its name and substrate; the sheet model carries both)."""
     wells = tuple(
         WellLine(s.name, s.role, float(s.z_m), float(s.dos_J_m2), float(s.density_m2))
         for s in sheets.sheets
     )
     top = "surface" if sheets.surface_kind == "exposed" else "gate"
-    name = ""
+    name = str(getattr(sheets, "name", "") or "")
     substrate = getattr(sheets, "substrate_kind", None)
     if stack is not None:
         name = str(getattr(stack, "name", "") or "")
@@ -595,8 +595,9 @@ def solve_island(
     Parameters
     ----------
     source
-        A :class:`qhdesign.stack.Stack` (the 1D stage runs to place the sheets), a
-        :class:`qhdesign.sp1d.sheets.SheetModel`, or an :class:`IslandColumn`.
+        A :class:`qhdesign.sheets.SheetModel`, an :class:`IslandColumn`, or a callable returning
+        one (called after the options are checked). A stack goes through
+        :func:`qhdesign.pipeline.solve_island`.
     geometry, settings
         Island lengths and model choices. Instead, keyword ``options`` as in a sweep spec:
         ``radius``, ``ring_width``, ``gate_offset``, ``split_gap``, ``outer_radius`` (strings with
@@ -629,7 +630,7 @@ def solve_island(
         settings = replace(settings, surface=column.surface_mode)
     problem, sheets, excluded = island_problem(column, geometry, settings)
     if comm is None:
-        from .backend import load
+        from qhdesign.fem.backend import load
 
         MPI, _ = load()
         comm = MPI.COMM_WORLD
@@ -651,21 +652,13 @@ def solve_island(
 
 
 def _column(source) -> IslandColumn:
+    if callable(source):  # deferred (qhdesign.pipeline): the 1D solve runs after option checks
+        source = source()
     if isinstance(source, IslandColumn):
         return source
     if hasattr(source, "sheets") and hasattr(source, "layer_permittivity"):  # a SheetModel
         return column_from_sheet_model(source)
-    stack = source
-    from .from_stack import refuse_gate_dielectric
-
-    refuse_gate_dielectric(stack, "the island model")
-    if not any(lay.well == "primary" for lay in stack.layers):
-        raise InputError(
-            'the stack has no primary well (set well = "primary" on one layer)',
-            source=str(getattr(stack, "source", "") or "stack"),
-            key="layers",
-        )
-    from qhdesign.sp1d import solve_bands
-    from qhdesign.sp1d.sheets import sheet_model
-
-    return column_from_sheet_model(sheet_model(stack, solve_bands(stack)), stack)
+    raise TypeError(
+        "the island stage takes a sheet model or an IslandColumn; for a stack use "
+        "qhdesign.pipeline.solve_island"
+    )

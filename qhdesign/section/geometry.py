@@ -1,17 +1,11 @@
-"""Cross-section geometry and mesh: a structured, graded (x, z) grid built with the gmsh API.
+"""Cross-section geometry and mesh: a structured, graded (x, z) grid on the engine's tensor mesh.
 
 Layers are rectangles, so the mesh is the tensor product of a graded x-node list (fine at the gate
 edges) and a graded z-level list (fine at the surface and at every sheet, with a level on every
-layer boundary, sheet and probe line), each rectangle cut into two triangles. The grid is handed
-to gmsh as discrete entities with physical groups (one per layer, one per sheet line, gate and
-exposed parts of the surface, bottom, sides, the other horizontal levels) and converted with
-``dolfinx.io.gmsh.model_to_mesh``. This costs O(N) numpy work: meshing never dominates a solve.
-
-Mesh coordinates are in nanometres with y = -z (height; the surface is y = 0), so a field file
-opens the right way up in ParaView.
-
-The gmsh model is built on rank 0 only; the mesh is distributed with ghosted shared facets, which
-interior-facet (sheet) integrals need in parallel.
+layer boundary, sheet and probe line), built by :mod:`qhdesign.fem.grid` and meshed by
+:mod:`qhdesign.fem.tensor_mesh` with physical groups (one per layer, one per sheet line, gate and
+exposed parts of the surface, bottom, sides, the other horizontal levels). Mesh coordinates are
+nanometres with y = -z.
 """
 
 from __future__ import annotations
@@ -21,13 +15,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from qhdesign.errors import InputError
+from qhdesign.fem.grid import graded_nodes
+from qhdesign.fem.tensor_mesh import TensorNumbering, build_tensor_mesh
 
-from .grid import graded_nodes
 from .model import CrossSection
 
 __all__ = ["TAGS", "GateLayout", "MeshOptions", "StructuredGrid", "build_grid", "build_mesh"]
-
-NM = 1e-9
 
 #: Facet tags. Sheet i (top to bottom) is ``TAGS["sheet0"] + i``.
 TAGS = {"gate": 1, "exposed": 2, "bottom": 3, "sides": 4, "levels": 5, "sheet0": 100}
@@ -164,105 +157,28 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     return StructuredGrid(x, z, layer, sheet_level, layout)
 
 
-def add_layer_surfaces(gmsh, node, coords, t1, t2, layer_of_row, n_layers):
-    """Add the triangles of a tensor grid to a gmsh model as one discrete surface per layer.
-
-    ``t1``/``t2`` are the two triangles of every rectangle, shape (rows, columns, 3), and
-    ``layer_of_row`` the layer of each row of rectangles. The nodes (``node`` tags, ``coords``)
-    go to the first surface. Each layer's surface gets tag and physical group ``layer + 1``.
-
-    Returns
-    -------
-    (surface tags, next free element tag)
-    """
-    next_elem = 1
-    tags = []
-    first = True
-    for li in range(n_layers):
-        rows = np.nonzero(layer_of_row == li)[0]
-        if rows.size == 0:
-            continue
-        tag = li + 1
-        gmsh.model.addDiscreteEntity(2, tag)
-        if first:
-            gmsh.model.mesh.addNodes(2, tag, node.ravel(), coords)
-            first = False
-        tri = np.concatenate((t1[rows].reshape(-1, 3), t2[rows].reshape(-1, 3)))
-        ne = tri.shape[0]
-        gmsh.model.mesh.addElementsByType(tag, 2, np.arange(next_elem, next_elem + ne), tri.ravel())
-        next_elem += ne
-        tags.append(tag)
-        gmsh.model.addPhysicalGroup(2, [tag], tag, name=f"layer{li}")
-    return tags, next_elem
-
-
-def _gmsh_model(grid: StructuredGrid, section: CrossSection, charged_levels=None):
-    """Create the discrete gmsh model of the grid (rank 0). Returns the gmsh module."""
-    import gmsh
-
-    x_nm = grid.x_m / NM
-    y_nm = -grid.z_m / NM
-    nx, nz = x_nm.size, y_nm.size
-    X, Y = np.meshgrid(x_nm, y_nm)  # (nz, nx): row = level
-    coords = np.column_stack((X.ravel(), Y.ravel(), np.zeros(X.size))).ravel()
-    node = np.arange(1, nx * nz + 1, dtype=np.int64).reshape(nz, nx)
-
-    gmsh.model.add("qhdesign_cross_section")
-    # Triangles per z-interval; the diagonal is mirrored at x = 0 so symmetric layouts stay
-    # symmetric on the mesh.
-    a = node[:-1, :-1]  # upper-left of each rectangle (level k, column i)
-    b = node[:-1, 1:]
-    c = node[1:, 1:]
-    d = node[1:, :-1]
-    xc = 0.5 * (x_nm[1:] + x_nm[:-1])
-    right = np.broadcast_to(xc >= 0.0, a.shape)
-    t1 = np.where(right[..., None], np.stack((a, b, c), -1), np.stack((a, b, d), -1))
-    t2 = np.where(right[..., None], np.stack((a, c, d), -1), np.stack((b, c, d), -1))
-    # one discrete surface per layer
-    _, next_elem = add_layer_surfaces(
-        gmsh, node, coords, t1, t2, grid.layer_of_interval, len(section.layer_permittivity)
-    )
-
-    curve_tag = [0]
-
-    def add_curve(segments: np.ndarray, phys: int, name: str) -> None:
-        nonlocal next_elem
-        if segments.size == 0:
-            return
-        curve_tag[0] += 1
-        gmsh.model.addDiscreteEntity(1, curve_tag[0])
-        ne = segments.shape[0]
-        gmsh.model.mesh.addElementsByType(
-            curve_tag[0], 1, np.arange(next_elem, next_elem + ne), segments.ravel()
-        )
-        next_elem += ne
-        gmsh.model.addPhysicalGroup(1, [curve_tag[0]], phys, name=name)
-
-    def row_segments(k: int) -> np.ndarray:
-        return np.column_stack((node[k, :-1], node[k, 1:]))
-
-    top = row_segments(0)
-    gated = grid.layout.covers(xc * NM)
-    add_curve(top[gated], TAGS["gate"], "gate")
-    add_curve(top[~gated], TAGS["exposed"], "exposed")
-    add_curve(row_segments(nz - 1), TAGS["bottom"], "bottom")
-    sides = np.concatenate(
-        (
-            np.column_stack((node[:-1, 0], node[1:, 0])),
-            np.column_stack((node[:-1, -1], node[1:, -1])),
-        )
-    )
-    add_curve(sides, TAGS["sides"], "sides")
+def _facet_groups(grid: StructuredGrid, charged_levels=None) -> list:
+    """Facet groups of the cross-section (see :data:`TAGS`), in the order their curves are added."""
+    nx, nz = grid.x_m.size, grid.z_m.size
+    num = TensorNumbering(nx, nz)
+    xc = 0.5 * (grid.x_m[1:] + grid.x_m[:-1])
+    gated = grid.layout.covers(xc)
+    groups = [
+        (TAGS["gate"], "gate", num.row(0, gated)),
+        (TAGS["exposed"], "exposed", num.row(0, ~gated)),
+        (TAGS["bottom"], "bottom", num.row(nz - 1)),
+        (TAGS["sides"], "sides", np.concatenate((num.column(0), num.column(nx - 1)))),
+    ]
     sheet_levels = set(int(k) for k in grid.sheet_level)
     inner = [k for k in range(1, nz - 1) if k not in sheet_levels]
     if charged_levels is not None:  # only levels that carry frozen charge need a tag
         keep = {int(k) for k in charged_levels}
         inner = [k for k in inner if k in keep]
     if inner:
-        add_curve(np.concatenate([row_segments(k) for k in inner]), TAGS["levels"], "levels")
+        groups.append((TAGS["levels"], "levels", np.concatenate([num.row(k) for k in inner])))
     for i, k in enumerate(grid.sheet_level):
-        add_curve(row_segments(int(k)), TAGS["sheet0"] + i, f"sheet{i}")
-    return gmsh
+        groups.append((TAGS["sheet0"] + i, f"sheet{i}", num.row(int(k))))
+    return groups
 
 
 def build_mesh(grid: StructuredGrid, section: CrossSection, comm, charged_levels=None):
@@ -276,6 +192,13 @@ def build_mesh(grid: StructuredGrid, section: CrossSection, comm, charged_levels
     dolfinx.io.gmsh.MeshData
         ``.mesh``, ``.cell_tags`` (layer index + 1), ``.facet_tags`` (see :data:`TAGS`).
     """
-    from .backend import mesh_from_gmsh
-
-    return mesh_from_gmsh(lambda: _gmsh_model(grid, section, charged_levels), comm)
+    groups = _facet_groups(grid, charged_levels) if comm.rank == 0 else []
+    return build_tensor_mesh(
+        "qhdesign_cross_section",
+        grid.x_m,
+        grid.z_m,
+        grid.layer_of_interval,
+        len(section.layer_permittivity),
+        groups,
+        comm,
+    )

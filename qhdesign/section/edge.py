@@ -4,9 +4,9 @@
 well relative to the lithographic edge, how sharp is it, is the well cut under the gate, how
 strong is the in-plane field and how fast is the edge state at the operating filling, where are
 the incompressible strips, and how far does the edge move per gate volt (hence dA/dV for a
-perimeter). Split gates and pinch-off: :mod:`qhdesign.tf2d.constriction`.
+perimeter). Split gates and pinch-off: :mod:`qhdesign.section.constriction`.
 
-Definitions of edge, healing length, cut and strips: :mod:`qhdesign.tf2d.profile`.
+Definitions of edge, healing length, cut and strips: :mod:`qhdesign.section.profile`.
 """
 
 from __future__ import annotations
