@@ -391,7 +391,8 @@ def build_review(stack_file: str | Path, settings: ReportSettings | None = None)
     }
     results: dict[str, Any] = {"stack": stack, "bands": bands, "gate": gate}
     if s.edge_gate_V is not None:
-        from .tf2d import EdgeSettings, MeshOptions, SolverOptions, section_from_stack, solve_edge
+        from .pipeline import section_from_stack
+        from .section import EdgeSettings, MeshOptions, SolverOptions, solve_edge
 
         section = section_from_stack(stack)
         surf = section.surface_mode if stack.surface.kind == "exposed" else "pinned"
@@ -404,7 +405,7 @@ def build_review(stack_file: str | Path, settings: ReportSettings | None = None)
         data["edge"] = edge.to_dict()
         results["edge"] = edge
     if s.island_radius_m is not None:
-        from .tf2d import solve_island
+        from .pipeline import solve_island
 
         island = solve_island(
             stack,
