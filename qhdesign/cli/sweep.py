@@ -18,6 +18,44 @@ import typer
 
 from .common import check_figure_path, guarded
 
+#: A sweep estimated to run longer than this (s) starts only with --yes.
+LONG_SWEEP_S = 3600.0
+
+
+def _duration(seconds: float) -> str:
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    if seconds < 5400:
+        return f"{seconds / 60:.0f} min"
+    return f"{seconds / 3600:.1f} h"
+
+
+def _mpi_size() -> int:
+    """Ranks of an mpiexec launch, from the launcher's environment (1 outside mpiexec)."""
+    for var in ("PMI_SIZE", "OMPI_COMM_WORLD_SIZE", "PMIX_SIZE"):
+        v = os.environ.get(var)
+        if v and v.isdigit():
+            return int(v)
+    return 1
+
+
+def _estimate(plan, workers: int | None, executor: str) -> tuple[float, str]:
+    """Run time of the whole sweep from one timed evaluation of the nominal design (the same
+    probe the runner sizes its chunks with): seconds and a sentence."""
+    from qhdesign.sweep.runner import probe
+
+    _, status, _, t = probe(plan)
+    n = len(plan)
+    w = 1 if executor == "serial" else (workers or os.cpu_count() or 1)
+    w = max(1, min(w, n))
+    total = t * n / w
+    note = "" if status == "ok" else f" (the timed design ended '{status}')"
+    return total, (
+        f"estimated run time about {_duration(total)}: one design {t:.3g} s x {n} designs on "
+        f"{w} worker{'s' if w > 1 else ''}{note}"
+    )
+
+
 _EXECUTOR_HELP = (
     "auto: MPI when started under mpiexec with >1 rank, else local processes (serial for "
     "--workers 1); or serial, local, mpi."
@@ -226,7 +264,12 @@ def register(app: typer.Typer) -> None:
         ),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar, no summary."),
         check: bool = typer.Option(
-            False, "--check", help="Validate the spec against the stack and stop (no evaluation)."
+            False,
+            "--check",
+            help="Validate the spec, time one design, print the estimated run time and stop.",
+        ),
+        yes: bool = typer.Option(
+            False, "--yes", help="Start a sweep estimated to run longer than one hour."
         ),
     ) -> None:
         """Evaluate every design of a sweep and stream one CSV row per design (resumable)."""
@@ -277,7 +320,15 @@ def register(app: typer.Typer) -> None:
                     f"'{plan.stage}' over {', '.join(plan.parameters[:6])}"
                     f"{' ...' if len(plan.parameters) > 6 else ''}"
                 )
+                typer.echo(_estimate(plan, workers, executor)[1])
             return
+        if not yes and _mpi_size() == 1:
+            seconds, text = _estimate(plan, workers, executor)
+            if seconds > LONG_SWEEP_S:
+                raise InputError(
+                    f"{text}, above one hour; add --yes to start it (or narrow the space)",
+                    source="option --yes",
+                )
         out = out or Path(f"{spec.stem}.csv")
         summary = _run_with_progress(plan, out, executor, workers, chunk, quiet)
         _finish(summary, plan, out, quiet)
