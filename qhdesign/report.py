@@ -377,7 +377,7 @@ def build_review(stack_file: str | Path, settings: ReportSettings | None = None)
     stack = load_stack(path)
     text = path.read_text(encoding="utf-8")
     if not s.gate_step_V > 0:
-        raise InputError("gate step must be > 0 V", source="option --gate-step")
+        raise InputError("gate step must be > 0 V", source="option --step")
     if s.field_T is not None and not 0 < s.field_T <= 100:
         raise InputError(
             "field out of range; allowed above 0 T up to 100 T", source="option --field"

@@ -9,7 +9,7 @@ from pathlib import Path
 import typer
 
 from . import disorder as D
-from .common import guarded, option_quantity, warn
+from .common import guarded, option_quantity, renamed, warn
 
 
 def _load(stack_file: Path):
@@ -114,8 +114,9 @@ def register(app: typer.Typer) -> None:
     def bands(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         gate: str | None = typer.Option(
-            None, "--gate", help="Gate voltage (V; default: the stack's bias)."
+            None, "--gate-voltage", help="Gate voltage (V; default: the stack's bias)."
         ),
+        gate_old: str | None = typer.Option(None, "--gate", hidden=True),
         temperature: str | None = typer.Option(
             None, "--temperature", help='Solve temperature with unit, e.g. "10 mK".'
         ),
@@ -141,7 +142,8 @@ def register(app: typer.Typer) -> None:
 
         dis = D.disorder_options(background, roughness_height, roughness_length, min_mobility)
         stack = _load(stack_file)
-        v = option_quantity(gate, "voltage", "--gate")
+        gate = renamed(gate, gate_old, "--gate-voltage", "--gate")
+        v = option_quantity(gate, "voltage", "--gate-voltage")
         t = _temperature(temperature)
         b = option_quantity(field, "field", "--field")
         if b is not None and not (0.0 < b <= 100.0):
@@ -151,7 +153,7 @@ def register(app: typer.Typer) -> None:
         if v is not None:
             from qhdesign.sp1d.solve import check_gate_voltage
 
-            check_gate_voltage(stack, v, "--gate")
+            check_gate_voltage(stack, v, "--gate-voltage")
         r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
         sr = scattering(r, dis)
         _print_bands(r)
@@ -282,9 +284,12 @@ def register(app: typer.Typer) -> None:
             help='Search interval for the parameter, "LOW..HIGH" with units '
             '(e.g. "0.6 eV..0.8 eV"); default +-50% of its value.',
         ),
-        out: Path | None = typer.Option(
-            None, "--out", help="Write the calibrated stack (TOML) here (not with --mobility)."
+        toml_out: Path | None = typer.Option(
+            None,
+            "--toml",
+            help="Write the calibrated stack file (TOML) here (not with --mobility).",
         ),
+        out: Path | None = typer.Option(None, "--out", hidden=True),
         json_out: Path | None = typer.Option(None, "--json", help="Write the fit as JSON."),
         mobility: str | None = typer.Option(
             None,
@@ -298,6 +303,7 @@ def register(app: typer.Typer) -> None:
         from qhdesign.errors import InputError
         from qhdesign.sp1d import calibrate
 
+        out = renamed(toml_out, out, "--toml", "--out")
         given = [x is not None for x in (density, hall_density, threshold, mobility)]
         if sum(given) != 1:
             raise InputError(
@@ -311,7 +317,7 @@ def register(app: typer.Typer) -> None:
         if mobility is not None:
             D.calibrate_mobility(stack_file, parameter, well, mobility, out, json_out)
             return
-        for value, option in ((parameter, "--parameter"), (out, "--out")):
+        for value, option in ((parameter, "--parameter"), (out, "--toml")):
             if value is None:
                 raise InputError(
                     "required with --density, --hall-density or --threshold",

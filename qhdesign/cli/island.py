@@ -10,7 +10,7 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity
+from .common import guarded, option_quantity, renamed
 
 
 def _print(res) -> None:
@@ -67,8 +67,11 @@ def register(app: typer.Typer) -> None:
             None, "--filling", help="Laughlin filling 1/m for the periods (1, 1/3, 1/5)."
         ),
         gap: str | None = typer.Option(
-            None, "--gap", help="Quasiparticle gap for the fixed-filling window, e.g. '50 ueV'."
+            None,
+            "--gap-energy",
+            help="Quasiparticle gap for the fixed-filling window, e.g. '120 ueV'.",
         ),
+        gap_old: str | None = typer.Option(None, "--gap", hidden=True),
         screening: str = typer.Option(
             "tf",
             "--screening",
@@ -89,7 +92,7 @@ def register(app: typer.Typer) -> None:
         refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
         json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
         plot: Path | None = typer.Option(
-            None, "--plot", help="Write the potential maps u_I, u_L (PNG/SVG)."
+            None, "--plot", help="Write the potential maps u_I, u_L (PNG, SVG or PDF by suffix)."
         ),
     ) -> None:
         """Capacitance matrix, K_I, K_L, K_IL and charging energy of an island in STACK_FILE."""
@@ -100,6 +103,7 @@ def register(app: typer.Typer) -> None:
         from qhdesign.pipeline import solve_island
         from qhdesign.stack import load_stack
 
+        gap = renamed(gap, gap_old, "--gap-energy", "--gap")
         geometry = IslandGeometry(
             radius_m=option_quantity(radius, "length", "--radius"),
             ring_width_m=option_quantity(ring_width, "length", "--ring-width"),

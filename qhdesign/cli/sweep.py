@@ -16,7 +16,7 @@ from pathlib import Path
 
 import typer
 
-from .common import check_figure_path, guarded
+from .common import check_figure_path, guarded, renamed
 
 #: A sweep estimated to run longer than this (s) starts only with --yes.
 LONG_SWEEP_S = 3600.0
@@ -238,9 +238,10 @@ def register(app: typer.Typer) -> None:
         spec: Path = typer.Argument(
             ..., help="Sweep spec TOML (docs/sweeps.md), or a stack TOML with --param."
         ),
-        out: Path | None = typer.Option(
-            None, "--out", help="CSV to write or resume (default: <spec name>.csv here)."
+        csv_out: Path | None = typer.Option(
+            None, "--csv", help="CSV to write or resume (default: <spec name>.csv here)."
         ),
+        out: Path | None = typer.Option(None, "--out", hidden=True),
         workers: int | None = typer.Option(
             None, "--workers", help="Local worker processes (default: all cores)."
         ),
@@ -277,6 +278,7 @@ def register(app: typer.Typer) -> None:
         from qhdesign.sweep.spec import build_plan, load_spec
 
         quiet = quiet or _mpi_rank() > 0
+        out = renamed(csv_out, out, "--csv", "--out")
         try:
             raw = tomllib.loads(spec.read_text(encoding="utf-8")) if spec.is_file() else None
         except (tomllib.TOMLDecodeError, UnicodeDecodeError):
@@ -340,7 +342,10 @@ def register(app: typer.Typer) -> None:
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file (the nominal design)."),
         samples: int = typer.Option(1000, "--samples", help="Monte Carlo samples (wafers)."),
         seed: int = typer.Option(1, "--seed", help="Random seed (same seed, same samples)."),
-        out: Path | None = typer.Option(None, "--out", help="CSV (default <stack>_tolerance.csv)."),
+        csv_out: Path | None = typer.Option(
+            None, "--csv", help="CSV (default <stack>_tolerance.csv)."
+        ),
+        out: Path | None = typer.Option(None, "--out", hidden=True),
         stage: str = typer.Option("bands", "--stage", help="Stage evaluated per sample."),
         option: list[str] | None = typer.Option(
             None, "--option", help="Stage option KEY=VALUE (VALUE may be JSON)."
@@ -392,7 +397,7 @@ def register(app: typer.Typer) -> None:
             "criteria": {k: {"min": lo, "max": hi} for k, (lo, hi) in criteria.items()},
         }
         plan = build_plan(doc, source="command line", base_dir=Path.cwd())
-        out = out or Path(f"{stack_file.stem}_tolerance.csv")
+        out = renamed(csv_out, out, "--csv", "--out") or Path(f"{stack_file.stem}_tolerance.csv")
         summary = _run_with_progress(plan, out, executor, workers, None, quiet or rank > 0)
         if summary is None:
             return
@@ -420,7 +425,10 @@ def register(app: typer.Typer) -> None:
         require: list[str] | None = typer.Option(
             None, "--require", help="Feasible if COLUMN=MIN..MAX; the rest is hatched."
         ),
-        out: Path | None = typer.Option(None, "--out", help="Figure file (PNG/SVG/PDF)."),
+        plot: Path | None = typer.Option(
+            None, "--plot", help="Figure file (PNG, SVG or PDF by suffix; default <csv>.png)."
+        ),
+        out: Path | None = typer.Option(None, "--out", hidden=True),
     ) -> None:
         """Design-window map (--x, --y), line plot (--x) or Monte Carlo histograms of a sweep."""
         from qhdesign.errors import InputError
@@ -428,8 +436,9 @@ def register(app: typer.Typer) -> None:
         from qhdesign.plotting.sweep import plot_sweep_table
         from qhdesign.sweep.table import read_sweep_csv
 
+        out = renamed(plot, out, "--plot", "--out")
         if out is not None:
-            check_figure_path(out, "--out")
+            check_figure_path(out, "--plot")
         if x is not None and y is not None and x == y:
             raise InputError("--x and --y name the same parameter", source="option --y")
         table = read_sweep_csv(csv_file)

@@ -15,7 +15,7 @@ def args(tmp_path, *extra):
         "sweep", str(SCREENED), "--stage", "capacitor", "--option", f"densities={DENS}",
         "--param", "layers.setback_upper.thickness=20 nm..40 nm:5",
         "--param", "layers.setback_lower.thickness=20 nm..40 nm:4",
-        "--executor", "serial", "--out", str(tmp_path / "s.csv"), *extra,
+        "--executor", "serial", "--csv", str(tmp_path / "s.csv"), *extra,
     ]  # fmt: skip
 
 

@@ -36,7 +36,7 @@ def test_cli_hall_density(cli_runner, app, tmp_path):
         app,
         [
             "calibrate", str(SCREENED), "--parameter", "doping.delta_lower.sheet",
-            "--hall-density", "4.7e11 cm^-2", "--out", str(out),
+            "--hall-density", "4.7e11 cm^-2", "--toml", str(out),
         ],
     )  # fmt: skip
     assert res.exit_code == 0, res.output
@@ -49,7 +49,7 @@ def test_cli_needs_a_well_for_one_well_targets(cli_runner, app, tmp_path):
         app,
         [
             "calibrate", str(SCREENED), "--parameter", "surface.barrier",
-            "--density", "1e11 cm^-2", "--out", str(tmp_path / "x.toml"),
+            "--density", "1e11 cm^-2", "--toml", str(tmp_path / "x.toml"),
         ],
     )  # fmt: skip
     assert_one_line_error(res, "--well")
@@ -68,7 +68,7 @@ def test_calibrate_edits_the_file_in_place_in_its_units(cli_runner, app, tmp_pat
         app,
         [
             "calibrate", str(src), "--parameter", "substrate.barrier", "--well", "screen_lower",
-            "--density", "2.02e11 cm^-2", "--out", str(out), "--range", "0.5 eV..0.9 eV",
+            "--density", "2.02e11 cm^-2", "--toml", str(out), "--range", "0.5 eV..0.9 eV",
         ],
     )  # fmt: skip
     assert res.exit_code == 0, res.output

@@ -66,7 +66,7 @@ def test_linked_parameter_on_the_command_line(cli_runner, app, tmp_path):
         [
             "sweep", str(SCREENED), "--stage", "capacitor",
             "--option", "densities=" + __import__("json").dumps(DENS),
-            "--param", f"{UP}+{LO}=24 nm..36 nm:4", "--out", str(out),
+            "--param", f"{UP}+{LO}=24 nm..36 nm:4", "--csv", str(out),
         ],
     )  # fmt: skip
     assert res.exit_code == 0, res.output
@@ -76,7 +76,7 @@ def test_linked_parameter_on_the_command_line(cli_runner, app, tmp_path):
         app,
         [
             "sweep", str(SCREENED), "--stage", "capacitor", "--param",
-            f"{UP}+layers.nope.thickness=24 nm..36 nm:4", "--out", str(tmp_path / "x.csv"),
+            f"{UP}+layers.nope.thickness=24 nm..36 nm:4", "--csv", str(tmp_path / "x.csv"),
         ],
     )  # fmt: skip
     assert_one_line_error(bad, "nope")
