@@ -70,7 +70,10 @@ def test_forward_bias_warning(cli_runner, app):
         (["--temperature", "0 K"], ["--temperature", "above 0 K"]),
         (["--temperature", "-2 K"], ["--temperature", "above 0 K"]),
         (["--temperature", "3"], ["--temperature", "no unit"]),
-        (["--gate-voltage", "0.95"], ["surface.barrier", "past the Schottky barrier", "below +0.800 V"]),
+        (
+            ["--gate-voltage", "0.95"],
+            ["surface.barrier", "past the Schottky barrier", "below +0.800 V"],
+        ),
         (["--gate-voltage", "abc"], ["--gate"]),
         (["--field", "-1 T"], ["--field", "above 0 T"]),
     ],

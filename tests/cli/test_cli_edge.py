@@ -159,7 +159,16 @@ def test_pinchoff_tells_closed_at_start_from_never_pinched(
     # starting at -1.2 V the upper screening well is already closed at the constriction centre,
     # the lower one stays open down to -1.5 V: the two must not read the same
     out = tmp_path / "p.json"
-    args = ["pinchoff", str(screened_path), "--gate-gap", "300 nm", "--from", "-1.2", "--to", "-1.5"]
+    args = [
+        "pinchoff",
+        str(screened_path),
+        "--gate-gap",
+        "300 nm",
+        "--from",
+        "-1.2",
+        "--to",
+        "-1.5",
+    ]
     r = cli_runner.invoke(app, [*args, "--step", "0.1", "--refine", "0.5", "--json", str(out)])
     assert r.exit_code == 0, r.output
     status = json.loads(out.read_text())["pinchoff_status"]
