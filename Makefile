@@ -12,7 +12,7 @@ BASE_PY := $(shell for p in $(PYTHON_CANDIDATES); do \
     if $$p -c 'import sys; sys.exit(0 if sys.version_info >= (3, 12) else 1)' >/dev/null 2>&1; then \
       command -v $$p 2>/dev/null || echo $$p; break; fi; done)
 
-.PHONY: demo test bench lint venv clean validation browser
+.PHONY: demo test test-fast bench lint venv clean validation browser
 
 $(VENV)/.installed: pyproject.toml
 	@if [ -z "$(BASE_PY)" ]; then \
@@ -43,7 +43,8 @@ demo: $(VENV)/.installed
 	  --contour "primary_mobility_cm^2/Vs=6e5" --plot $(OUT)/setback_mobility.png
 	$(QH) edge $(STACK) --gate-voltage -1.0 --field 2 --filling 1 --perimeter "4 um" \
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
-	$(QH) island $(STACK) --radius "1.15 um" --filling 1/3 --gap-energy "120 ueV" \
+	$(QH) island $(STACK) --gate-radius "1.25 um" --gate-voltage -1.0 --filling 1/3 --gap "120 ueV" \
+	  --field-range "11.5..14 T:20" --csv $(OUT)/island_vs_B.csv \
 	  --json $(OUT)/island.json --plot $(OUT)/island.png
 	$(QH) report $(STACK) --field "2 T" --gate-voltage -1.0 --island "1.15 um" --filling 1/3 \
 	  --gap-energy "120 ueV" -o $(OUT)/review.html --json $(OUT)/review.json
@@ -51,6 +52,10 @@ demo: $(VENV)/.installed
 
 test: $(VENV)/.installed
 	$(PY) -m pytest -q
+
+# The quick tier while iterating: everything but the slow (> ~20 s) and the mpiexec tests.
+test-fast: $(VENV)/.installed
+	$(PY) -m pytest -q -m "not slow and not mpi"
 
 # Regenerate the checked table of docs/validation.md from a run of the reference tests (each
 # records its check, source, tolerance and deviation; scripts/render_validation.py renders them).

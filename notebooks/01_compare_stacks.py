@@ -57,3 +57,31 @@ out = root / "results" / "notebooks"
 out.mkdir(parents=True, exist_ok=True)
 fig.savefig(out / "01_compare_stacks.png", dpi=100)
 print("wrote", out / "01_compare_stacks.png")
+
+# %% [markdown]
+# ## Checks: physical invariants
+# Whatever the layers, two things must hold for every stack, and the notebook stops if they do
+# not. (1) Gauss's law: the 1D column is neutral once the charge on the boundaries (surface and
+# bottom) is counted; the solver reports the imbalance relative to the donor charge. (2) The
+# sheet model handed to the 2D stage carries every charge of the 1D solution: with the
+# boundary charges, its sheets, donors and residual electrons add up to zero as well.
+
+# %%
+import numpy as np
+from scipy import constants as sc
+
+from qhdesign.sp1d import sheet_model, solve_bands
+
+for path in stacks:
+    stack = qhdesign.load_stack(path)
+    bands = solve_bands(stack)
+    assert abs(bands.charge_balance_relative) < 1e-6, (stack.name, bands.charge_balance_relative)
+    model = sheet_model(stack, bands)
+    h = np.diff(model.fixed_charge_edges_m)
+    donors = float(np.sum(model.fixed_charge_C_m3 * h))
+    column = float(np.sum(model.volume_charge_C_m3 * h)) - sc.e * sum(
+        s.density_m2 for s in model.sheets
+    )
+    total = column + bands.surface_charge_C_m2 + bands.bottom_charge_C_m2
+    assert abs(total) < 1e-6 * donors, (stack.name, total / donors)
+    print(f"{stack.name}: neutral to {abs(total) / donors:.1e} of the donor charge")

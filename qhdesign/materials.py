@@ -37,6 +37,7 @@ __all__ = [
     "conduction_band_offset",
     "dx_depth",
     "effective_mass",
+    "electron_g_factor_gaas",
     "entry",
     "gamma_gap",
     "hydrogenic_binding_energy",
@@ -100,6 +101,16 @@ def entry(key: str) -> MaterialEntry:
 
 def _v(key: str) -> float:
     return table()[key].value
+
+
+def electron_g_factor_gaas() -> float:
+    """Conduction-electron Lande g factor of bulk GaAs (dimensionless, negative: -0.44).
+
+    References
+    ----------
+    M. Oestreich, W. W. Ruehle, Phys. Rev. Lett. 74, 2315 (1995).
+    """
+    return _v("gaas.g_factor")
 
 
 def gamma_gap(x: float | np.ndarray) -> float | np.ndarray:

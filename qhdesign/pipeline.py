@@ -16,6 +16,9 @@ Functions
     Stack -> layer column of the island stage.
 :func:`solve_island`
     The island stage for a stack, a sheet model or a column.
+:func:`solve_island_operating`
+    The island at its operating point for a stack (with the disorder estimate's lifetimes) or a
+    cross-section.
 """
 
 from __future__ import annotations
@@ -30,6 +33,7 @@ __all__ = [
     "section_from_stack",
     "sheet_model_from_stack",
     "solve_island",
+    "solve_island_operating",
 ]
 
 
@@ -114,3 +118,37 @@ def solve_island(source, geometry=None, settings=None, *, comm=None, **kwargs: A
 
         source = deferred
     return solve(source, geometry, settings, comm=comm, **kwargs)
+
+
+def solve_island_operating(source, device, settings=None, **kwargs: Any):
+    """The island at its operating point (:func:`qhdesign.island.stage.solve_island_operating`)
+    for a stack as well.
+
+    For a :class:`~qhdesign.stack.Stack` the 1D stage runs once: its sheet model gives the
+    cross-section, and its disorder estimate (:func:`qhdesign.sp1d.scattering`, default options)
+    gives each well's quantum lifetime for the Landau-level widths, unless ``settings`` gives a
+    width or one lifetime. A :class:`~qhdesign.section.model.CrossSection` passes through.
+    """
+    from qhdesign.island.stage import OperatingSettings
+    from qhdesign.island.stage import solve_island_operating as solve
+    from qhdesign.stack import Stack
+
+    st = settings or OperatingSettings()
+    if isinstance(source, Stack):
+        stack = source
+        refuse_gate_dielectric(stack, "the island model")
+        _require_primary(stack)
+        from qhdesign.section.model import cross_section_from_sheet_model
+        from qhdesign.sp1d import solve_bands
+        from qhdesign.sp1d.sheets import sheet_model
+
+        bands = solve_bands(stack)
+        section = cross_section_from_sheet_model(sheet_model(stack, bands))
+        if st.level_width_J is None and st.quantum_lifetime_s is None:
+            from qhdesign.sp1d.scattering import scattering
+
+            est = scattering(bands)
+            kwargs.setdefault("lifetimes_s", {w.name: w.quantum_lifetime_s for w in est.wells})
+        kwargs.setdefault("name", str(getattr(stack, "name", "") or ""))
+        source = section
+    return solve(source, device, st, **kwargs)

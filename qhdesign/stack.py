@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import copy
 import math
-import re
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -23,6 +22,18 @@ from scipy import constants as sc
 
 from . import materials
 from .errors import StackError
+from .stackschema import (
+    _DOPING_KEYS,
+    _LAYER_KEYS,
+    _MODEL_KEYS,
+    _SUBSTRATE_KEYS,
+    _SURFACE_KEYS,
+    _WAFER_KEYS,
+    _WRITE_UNITS,
+    _denormalize,
+    _did_you_mean,
+    _format_si,
+)
 from .units import DIMENSIONS, parse_quantity
 
 __all__ = [
@@ -32,87 +43,7 @@ __all__ = [
     "Stack",
     "Substrate",
     "Surface",
-    "dump_document",
-    "load_stack",
-    "loads_stack",
 ]
-
-MAX_FILE_BYTES = 1_000_000
-MATERIALS = ("GaAs", "AlGaAs", "AlAs")
-WELL_ROLES = ("primary", "screening")
-DONOR_MODELS = ("ionized", "shallow", "dx")
-_NAME_RE = re.compile(r"^[A-Za-z_][A-Za-z0-9_\-]*$")
-
-# Key schemas: key -> kind. Kinds: a units.DIMENSIONS name, "number", "text", or a tuple of choices.
-_WAFER_KEYS: dict[str, Any] = {
-    "name": "text",
-    "notes": "text",
-    "temperature": "temperature",
-    "freeze_temperature": "temperature",
-}
-_WAFER_REQUIRED = ("name", "temperature", "freeze_temperature")
-_MODEL_KEYS: dict[str, Any] = {
-    "band_offset": ("vmr", "gap_fraction"),
-    "gap_fraction": "number",
-    "permittivity": ("alloy", "uniform"),
-    "uniform_permittivity": "number",
-}
-_SURFACE_KEYS: dict[str, Any] = {
-    "kind": ("exposed", "gate"),
-    "barrier": "energy",
-    "charge": ("frozen", "pinned"),
-    "bias": "voltage",
-    "dielectric_thickness": "length",
-    "dielectric_permittivity": "number",
-}
-_SUBSTRATE_KEYS: dict[str, Any] = {
-    "kind": ("deep", "back_gate", "pinned"),
-    "bias": "voltage",
-    "barrier": "energy",
-}
-_LAYER_KEYS: dict[str, Any] = {
-    "name": "text",
-    "material": MATERIALS,
-    "x": "number",
-    "thickness": "length",
-    "well": WELL_ROLES,
-    "band_offset": "energy",
-    "mass": "number",
-    "permittivity": "number",
-}
-_DOPING_KEYS: dict[str, Any] = {
-    "sheet": "sheet_density",
-    "volume": "volume_density",
-    "donor": DONOR_MODELS,
-    "level": "energy",
-}
-_TOP_KEYS = ("wafer", "models", "surface", "layers", "doping", "substrate")
-
-# Display units used when a float is written back into a document.
-_WRITE_UNITS = {
-    "length": "nm",
-    "sheet_density": "cm^-2",
-    "volume_density": "cm^-3",
-    "energy": "eV",
-    "voltage": "V",
-    "temperature": "K",
-}
-
-# Physical sanity ranges (SI); outside them the input is refused, not silently accepted.
-_RANGES = {
-    "layer_thickness": (0.0, 100e-6, "between 0 and 100 um (exclusive of 0)"),
-    "temperature": (0.0, 400.0, "between 0 and 400 K (exclusive of 0)"),
-    "sheet": (0.0, 1e17, "from 0 to 1e13 cm^-2"),
-    "volume": (0.0, 1e26, "from 0 to 1e20 cm^-3"),
-    "barrier": (-0.5 * sc.e, 3.0 * sc.e, "from -0.5 to 3 eV"),
-    "bias": (-50.0, 50.0, "from -50 to 50 V"),
-    "permittivity": (1.0, 100.0, "from 1 to 100"),
-    "mass": (0.005, 5.0, "from 0.005 to 5 (m*/m0)"),
-    "band_offset": (-1.0 * sc.e, 3.0 * sc.e, "from -1 to 3 eV"),
-    "dielectric_thickness": (0.0, 10e-6, "from 0 to 10 um"),
-    "gap_fraction": (0.3, 0.9, "from 0.3 to 0.9"),
-    "level": (-1.0 * sc.e, 1.0 * sc.e, "from -1 to 1 eV"),
-}
 
 
 @dataclass(frozen=True)
@@ -333,7 +264,17 @@ class Stack:
 
     # ----------------------------------------------------------------- parameter paths
     def get(self, path: str) -> Any:
-        """Value at a parameter path: SI float for quantities, float for numbers, else str."""
+        """Value at a parameter path: SI float for quantities, float for numbers, else str.
+
+        >>> from qhdesign.stack import load_stack
+        >>> stack = load_stack("stacks/ql2403_heterojunction.toml")  # from the repository root
+        >>> [layer.name for layer in stack.layers]
+        ['cap', 'doped', 'spacer', 'channel']
+        >>> import math
+        >>> math.isclose(stack.get("layers.spacer.thickness"), 50e-9)
+        True
+        >>> stack.get("layers.spacer.x")
+        0.32"""
         doc_path, kind = _resolve_path(self, path)
         node: Any = self.document
         for part in doc_path[:-1]:
@@ -361,6 +302,12 @@ class Stack:
 
         ``value`` is what the file would hold (``"30 nm"``, ``0.31``, ``"dx"``) or an SI float
         for a quantity (written back in the display unit: nm, cm^-2, eV, V, K).
+
+        >>> from qhdesign.stack import load_stack
+        >>> stack = load_stack("stacks/ql2403_heterojunction.toml")
+        >>> thicker = stack.with_value("layers.spacer.thickness", "60 nm")
+        >>> round(thicker.get("layers.spacer.thickness") * 1e9, 9), stack is not thicker
+        (60.0, True)
         """
         return self.with_values({path: value})
 
@@ -386,11 +333,15 @@ class Stack:
                         f"expected a number, got '{value}'", source=self.source, key=path
                     ) from None
             node[doc_path[-1]] = value
+        from .stackfile import _build  # the validation: stackfile imports this module
+
         return _build(_denormalize(doc), self.source)
 
     # ----------------------------------------------------------------- output
     def to_toml(self) -> str:
         """The stack as TOML text (same schema as the input); load(to_toml) == self."""
+        from .stackfile import dump_document
+
         return dump_document(_denormalize(self.document))
 
     def to_dict(self) -> dict:
@@ -436,34 +387,6 @@ class Stack:
                 "barrier_eV": self.substrate.barrier / sc.e,
             },
         }
-
-
-# ============================================================================ documents
-def _normalize(raw: dict) -> dict:
-    """Document with layers keyed by name (for paths); order kept."""
-    doc = copy.deepcopy(raw)
-    doc["layers"] = {t["name"]: t for t in raw["layers"]}
-    return doc
-
-
-def _denormalize(doc: dict) -> dict:
-    raw = copy.deepcopy(doc)
-    if isinstance(raw.get("layers"), dict):
-        raw["layers"] = list(raw["layers"].values())
-    return raw
-
-
-def _format_si(value: float, kind: str) -> str:
-    unit = _WRITE_UNITS[kind]
-    scale = {
-        "nm": 1e-9,
-        "cm^-2": 1e4,
-        "cm^-3": 1e6,
-        "eV": sc.e,
-        "V": 1.0,
-        "K": 1.0,
-    }[unit]
-    return f"{value / scale!r} {unit}"
 
 
 def _resolve_path(stack: Stack, path: str) -> tuple[list[str], Any]:
@@ -586,12 +509,15 @@ def _resolved_default(stack: Stack, doc_path: list[str], path: str) -> Any:
     raise StackError("value not set in this stack", source=stack.source, key=path)
 
 
-# Loading and validation live in stackfile.py; re-exported here (import at the end: it uses
-# the classes above).
-from .stackfile import (  # noqa: E402
-    _build,
-    _did_you_mean,
-    dump_document,
-    load_stack,
-    loads_stack,
-)
+# Loading and validation live in stackfile.py (which imports this module); its entry points are
+# also reachable here, loaded on first use, so neither module imports the other at import time.
+_FROM_STACKFILE = ("load_stack", "loads_stack", "dump_document")
+__all__ += list(_FROM_STACKFILE)
+
+
+def __getattr__(name: str):
+    if name in _FROM_STACKFILE:
+        from . import stackfile
+
+        return getattr(stackfile, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -6,7 +6,6 @@ Validation happens in one place, here, at construction: every error is a one-lin
 
 from __future__ import annotations
 
-import difflib
 import json
 import math
 import os
@@ -19,6 +18,13 @@ from scipy import constants as sc
 from . import materials
 from .errors import InputError, StackError
 from .stack import (
+    Doping,
+    Layer,
+    Stack,
+    Substrate,
+    Surface,
+)
+from .stackschema import (
     _DOPING_KEYS,
     _LAYER_KEYS,
     _MODEL_KEYS,
@@ -33,11 +39,7 @@ from .stack import (
     MATERIALS,
     MAX_FILE_BYTES,
     WELL_ROLES,
-    Doping,
-    Layer,
-    Stack,
-    Substrate,
-    Surface,
+    _did_you_mean,
     _normalize,
 )
 from .units import parse_quantity
@@ -97,11 +99,6 @@ def loads_stack(data: bytes | str, source: str = "<string>") -> Stack:
 
 
 # ============================================================================ validation
-def _did_you_mean(word: str, options) -> str:
-    close = difflib.get_close_matches(str(word), [str(o) for o in options], n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""
-
-
 def _check_keys(table: Any, allowed: dict, required: tuple, where: str, src: str) -> dict:
     if not isinstance(table, dict):
         raise StackError(f"expected a table, got {type(table).__name__}", source=src, key=where)

@@ -27,6 +27,7 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "velocity": ("[length]/[time]", "m/s", "5e4 m/s"),
     "electric_field": ("[electric_potential]/[length]", "V/m", "1e6 V/m"),
     "mobility": ("[length]**2/[electric_potential]/[time]", "m**2/V/s", "1e6 cm^2/Vs"),
+    "time": ("[time]", "s", "1 ps"),
 }
 
 _BARE_NUMBER = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$")
@@ -74,6 +75,22 @@ def parse_quantity(
     ------
     InputError
         If the string has no unit, an unknown unit, or a unit of another dimension.
+
+    Examples
+    --------
+    >>> import math
+    >>> math.isclose(parse_quantity("25 nm", "length"), 25e-9)
+    True
+    >>> parse_quantity("2.4e11 cm^-2", "sheet_density")
+    2400000000000000.0
+    >>> parse_quantity("300 mK", "temperature")
+    0.3
+    >>> from qhdesign.errors import InputError
+    >>> try:
+    ...     parse_quantity("25", "length")  # a bare number has no unit
+    ... except InputError:
+    ...     print("refused")
+    refused
     """
     _, si_unit, example = DIMENSIONS[dimension]
     if isinstance(value, bool) or not isinstance(value, str):
@@ -125,6 +142,10 @@ def format_quantity(value_si: float, unit: str, dimension: str | None = None) ->
 
     Uses ``repr`` of the converted number so that parse(format(x)) round-trips to the last bit
     whenever the conversion factor is exact in binary, and to ~1 ulp otherwise.
+
+    >>> import math
+    >>> math.isclose(parse_quantity(format_quantity(2.5e-8, "nm"), "length"), 2.5e-8)
+    True
     """
     ureg = registry()
     if dimension is not None:

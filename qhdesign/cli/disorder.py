@@ -80,6 +80,15 @@ def print_disorder(sr, console) -> None:
             f"{top.name} ({top.transport_rate_s / rt:.0%})",
         )
     console.print(t)
+    for w in sr.wells:
+        rt = sum(s.transport_rate_s for s in w.sources)
+        rq = sum(s.quantum_rate_s for s in w.sources)
+        if rt > 0 and rq > 0:
+            parts = ", ".join(
+                f"{s.name} {s.transport_rate_s / rt:.0%} ({s.quantum_rate_s / rq:.0%})"
+                for s in w.sources
+            )
+            console.print(f"{w.name} shares of 1/tau_t (1/tau_q): {parts}", soft_wrap=True)
     o = sr.options
     p = next((w for w in sr.wells if w.role == "primary"), None)
     if p is not None and not math.isnan(p.mobility_m2_per_Vs):

@@ -194,6 +194,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Depletion edge of STACK_FILE under a gate: width, healing, strips, lever arm."""
         from qhdesign.errors import InputError
+        from qhdesign.fem.grid import check_refine
         from qhdesign.section import EdgeSettings, MeshOptions, SolverOptions
 
         v = option_quantity(gate_voltage, "voltage", "--gate-voltage")
@@ -208,8 +209,7 @@ def register(app: typer.Typer) -> None:
         per = _positive_length(perimeter, "--perimeter")
         gap = renamed(gap, gap_old, "--gate-gap", "--gap")
         w = _positive_length(gap, "--gate-gap")
-        if not 0.1 <= refine <= 8:
-            raise InputError("refine must lie in [0.1, 8]", source="option --refine")
+        check_refine(refine, source="option --refine")
         settings = EdgeSettings(v, field_T=b, filling=nu, gap_energy_J=e_gap, perimeter_m=per)
         stack, section, surf = _load_section(stack_file, surface, gate_barrier)
         mesh = MeshOptions(refine=refine)
@@ -275,6 +275,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Centre density of a split-gate constriction vs gate voltage; pinch-off per well."""
         from qhdesign.errors import InputError
+        from qhdesign.fem.grid import check_refine
         from qhdesign.section import MeshOptions, SolverOptions, solve_pinchoff
 
         gap = renamed(gap, gap_old, "--gate-gap", "--gap")
@@ -291,8 +292,7 @@ def register(app: typer.Typer) -> None:
             raise InputError("step must lie in [1 mV, 1 V]", source="option --step")
         if not b < a:
             raise InputError("--to must be more negative than --from", source="option --to")
-        if not 0.1 <= refine <= 8:
-            raise InputError("refine must lie in [0.1, 8]", source="option --refine")
+        check_refine(refine, source="option --refine")
         stack, section, surf = _load_section(stack_file, surface, gate_barrier)
         res = solve_pinchoff(
             section,

@@ -1,7 +1,11 @@
-"""``qhdesign island``: capacitances and energies of an interferometer island (2D axisymmetric).
+"""``qhdesign island``: the interferometer island (2D axisymmetric).
 
-The 1D stage runs first to place the wells, then the island's Maxwell capacitance matrix is
-solved on DOLFINx. Under ``mpiexec`` every rank solves its part; only rank 0 prints and writes.
+Default: the island at its operating point (:mod:`qhdesign.island`): the gate opening and bias
+in, a nonlinear Thomas–Fermi solve of every sheet, the linear response around it (K_I, K_L, K_IL
+with the edge's own term), periods and window; ``--field-range`` across a plateau.
+Legacy (``--radius``): the split-gap conductor island of a given electronic radius
+(:mod:`qhdesign.tf2d.island`), kept for comparison. Under ``mpiexec`` every rank solves its
+part; only rank 0 prints and writes.
 """
 
 from __future__ import annotations
@@ -10,7 +14,7 @@ from pathlib import Path
 
 import typer
 
-from .common import guarded, option_quantity, renamed
+from .common import guarded, option_quantity
 
 
 def _print(res) -> None:
@@ -51,31 +55,82 @@ def register(app: typer.Typer) -> None:
     @guarded
     def island(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
-        radius: str = typer.Option(
-            ..., "--radius", help="Electronic radius of the island, e.g. '0.8 um'."
+        gate_radius: str | None = typer.Option(
+            None, "--gate-radius", help="Lithographic radius of the gate opening, e.g. '1.25 um'."
+        ),
+        electronic_radius: str | None = typer.Option(
+            None,
+            "--electronic-radius",
+            help="Instead of --gate-radius: a measured radius of the interfering edge; the "
+            "opening that puts the edge there is solved for.",
+        ),
+        gate_voltage: str | None = typer.Option(
+            None, "--gate-voltage", help="Bias of the ring gate, e.g. -1.0 (V)."
+        ),
+        gate_width: str | None = typer.Option(
+            None, "--gate-width", help="Width of the ring gate (default 1 um)."
+        ),
+        field: str | None = typer.Option(
+            None,
+            "--field",
+            help="Operating field (default: the primary's 1D density at --filling).",
+        ),
+        field_range: str | None = typer.Option(
+            None,
+            "--field-range",
+            help="Fields B1..B2:N for the K's across a plateau, e.g. '11.5..13.5 T:20'.",
+        ),
+        gap_kind: str = typer.Option(
+            "quasiparticle",
+            "--gap-kind",
+            help="Which gap --gap is: quasiparticle (creation energy) or activation (= 2x).",
+        ),
+        temperature: str | None = typer.Option(
+            None, "--temperature", help="Island temperature (default: the stack's)."
+        ),
+        level_width: str | None = typer.Option(
+            None, "--level-width", help="Landau-level width Gamma of the sheets, e.g. '1 meV'."
+        ),
+        quantum_lifetime: str | None = typer.Option(
+            None, "--quantum-lifetime", help="Quantum lifetime for Gamma (default 1 ps)."
+        ),
+        g_factor: float | None = typer.Option(None, "--g-factor", help="|g*| (default 0.44)."),
+        exchange: bool = typer.Option(
+            True, "--exchange/--no-exchange", help="Hartree-Fock exchange in the sheets' dmu/dn."
+        ),
+        bulk_charge: str = typer.Option(
+            "uniform", "--bulk-charge", help="Shape of the bulk's added charge: uniform, parabolic."
+        ),
+        r_threshold: float = typer.Option(
+            0.5, "--r-threshold", help="Flag fields where K_IL/K_I exceeds this."
+        ),
+        csv_out: Path | None = typer.Option(
+            None, "--csv", help="Write the --field-range table as CSV (SI)."
+        ),
+        radius: str | None = typer.Option(
+            None,
+            "--radius",
+            help="LEGACY: electronic radius of the split-gap conductor island (old model).",
         ),
         ring_width: str = typer.Option(
-            "50 nm", "--ring-width", help="Width of the interfering edge ring."
+            "50 nm", "--ring-width", help="LEGACY (--radius): width of the edge ring."
         ),
         gate_offset: str = typer.Option(
-            "100 nm", "--gate-offset", help="Gate edge minus electronic radius (R_gate - R)."
+            "100 nm", "--gate-offset", help="LEGACY (--radius): R_gate - R."
         ),
         split_gap: str = typer.Option(
-            "10 nm", "--split-gap", help="Gap between bulk and edge ring (incompressible strip)."
+            "10 nm", "--split-gap", help="LEGACY (--radius): gap between bulk and edge ring."
         ),
         filling: str | None = typer.Option(
             None, "--filling", help="Laughlin filling 1/m for the periods (1, 1/3, 1/5)."
         ),
         gap: str | None = typer.Option(
-            None,
-            "--gap-energy",
-            help="Quasiparticle gap for the fixed-filling window, e.g. '120 ueV'.",
+            None, "--gap", help="Gap of the filling, e.g. '120 ueV' (kind: --gap-kind)."
         ),
-        gap_old: str | None = typer.Option(None, "--gap", hidden=True),
         screening: str = typer.Option(
             "tf",
             "--screening",
-            help="Screening wells: tf (Thomas-Fermi, with quantum capacitance) or grounded.",
+            help="LEGACY (--radius): screening wells tf or grounded.",
         ),
         surface: str | None = typer.Option(
             None,
@@ -87,31 +142,34 @@ def register(app: typer.Typer) -> None:
         outer_well: bool = typer.Option(
             True,
             "--outer-well/--no-outer-well",
-            help="Keep the primary well beyond the gate edge as a screening sheet.",
+            help="LEGACY (--radius): primary well beyond the gate edge as a sheet.",
         ),
         refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
         json_out: Path | None = typer.Option(None, "--json", help="Write results as JSON (SI)."),
         plot: Path | None = typer.Option(
-            None, "--plot", help="Write the potential maps u_I, u_L (PNG, SVG or PDF by suffix)."
+            None, "--plot", help="Write the figure (n(r) and, with --field-range, K's vs B)."
         ),
     ) -> None:
-        """Capacitance matrix, K_I, K_L, K_IL and charging energy of an island in STACK_FILE."""
-        from qhdesign.errors import InputError
+        """K_I, K_L, K_IL, charging energy, periods and window of an island in STACK_FILE."""
+
+        if radius is None:
+            from .island_op import run
+
+            return run(stack_file, dict(locals()))
         from qhdesign.fem.backend import load
+        from qhdesign.fem.grid import check_refine
         from qhdesign.island import IslandGeometry
         from qhdesign.island.conductor import parse_filling
         from qhdesign.pipeline import solve_island
         from qhdesign.stack import load_stack
 
-        gap = renamed(gap, gap_old, "--gap-energy", "--gap")
         geometry = IslandGeometry(
             radius_m=option_quantity(radius, "length", "--radius"),
             ring_width_m=option_quantity(ring_width, "length", "--ring-width"),
             gate_offset_m=option_quantity(gate_offset, "length", "--gate-offset"),
             split_gap_m=option_quantity(split_gap, "length", "--split-gap"),
         )
-        if not 0.25 <= refine <= 4:
-            raise InputError("refine must lie in [0.25, 4]", source="option --refine")
+        check_refine(refine, source="option --refine")
         options = {
             "screening": screening,
             "surface": surface,

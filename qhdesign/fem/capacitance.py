@@ -52,7 +52,7 @@ from scipy import constants as sc
 from qhdesign.errors import InputError
 
 from .grid import graded_nodes
-from .tensor_mesh import NM, TensorNumbering, build_tensor_mesh
+from .tensor_mesh import NM, TensorModel, TensorNumbering, build_tensor_mesh
 
 __all__ = [
     "AxiLine",
@@ -350,16 +350,17 @@ def build(problem: AxiProblem, mesh_options: AxiMeshOptions | None = None, *, co
     timings: dict[str, float] = {}
     t0 = time.perf_counter()
     r_m, z_m = build_axi_grid(problem, opts)
-    groups = _facet_groups(problem, r_m, z_m) if comm.rank == 0 else []
-    data = build_tensor_mesh(
-        "qhdesign_axisymmetric",
-        r_m,
-        z_m,
-        _layer_of_interval(problem, z_m),
-        len(problem.layer_permittivity),
-        groups,
-        comm,
-    )
+    model = None
+    if comm.rank == 0:
+        model = TensorModel(
+            "qhdesign_axisymmetric",
+            r_m,
+            z_m,
+            _layer_of_interval(problem, z_m),
+            len(problem.layer_permittivity),
+            _facet_groups(problem, r_m, z_m),
+        )
+    data = build_tensor_mesh(model, comm)
     msh, ct, ft = data.mesh, data.cell_tags, data.facet_tags
     timings["mesh_s"] = time.perf_counter() - t0
 

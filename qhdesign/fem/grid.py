@@ -24,7 +24,33 @@ from collections.abc import Sequence
 
 import numpy as np
 
-__all__ = ["graded_nodes", "size_function"]
+__all__ = ["REFINE_RANGE", "check_refine", "graded_nodes", "size_function"]
+
+#: Allowed mesh refinement factors, one range for every FEM stage: 1 is the default resolution,
+#: 2 halves every cell and the growth rate (about four times the dofs in 2D), 0.25 is the
+#: coarsest that still resolves a sheet, 4 already costs ~16x the default.
+REFINE_RANGE = (0.25, 4.0)
+
+
+def check_refine(value, *, source: str | None = None, key: str = "refine") -> float:
+    """``value`` as a refinement factor in :data:`REFINE_RANGE`, else an InputError naming
+    ``source``/``key`` and the allowed range.
+
+    >>> check_refine(2)
+    2.0
+    """
+    from qhdesign.errors import InputError
+
+    lo, hi = REFINE_RANGE
+    try:
+        ref = float(value)
+    except (TypeError, ValueError):
+        ref = float("nan")
+    if isinstance(value, bool) or not lo <= ref <= hi:
+        raise InputError(
+            f"refine must lie in [{lo:g}, {hi:g}], got {value!r}", source=source, key=key
+        )
+    return ref
 
 
 def size_function(

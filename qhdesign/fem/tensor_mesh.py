@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["NM", "TensorNumbering", "build_tensor_mesh", "gmsh_tensor_model"]
+__all__ = ["NM", "TensorModel", "TensorNumbering", "build_tensor_mesh", "gmsh_tensor_model"]
 
 #: Mesh length unit (m): coordinates are in nanometres.
 NM = 1e-9
@@ -80,17 +80,11 @@ def _triangles(node: np.ndarray, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     return t1, t2
 
 
-def gmsh_tensor_model(
-    name: str,
-    x_m: np.ndarray,
-    z_m: np.ndarray,
-    layer_of_interval: np.ndarray,
-    n_layers: int,
-    facet_groups: Sequence[tuple[int, str, np.ndarray]],
-) -> None:
-    """Create the discrete gmsh model of a tensor grid (rank 0; gmsh must be initialised).
+@dataclass(frozen=True, eq=False)
+class TensorModel:
+    """A tensor grid with its layers and facet groups, ready to mesh.
 
-    Parameters
+    Attributes
     ----------
     name
         gmsh model name.
@@ -104,20 +98,31 @@ def gmsh_tensor_model(
         ``(physical tag, name, segments)``: node-tag pairs (:class:`TensorNumbering`) of each
         facet group, in the order their curves are added; empty groups are skipped.
     """
+
+    name: str
+    x_m: np.ndarray
+    z_m: np.ndarray
+    layer_of_interval: np.ndarray
+    n_layers: int
+    facet_groups: Sequence[tuple[int, str, np.ndarray]] = ()
+
+
+def gmsh_tensor_model(model: TensorModel) -> None:
+    """Create the discrete gmsh model of a tensor grid (rank 0; gmsh must be initialised)."""
     import gmsh
 
-    x = np.asarray(x_m, dtype=float) / NM
-    y = -np.asarray(z_m, dtype=float) / NM
+    x = np.asarray(model.x_m, dtype=float) / NM
+    y = -np.asarray(model.z_m, dtype=float) / NM
     num = TensorNumbering(x.size, y.size)
     node = num.node
     X, Y = np.meshgrid(x, y)  # (nz, nx): row = level
     coords = np.column_stack((X.ravel(), Y.ravel(), np.zeros(X.size))).ravel()
-    gmsh.model.add(name)
+    gmsh.model.add(model.name)
     t1, t2 = _triangles(node, x)
     next_elem = 1
     first = True
-    layer_of_interval = np.asarray(layer_of_interval)
-    for li in range(n_layers):
+    layer_of_interval = np.asarray(model.layer_of_interval)
+    for li in range(model.n_layers):
         rows = np.nonzero(layer_of_interval == li)[0]
         if rows.size == 0:
             continue
@@ -127,37 +132,34 @@ def gmsh_tensor_model(
             gmsh.model.mesh.addNodes(2, tag, node.ravel(), coords)
             first = False
         tri = np.concatenate((t1[rows].reshape(-1, 3), t2[rows].reshape(-1, 3)))
-        ne = tri.shape[0]
-        gmsh.model.mesh.addElementsByType(tag, 2, np.arange(next_elem, next_elem + ne), tri.ravel())
-        next_elem += ne
-        gmsh.model.addPhysicalGroup(2, [tag], tag, name=f"layer{li}")
+        next_elem = _add_entity(gmsh, 2, tag, tri, next_elem, tag, f"layer{li}", add=False)
     curve = 0
-    for phys, group_name, segments in facet_groups:
+    for phys, group_name, segments in model.facet_groups:
         seg = np.asarray(segments, dtype=np.int64).reshape(-1, 2)
         if seg.size == 0:
             continue
         curve += 1
-        gmsh.model.addDiscreteEntity(1, curve)
-        ne = seg.shape[0]
-        gmsh.model.mesh.addElementsByType(
-            curve, 1, np.arange(next_elem, next_elem + ne), seg.ravel()
-        )
-        next_elem += ne
-        gmsh.model.addPhysicalGroup(1, [curve], phys, name=group_name)
+        next_elem = _add_entity(gmsh, 1, curve, seg, next_elem, phys, group_name)
 
 
-def build_tensor_mesh(
-    name: str,
-    x_m: np.ndarray,
-    z_m: np.ndarray,
-    layer_of_interval: np.ndarray,
-    n_layers: int,
-    facet_groups: Sequence[tuple[int, str, np.ndarray]],
-    comm,
-):
+def _add_entity(gmsh, dim, tag, elements, next_elem, phys, name, *, add=True) -> int:
+    """Add elements (triangles if dim 2, segments if dim 1; rows of node tags) to entity ``tag``
+    (created unless ``add`` is False), put it in physical group ``phys``; next free element tag."""
+    if add:
+        gmsh.model.addDiscreteEntity(dim, tag)
+    ne = elements.shape[0]
+    # gmsh element type 2 is the 3-node triangle, type 1 the 2-node line: the type equals dim
+    gmsh.model.mesh.addElementsByType(
+        tag, dim, np.arange(next_elem, next_elem + ne), elements.ravel()
+    )
+    gmsh.model.addPhysicalGroup(dim, [tag], phys, name=name)
+    return next_elem + ne
+
+
+def build_tensor_mesh(model: TensorModel, comm):
     """Mesh a tensor grid with gmsh on rank 0 and distribute it (see :func:`gmsh_tensor_model`).
 
-    ``facet_groups`` is only read on rank 0 (other ranks may pass an empty list).
+    Only rank 0 reads ``model`` (other ranks may pass None).
 
     Returns
     -------
@@ -166,7 +168,4 @@ def build_tensor_mesh(
     """
     from .backend import mesh_from_gmsh
 
-    return mesh_from_gmsh(
-        lambda: gmsh_tensor_model(name, x_m, z_m, layer_of_interval, n_layers, facet_groups),
-        comm,
-    )
+    return mesh_from_gmsh(lambda: gmsh_tensor_model(model), comm)

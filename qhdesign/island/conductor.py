@@ -41,6 +41,8 @@ from scipy import constants as sc
 
 from qhdesign.errors import InputError
 from qhdesign.fem.capacitance import AxiLine, AxiMeshOptions, AxiProblem, solve_capacitance
+from qhdesign.fem.grid import check_refine
+from qhdesign.results import Table
 
 __all__ = [
     "IslandColumn",
@@ -451,6 +453,14 @@ class IslandResult:
             "fixed_filling_window_mT": mT(p["fixed_filling_window_T"]),
         }
 
+    def table(self) -> Table:
+        """The Maxwell matrix and the elastance matrix, one row per conductor (0 = I, 1 = L)."""
+        C = 1e18 * self.capacitance_F
+        K = self.elastance_J / UEV
+        cols = ("conductor_index", "C_with_I_aF", "C_with_L_aF", "K_with_I_ueV", "K_with_L_ueV")
+        rows = np.column_stack(([0.0, 1.0], C[:, 0], C[:, 1], K[:, 0], K[:, 1]))
+        return Table(cols, rows)
+
 
 # ---------------------------------------------------------------------------- problem
 def island_problem(
@@ -478,8 +488,7 @@ def island_problem(
             if s.outer_well:
                 lines.append(sheet(f"{wl.name}_outside", wl.z_m, Rg, wl.dos_J_m2))
             continue
-        if wl.role == "primary":  # a second primary well: treated like a screening well
-            pass
+        # a second primary well is treated like a screening well
         if not (wl.density_m2 > EMPTY_DENSITY_M2 or math.isnan(wl.density_m2)):
             excluded.append(wl.name)
             continue
@@ -559,13 +568,7 @@ def _from_options(options: dict) -> tuple[IslandGeometry | None, dict, dict]:
                 raise InputError(f"element degree must be 1 or 2, got {value!r}", source=_opt(key))
             mesh[key] = int(value)
         elif key == "refine":
-            try:
-                ref = float(value)
-            except (TypeError, ValueError):
-                ref = math.nan
-            if isinstance(value, bool) or not 0.1 <= ref <= 8.0:
-                raise InputError(f"refine must lie in [0.1, 8], got {value!r}", source=_opt(key))
-            mesh[key] = ref
+            mesh[key] = check_refine(value, source=_opt(key))
         else:
             allowed = [*_LENGTHS, "screening", "surface", "far", "outer_well", "filling", "gap"]
             raise InputError(

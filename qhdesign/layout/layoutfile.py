@@ -29,6 +29,7 @@ __all__ = [
     "Constriction",
     "Gate",
     "Layout",
+    "check_voltage",
     "load_layout",
     "loads_layout",
 ]
@@ -286,7 +287,8 @@ def _point(v: Any, key: str, src: str) -> tuple[float, float]:
     )
 
 
-def _check_voltage(v: float, key: str, src: str, barrier_V: float, stack_src: str) -> float:
+def check_voltage(v: float, key: str, src: str, barrier_V: float, stack_src: str) -> float:
+    """Refuse a voltage at or past the Schottky barrier or below -20 V (one line, file, key)."""
     if v >= barrier_V:
         raise _err(
             f"{v:+.3f} V is past the Schottky barrier ({barrier_V:.3f} eV, surface.barrier of "
@@ -375,7 +377,7 @@ def _build(raw: dict, src: str, base: Path, stack) -> Layout:
         if not isinstance(verts, list) or not 3 <= len(verts) <= MAX_VERTICES:
             raise _err(f"expected 3 to {MAX_VERTICES} points", src, f"{where}.vertices")
         poly = np.array([_point(v, f"{where}.vertices[{j}]", src) for j, v in enumerate(verts)])
-        volt = _check_voltage(
+        volt = check_voltage(
             _qty(tab, "voltage", "voltage", where, src),
             f"{where}.voltage",
             src,
@@ -495,14 +497,14 @@ def _island(tab: Any, src: str, barrier_V: float, stack_src: str, gate_edge: flo
         spacing_m=w("spacing", 60e-9),
         plunger_width_m=w("plunger_width"),
         plungers=int(plungers),
-        wall_voltage_V=_check_voltage(
+        wall_voltage_V=check_voltage(
             _qty(tab, "wall_voltage", "voltage", "island", src),
             "island.wall_voltage",
             src,
             barrier_V,
             stack_src,
         ),
-        plunger_voltage_V=_check_voltage(
+        plunger_voltage_V=check_voltage(
             _qty(tab, "plunger_voltage", "voltage", "island", src),
             "island.plunger_voltage",
             src,

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from qhdesign.errors import InputError
+from qhdesign.results import Table, nan_if_none
 
 from .edge import _check_electrons, _check_gate_voltage
 from .geometry import GateLayout, MeshOptions
@@ -91,6 +92,22 @@ class PinchoffResult:
             },
             "solver": dict(self.info),
         }
+
+    def summary(self) -> dict[str, float]:
+        """Gap (nm) and, per well, the pinch-off voltage (V; NaN if none) and bulk density."""
+        out = {"gap_nm": self.gap_m * 1e9}
+        for name, v in self.pinchoff_V.items():
+            out[f"{name}_pinchoff_V"] = nan_if_none(v)
+            out[f"{name}_bulk_density_cm^-2"] = self.bulk_density_m2[name] * 1e-4
+        return out
+
+    def table(self) -> Table:
+        """The sweep: gate voltage (V) and each well's centre density (cm^-2)."""
+        cols = ["gate_voltage_V"] + [f"{k}_centre_density_cm^-2" for k in self.centre_density_m2]
+        rows = np.column_stack(
+            [self.voltages_V] + [v * 1e-4 for v in self.centre_density_m2.values()]
+        )
+        return Table(tuple(cols), rows)
 
 
 def solve_pinchoff(
@@ -207,6 +224,23 @@ class ConstrictionResult:
                 for k in self.centre_density_m2
             },
         }
+
+    def summary(self) -> dict[str, float]:
+        """Gap (nm), gate voltage (V) and, per well, centre density (cm^-2), channel width (nm;
+        NaN if pinched) and pinched (1/0)."""
+        out = {"gap_nm": self.gap_m * 1e9, "gate_voltage_V": self.gate_voltage_V}
+        for k in self.centre_density_m2:
+            out[f"{k}_centre_density_cm^-2"] = self.centre_density_m2[k] * 1e-4
+            w = self.channel_width_m[k]
+            out[f"{k}_channel_width_nm"] = nan_if_none(None if w is None else w * 1e9)
+            out[f"{k}_pinched"] = float(self.pinched[k])
+        return out
+
+    def table(self) -> Table:
+        """n(x) across the gap: x (nm) and each well's density (cm^-2)."""
+        sol = self.solution
+        cols = ["x_nm"] + [f"{n}_density_cm^-2" for n in sol.sheet_names]
+        return Table(tuple(cols), np.column_stack([sol.x_m * 1e9, *(sol.density_m2 * 1e-4)]))
 
 
 def solve_constriction(

@@ -17,7 +17,9 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 from scipy import constants as sc
 
+from qhdesign import materials
 from qhdesign.errors import InputError
+from qhdesign.results import Table, flatten
 
 from .geometry import GateLayout, MeshOptions
 from .model import CrossSection, _inverse_tf
@@ -40,9 +42,6 @@ __all__ = [
 
 #: Gate-voltage step of the finite difference for the edge shift per volt (V).
 VOLTAGE_STEP_V = 0.02
-#: |g*| of GaAs for the spin gap of odd integer strips (bare Zeeman, exchange enhancement
-#: ignored). From memory: g* = -0.44 for GaAs conduction electrons.
-G_FACTOR_GAAS = 0.44
 #: Most negative gate voltage accepted (V): beyond this a Schottky gate breaks down.
 MIN_GATE_VOLTAGE_V = -20.0
 
@@ -176,6 +175,17 @@ class EdgeResult:
             "area_change_m2_per_V": self.area_change_m2_per_V,
             "solver": dict(self.info),
         }
+
+    def summary(self) -> dict[str, float]:
+        """Flat numbers of :meth:`to_dict` (``wells.<name>.<key>`` etc.), solver record left out."""
+        d = self.to_dict()
+        d.pop("solver", None)  # timings and mesh sizes: not design outputs
+        return flatten(d)
+
+    def table(self) -> Table:
+        """The n(x) profile: x (nm), each well's density (cm^-2), the primary filling (if B)."""
+        cols, rows = self.profile_table()
+        return Table(tuple(cols), rows)
 
     def profile_table(self) -> tuple[list[str], np.ndarray]:
         """Columns and rows of the n(x) table (x in nm, densities in cm^-2, filling)."""
@@ -393,7 +403,9 @@ def _field_figures(sol: FieldSolution, section, ip: int, settings: EdgeSettings)
             if k % 2 == 0:
                 levels.append((float(k), hw_c, "Landau gap hbar*omega_c"))
             else:
-                gap = G_FACTOR_GAAS * sc.physical_constants["Bohr magneton"][0] * B
+                # bare Zeeman gap |g*| mu_B B of GaAs (exchange enhancement ignored)
+                g_star = abs(materials.electron_g_factor_gaas())
+                gap = g_star * sc.physical_constants["Bohr magneton"][0] * B
                 levels.append((float(k), gap, "bare Zeeman gap |g*| mu_B B"))
     if settings.gap_energy_J is not None and settings.filling is not None:
         if abs(settings.filling - round(settings.filling)) > 1e-9 and settings.filling < nu_bulk:

@@ -16,7 +16,7 @@ import numpy as np
 
 from qhdesign.errors import InputError
 from qhdesign.fem.grid import graded_nodes
-from qhdesign.fem.tensor_mesh import TensorNumbering, build_tensor_mesh
+from qhdesign.fem.tensor_mesh import TensorModel, TensorNumbering, build_tensor_mesh
 
 from .model import CrossSection
 
@@ -83,6 +83,7 @@ class MeshOptions:
     half_width_m: float | None = None  # domain is |x| <= half width; None: automatic
     refine: float = 1.0
     x_attractors_m: tuple[float, ...] = ()  # extra x positions meshed at h_edge
+    x_min_m: float | None = None  # domain starts here instead of -half width (r = 0: axisymmetric)
 
     def scaled(self, factor: float) -> MeshOptions:
         """The same options with every size divided by ``factor``."""
@@ -118,8 +119,9 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     h_edge, h_sheet = opts.h_edge_m / r, opts.h_sheet_m / r
     edges = [float(e) for e in layout.edges_m]
     marks = [float(a) for a in opts.x_attractors_m]
+    lo = -X if opts.x_min_m is None else float(opts.x_min_m)
     for e in edges + marks:
-        if abs(e) >= X:
+        if not lo < e < X:
             raise InputError(f"gate edge at {e * 1e9:.1f} nm lies outside the domain")
     if len(layout.edges_m) >= 2:
         smallest = np.min(np.diff(np.sort(layout.edges_m)))
@@ -132,11 +134,11 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     # an attractor far enough from every breakpoint becomes a node too (a centre, an edge)
     nodes_at = list(edges)
     for m in marks:
-        if all(abs(m - b) > 4 * h_edge for b in [-X, *nodes_at, X]):
+        if all(abs(m - b) > 4 * h_edge for b in [lo, *nodes_at, X]):
             nodes_at.append(m)
     growth = opts.growth / r  # a refined mesh halves every cell, not only the finest ones
     x = graded_nodes(
-        [-X, *nodes_at, X],
+        [lo, *nodes_at, X],
         [(e, h_edge) for e in edges + marks],
         growth,
         opts.h_max_x_m / r,
@@ -192,13 +194,14 @@ def build_mesh(grid: StructuredGrid, section: CrossSection, comm, charged_levels
     dolfinx.io.gmsh.MeshData
         ``.mesh``, ``.cell_tags`` (layer index + 1), ``.facet_tags`` (see :data:`TAGS`).
     """
-    groups = _facet_groups(grid, charged_levels) if comm.rank == 0 else []
-    return build_tensor_mesh(
-        "qhdesign_cross_section",
-        grid.x_m,
-        grid.z_m,
-        grid.layer_of_interval,
-        len(section.layer_permittivity),
-        groups,
-        comm,
-    )
+    model = None
+    if comm.rank == 0:
+        model = TensorModel(
+            "qhdesign_cross_section",
+            grid.x_m,
+            grid.z_m,
+            grid.layer_of_interval,
+            len(section.layer_permittivity),
+            _facet_groups(grid, charged_levels),
+        )
+    return build_tensor_mesh(model, comm)

@@ -143,6 +143,10 @@ class CrossSectionSolver:
     sheet_metal
         Validation hook: ``[(sheet index, x_max_m)]``: the sheet line for x <= x_max is metal at
         the gate potential (a coplanar gate).
+    axisymmetric
+        Read x as the radius r (the mesh must start at r = 0: ``MeshOptions(x_min_m=0)``) and
+        weight every form by r / r_max (the axis needs no condition). Used by the island's
+        operating point (:mod:`qhdesign.island.operating`).
     """
 
     def __init__(
@@ -155,6 +159,7 @@ class CrossSectionSolver:
         comm=None,
         outer_dirichlet: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
         sheet_metal: list[tuple[int, float]] | None = None,
+        axisymmetric: bool = False,
     ):
         from qhdesign.fem.backend import load
 
@@ -173,6 +178,7 @@ class CrossSectionSolver:
         self.comm = comm if comm is not None else MPI.COMM_WORLD
         self._outer = outer_dirichlet
         self._sheet_metal = list(sheet_metal or [])
+        self.axisymmetric = bool(axisymmetric)
         self.timings: dict[str, float] = {}
 
         t0 = time.perf_counter()
@@ -183,6 +189,8 @@ class CrossSectionSolver:
         data = build_mesh(self.grid, section, self.comm, charged_levels=charged)
         self.timings["mesh"] = time.perf_counter() - t0
         self.mesh, self.cell_tags, self.facet_tags = data.mesh, data.cell_tags, data.facet_tags
+        if self.axisymmetric and abs(self.grid.x_m[0]) > 0.0:
+            raise InputError("an axisymmetric solve needs a mesh from r = 0 (x_min_m = 0)")
 
         t0 = time.perf_counter()
         self._setup_spaces()
@@ -288,17 +296,20 @@ class CrossSectionSolver:
         ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
         dS_v = forms.sheet_measure(msh, ft, self.options.sheet_quadrature_degree)
         sheet_tags = tuple(TAGS["sheet0"] + i for i in range(len(self.section.sheets)))
-        F = forms.dielectric(u, v, self.eps, dx, scale=C_EPS)
-        F -= self.q_lines("+") * v("+") * dS((TAGS["levels"], *sheet_tags))
-        F -= self.q_lines * v * ds((TAGS["exposed"], TAGS["bottom"]))
-        F -= self.sigma * v * ds(TAGS["exposed"])
+        # axisymmetric: every integrand carries r (scaled to <= 1 so residual norms keep scale)
+        wr = self.radial_weight()
+        wS = 1.0 if wr is None else wr("+")
+        F = forms.dielectric(u, v, self.eps, dx, scale=C_EPS, r=wr)
+        F -= self.q_lines("+") * v("+") * wS * dS((TAGS["levels"], *sheet_tags))
+        F -= self.q_lines * v * (1.0 if wr is None else wr) * ds((TAGS["exposed"], TAGS["bottom"]))
+        F -= self.sigma * v * (1.0 if wr is None else wr) * ds(TAGS["exposed"])
         self.E = []
         self.D = []
         for i, s in enumerate(self.section.sheets):
             E = fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
             D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
             density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
-            F += forms.sheet(density, v, dS_v(sheet_tags[i]))
+            F += forms.sheet(density, v, dS_v(sheet_tags[i]), r=wr)
             self.E.append(E)
             self.D.append(D)
         use_lu = self.options.linear_solver == "lu" or (
@@ -317,6 +328,14 @@ class CrossSectionSolver:
         snes = self.problem.solver
         self._history: list[float] = []
         snes.setMonitor(lambda _snes, _it, norm: self._history.append(float(norm)))
+
+    def radial_weight(self):
+        """The weight of every integrand: r / r_max (UFL) if axisymmetric, else None."""
+        import ufl
+
+        if not self.axisymmetric:
+            return None
+        return ufl.SpatialCoordinate(self.mesh)[0] / (self.grid.x_m[-1] / NM)
 
     # ------------------------------------------------------------------ solving
     def _initial_guess(self, gate_voltage_V: float) -> None:

@@ -13,10 +13,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numpy as np
 from scipy import constants as sc
 from scipy.optimize import brentq
 
 from ..errors import InputError
+from ..results import Table, flatten
 from .analysis import subband_wells
 from .options import BandsOptions
 from .solve import check_gate_voltage, freeze_out, solve_at, solve_bands
@@ -52,6 +54,16 @@ class CalibrationResult:
             f"achieved_{'sheet_density_m2' if unit == 'm2' else 'threshold_V'}": self.achieved,
             "evaluations": self.evaluations,
         }
+
+    def summary(self) -> dict[str, float]:
+        """Flat numbers of :meth:`to_dict` (SI, units in the keys)."""
+        return flatten(self.to_dict())
+
+    def table(self) -> Table:
+        """One row: initial and fitted parameter (SI), measured and achieved target (SI)."""
+        cols = ("initial_value_SI", "fitted_value_SI", "measured_SI", "achieved_SI", "evaluations")
+        row = (self.initial_value, self.fitted_value, self.measured, self.achieved)
+        return Table(cols, np.array([[*row, self.evaluations]], dtype=float))
 
 
 def _lowest_in_well(stack, frozen, v, t, opts, well_index: int, gated: bool) -> float:

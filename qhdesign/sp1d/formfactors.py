@@ -8,7 +8,7 @@ Derivations in ``docs/disorder.md``, section 2.
 
 References
 ----------
-T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982), sections II.B and IV.A.
+T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982).
 """
 
 from __future__ import annotations

@@ -22,6 +22,7 @@ from scipy import constants as sc
 from scipy.optimize import brentq
 
 from ..errors import InputError
+from ..results import Table
 from .analysis import cell_electrons, per_layer, subband_wells
 from .options import BandsOptions
 from .solve import METAL_GATE_NOTE, _check_temperature, check_gate_voltage, freeze_out, solve_at
@@ -126,25 +127,24 @@ class GateResult:
                 out[f"{name}_slope_while_{regime}_filled{extra}_cm^-2_per_V"] = s / _CM2
         return out
 
-    def to_csv(self) -> str:
+    def table(self) -> Table:
         """Density per well and per doping layer against gate voltage, one row per voltage."""
+        n_w, n_d = len(self.well_names), len(self.doping_names)
         cols = ["gate_V"] + [f"{n}_density_cm^-2" for n in self.well_names]
         cols += [f"{n}_E1_minus_EF_meV" for n in self.well_names]
         cols += [f"{n}_electrons_cm^-2" for n in self.doping_names]
-        lines = [",".join(cols)]
-        for j, v in enumerate(self.voltages_V):
-            row = [f"{v:.6g}"]
-            row += [f"{self.density_m2[i, j] / _CM2:.6e}" for i in range(len(self.well_names))]
-            row += [
-                f"{self.lowest_subband_J[i, j] / sc.e * 1e3:.6g}"
-                for i in range(len(self.well_names))
-            ]
-            row += [
-                f"{self.doping_electrons_m2[i, j] / _CM2:.6e}"
-                for i in range(len(self.doping_names))
-            ]
-            lines.append(",".join(row))
-        return "\n".join(lines) + "\n"
+        rows = np.column_stack(
+            [self.voltages_V]
+            + [self.density_m2[i] / _CM2 for i in range(n_w)]
+            + [self.lowest_subband_J[i] / sc.e * 1e3 for i in range(n_w)]
+            + [self.doping_electrons_m2[i] / _CM2 for i in range(n_d)]
+        )
+        formats = (".6g",) + (".6e",) * n_w + (".6g",) * n_w + (".6e",) * n_d
+        return Table(tuple(cols), rows, formats)
+
+    def to_csv(self) -> str:
+        """:meth:`table` as CSV text."""
+        return self.table().to_csv()
 
 
 def _num(x):
@@ -218,6 +218,15 @@ def gate_response(
         Exposed surface, voltages past the barrier, bad temperature.
     ConvergenceError
         Any sweep point fails to converge (no partial result is returned).
+
+    Examples
+    --------
+    >>> from qhdesign.stack import load_stack
+    >>> res = gate_response(load_stack("stacks/ql2409_doped_well.toml"), 0.0, -0.2, 0.1)
+    >>> len(res.voltages_V), res.well_names
+    (3, ('well',))
+    >>> bool(res.density("well")[-1] < res.density("well")[0])  # a negative gate depletes
+    True
     """
     opts = options or BandsOptions()
     gated = stack.surface.kind == "exposed"

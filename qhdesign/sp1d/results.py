@@ -8,6 +8,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import constants as sc
 
+from ..results import Table
+
 __all__ = ["BandsResult", "DopingResult", "Flags", "SubbandResult", "WellResult"]
 
 _MEV = 1e-3 * sc.e
@@ -251,6 +253,14 @@ class BandsResult:
         out["flag_donor_supply_low"] = float(f.donor_supply_low)
         out["flag_primary_empty"] = float(f.primary_empty)
         return out
+
+    def table(self) -> Table:
+        """The band profile on the 1D nodes: depth (nm), E_c - E_F (eV), electrons (cm^-3)."""
+        cols = ("z_nm", "conduction_band_eV", "electron_density_cm^-3")
+        rows = np.column_stack(
+            (self.z_m * 1e9, self.conduction_band_J / sc.e, self.electron_density_m3 * 1e-6)
+        )
+        return Table(cols, rows)
 
 
 def _num(x: float):

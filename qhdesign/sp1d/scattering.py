@@ -13,8 +13,8 @@ optionally interface roughness. Pure functions of a :class:`~qhdesign.sp1d.Bands
 
 References
 ----------
-T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982), sections II.B, IV.A, IV.C
-(form factors, screening, Fang–Howard forms, interface roughness).
+T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982) (form factors, screening,
+Fang–Howard forms, interface roughness).
 F. Stern, Phys. Rev. Lett. 18, 546 (1967) (static 2D polarisability).
 S. Das Sarma and F. Stern, Phys. Rev. B 32, 8442 (1985) (tau_t versus tau_q).
 A. Gold, Phys. Rev. B 35, 723 (1987); A. Gold, Phys. Rev. B 38, 10798 (1988).
@@ -142,7 +142,7 @@ def thomas_fermi_wavevector(mass_rel: float, permittivity_rel: float) -> float:
 
     References
     ----------
-    T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982), eq. (2.51).
+    T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982).
     """
     eps = permittivity_rel * sc.epsilon_0
     return sc.e**2 * mass_rel * sc.m_e / (2.0 * math.pi * eps * sc.hbar**2)
@@ -167,8 +167,14 @@ def level_broadening(quantum_lifetime_s: float) -> float:
 
     References
     ----------
-    T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982), section VI.B (level
+    T. Ando, A. B. Fowler and F. Stern, Rev. Mod. Phys. 54, 437 (1982) (level
     width hbar/(2 tau) of the self-consistent Born approximation's Lorentzian form).
+
+    Examples
+    --------
+    >>> from scipy import constants as sc
+    >>> level_broadening(1e-12) == sc.hbar / (2 * 1e-12)  # analytic: Gamma = hbar/(2 tau_q)
+    True
     """
     if not quantum_lifetime_s > 0.0:
         if math.isnan(quantum_lifetime_s):
@@ -338,14 +344,17 @@ def well_scattering(
     out = []
     for src, (zi, ni) in (sheets or {}).items():
         ni = np.asarray(ni, float)
-        if not np.any(ni > 0):
+        if not np.any(ni > 0):  # kept with zero rates: the same sources in every design
+            out.append(SourceRates(src, "remote charges", 0.0, 0.0))
             continue
         f = profile.form_factor(q, zi, g)
         rt, rq = lifetimes(coul * (f**2 @ ni), mass_rel, w_t, w_q)
         out.append(SourceRates(src, "remote charges", rt, rq))
-    if background_m3 > 0.0 and background_span_m is not None:
-        f2 = profile.squared_layer_integral(q, *background_span_m, g)
-        rt, rq = lifetimes(coul * background_m3 * f2, mass_rel, w_t, w_q)
+    if background_span_m is not None:
+        rt = rq = 0.0
+        if background_m3 > 0.0:
+            f2 = profile.squared_layer_integral(q, *background_span_m, g)
+            rt, rq = lifetimes(coul * background_m3 * f2, mass_rel, w_t, w_q)
         out.append(SourceRates("background", "uniform background charges", rt, rq))
     if roughness is not None and roughness[0] > 0.0 and interfaces:
         delta, lam = roughness
@@ -377,6 +386,7 @@ class ScatteringResult:
     options: ScatteringOptions
     low_mobility: bool
     warnings: tuple[str, ...] = field(default=())
+    surface_counted: bool = False
 
     def well(self, name: str) -> WellScattering:
         for w in self.wells:
@@ -401,7 +411,7 @@ class ScatteringResult:
             "background_m3": o.background_m3,
             "roughness_height_m": o.roughness_height_m,
             "roughness_length_m": o.roughness_length_m,
-            "surface_charge_counted": o.surface,
+            "surface_charge_counted": self.surface_counted,
             "min_mobility_m2_per_Vs": o.min_mobility_m2_Vs,
         }
         bands.setdefault("warnings", []).extend(self.warnings)
@@ -410,13 +420,21 @@ class ScatteringResult:
     def summary(self) -> dict[str, float]:
         """CSV columns (display units in the names)."""
         out: dict[str, float] = {}
+        # the same source columns for every well (NaN where a well has no such source, e.g. an
+        # empty well), so that the columns do not depend on which wells hold electrons
+        names = list(dict.fromkeys(s.name for w in self.wells for s in w.sources))
         for w in self.wells:
             out[f"{w.name}_mobility_cm^2/Vs"] = w.mobility_m2_per_Vs / _CM2_VS
             out[f"{w.name}_quantum_lifetime_ps"] = w.quantum_lifetime_s * 1e12
             out[f"{w.name}_level_broadening_ueV"] = w.level_broadening_J / sc.e * 1e6
-            for s in w.sources:
-                alone = sc.e / (w.mass_rel * sc.m_e * s.transport_rate_s)
-                out[f"{w.name}_mobility_{s.name}_cm^2/Vs"] = alone / _CM2_VS
+            rates = {s.name: s.transport_rate_s for s in w.sources}
+            for name in names:
+                r = rates.get(name)
+                if r is None:
+                    alone = math.nan
+                else:
+                    alone = sc.e / (w.mass_rel * sc.m_e * r) if r > 0 else math.inf
+                out[f"{w.name}_mobility_{name}_cm^2/Vs"] = alone / _CM2_VS
         p = next((w for w in self.wells if w.role == "primary"), None)
         if p is not None:
             out["primary_mobility_cm^2/Vs"] = p.mobility_m2_per_Vs / _CM2_VS
@@ -479,8 +497,9 @@ def scattering(result, options: ScatteringOptions | None = None) -> ScatteringRe
     sheets = _donor_sheets(result)
     # surface states of a bare (exposed) surface are charged scatterers; a metal gate's charge
     # is a smooth sheet, not a random one, and is not counted
-    if o.surface and result.surface_kind == "exposed" and result.surface_charge_C_m2 != 0.0:
-        n_surf = abs(result.surface_charge_C_m2) / sc.e
+    counted = o.surface and result.surface_kind == "exposed"
+    if o.surface:
+        n_surf = abs(result.surface_charge_C_m2) / sc.e if counted else 0.0
         sheets["surface"] = (np.array([result.z_m[0]]), np.array([n_surf]))
     span = (float(result.z_m[0]), float(result.z_m[-1]))
     wells = []
@@ -524,7 +543,7 @@ def scattering(result, options: ScatteringOptions | None = None) -> ScatteringRe
             f"estimated mobility of the primary well {prim.mobility_m2_per_Vs / _CM2_VS:.3g} "
             f"cm^2/Vs is below the threshold {o.min_mobility_m2_Vs / _CM2_VS:.3g} cm^2/Vs"
         )
-    return ScatteringResult(tuple(wells), o, low, tuple(warn))
+    return ScatteringResult(tuple(wells), o, low, tuple(warn), counted)
 
 
 def fit_background(

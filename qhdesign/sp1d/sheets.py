@@ -35,6 +35,18 @@ def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
     Returns
     -------
     SheetModel
+
+    Examples
+    --------
+    >>> from qhdesign.sp1d import solve_bands
+    >>> from qhdesign.stack import load_stack
+    >>> stack = load_stack("stacks/ql2409_doped_well.toml")
+    >>> bands = solve_bands(stack)
+    >>> model = sheet_model(stack, bands)
+    >>> [s.name for s in model.sheets], model.bottom_kind
+    (['well'], 'zero_field')
+    >>> model.sheets[0].density_m2 == bands.wells[0].sheet_density_m2
+    True
     """
     r = bands_result
     sheets = []

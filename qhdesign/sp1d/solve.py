@@ -209,6 +209,15 @@ def solve_bands(
     ConvergenceError
         The self-consistent loop did not converge (residual history attached).
 
+    Examples
+    --------
+    >>> from qhdesign.stack import load_stack
+    >>> res = solve_bands(load_stack("stacks/ql2403_heterojunction.toml"))
+    >>> res.converged, [w.name for w in res.wells]
+    (True, ['channel'])
+    >>> 0.0 < res.primary.sheet_density_m2  # electrons in the channel
+    True
+
     References
     ----------
     A. Trellakis et al., J. Appl. Phys. 81, 7880 (1997) (predictor–corrector iteration);

@@ -18,8 +18,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from scipy.constants import electron_volt
-
 from qhdesign.errors import InputError, QHDesignError
 from qhdesign.units import DIMENSIONS
 
@@ -572,7 +570,3 @@ def _check_corners(plan: SweepPlan, source: str, vstack=None) -> None:
                 source=source,
                 key=_pkey(key) if key else "space",
             ) from None
-
-
-def surface_barrier_eV(v: float) -> float:
-    return v / electron_volt

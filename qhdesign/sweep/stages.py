@@ -130,20 +130,6 @@ def _gate(stack, v_from=None, v_to=None, step=None, **options):
     return _summary(fn(stack, *volts, **_bands_options(options, "gate")))
 
 
-def flatten(d: dict, prefix: str = "") -> dict[str, float]:
-    """Numeric leaves of a nested result dict as ``a.b.c`` keys (lists, text and None dropped)."""
-    out: dict[str, float] = {}
-    for k, v in d.items():
-        name = f"{prefix}{k}"
-        if isinstance(v, dict):
-            out.update(flatten(v, name + "."))
-        elif isinstance(v, bool):
-            out[name] = float(v)
-        elif isinstance(v, int | float):
-            out[name] = float(v)
-    return out
-
-
 def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, perimeter=None):
     """2D edge cross-section: 1D solve -> sheets -> DOLFINx Thomas-Fermi, one process per design."""
     solve_edge = _import("qhdesign.section", "solve_edge", "edge")
@@ -163,12 +149,7 @@ def _edge(stack, gate_voltage=None, field=None, filling=None, gap_energy=None, p
         gap_energy_J=None if gap_energy is None else _quantity(gap_energy, "energy", "gap_energy"),
         perimeter_m=None if perimeter is None else _quantity(perimeter, "length", "perimeter"),
     )
-    res = solve_edge(section_from_stack(stack), settings, comm=MPI.COMM_SELF)
-    if hasattr(res, "summary"):
-        return _summary(res)
-    d = res.to_dict()
-    d.pop("solver", None)  # timings and mesh sizes: not design outputs
-    return flatten(d)
+    return _summary(solve_edge(section_from_stack(stack), settings, comm=MPI.COMM_SELF))
 
 
 def _island(stack, **options):

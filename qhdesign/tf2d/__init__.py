@@ -12,30 +12,6 @@ from __future__ import annotations
 import importlib
 import sys
 
-from qhdesign.island import (
-    IslandColumn,
-    IslandGeometry,
-    IslandResult,
-    IslandSettings,
-)
-from qhdesign.pipeline import section_from_stack, solve_island
-from qhdesign.section import (
-    ConstrictionResult,
-    CrossSection,
-    CrossSectionSolver,
-    EdgeResult,
-    EdgeSettings,
-    GateLayout,
-    MeshOptions,
-    PinchoffResult,
-    SheetSpec,
-    SolverOptions,
-    cross_section_from_sheet_model,
-    solve_constriction,
-    solve_edge,
-    solve_pinchoff,
-)
-
 #: Old submodule -> the module that replaces it.
 MOVED = {
     "axicap": "qhdesign.fem.capacitance",
@@ -51,32 +27,26 @@ MOVED = {
     "island": "qhdesign.island.conductor",
     "from_stack": "qhdesign.pipeline",
 }
+#: Public names of the old package -> the module that holds them now (None: its __all__).
+NAMES = {
+    "qhdesign.section": None,  # all of its __all__
+    "qhdesign.island": ("IslandColumn", "IslandGeometry", "IslandResult", "IslandSettings"),
+    "qhdesign.pipeline": ("section_from_stack", "solve_island"),
+}
 
-for _old, _new in MOVED.items():
-    _mod = importlib.import_module(_new)
-    sys.modules[f"{__name__}.{_old}"] = _mod
-    globals()[_old] = _mod
-del _old, _new, _mod
 
-__all__ = [
-    "ConstrictionResult",
-    "CrossSection",
-    "CrossSectionSolver",
-    "EdgeResult",
-    "EdgeSettings",
-    "GateLayout",
-    "IslandColumn",
-    "IslandGeometry",
-    "IslandResult",
-    "IslandSettings",
-    "MeshOptions",
-    "PinchoffResult",
-    "SheetSpec",
-    "SolverOptions",
-    "cross_section_from_sheet_model",
-    "section_from_stack",
-    "solve_constriction",
-    "solve_edge",
-    "solve_island",
-    "solve_pinchoff",
-]
+def _alias() -> list[str]:
+    names = []
+    for old, new in MOVED.items():
+        mod = importlib.import_module(new)
+        sys.modules[f"{__name__}.{old}"] = mod
+        globals()[old] = mod
+    for module, public in NAMES.items():
+        mod = importlib.import_module(module)
+        for name in mod.__all__ if public is None else public:
+            globals()[name] = getattr(mod, name)
+            names.append(name)
+    return sorted(names)
+
+
+__all__ = _alias()  # pyright: ignore[reportUnsupportedDunderAll]

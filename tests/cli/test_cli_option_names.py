@@ -10,7 +10,6 @@ RENAMED = [
     ("bands", "--gate-voltage", "--gate"),  # gate bias: as in edge and report
     ("edge", "--gate-gap", "--gap"),  # opening of a split gate (a length)
     ("pinchoff", "--gate-gap", "--gap"),
-    ("island", "--gap-energy", "--gap"),  # quasiparticle gap (an energy): as in edge
     ("sweep", "--csv", "--out"),  # a table: --csv everywhere
     ("tolerance", "--csv", "--out"),
     ("plot-sweep", "--plot", "--out"),  # a figure: --plot everywhere
@@ -46,6 +45,6 @@ def test_old_and_new_together_are_refused(cli_runner, app):
 
 
 def test_figure_help_lists_every_accepted_format(cli_runner, app):
-    for command in ("edge", "pinchoff", "island", "plot-sweep", "check"):
+    for command in ("edge", "pinchoff", "plot-sweep", "check"):
         res = cli_runner.invoke(app, [command, "--help"], env={"COLUMNS": "200"})
         assert "PDF" in res.output, command

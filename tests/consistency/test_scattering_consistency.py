@@ -25,7 +25,7 @@ def _rates(sr, well, name):
 
 def test_background_rate_is_linear_in_its_density(demo):
     # Born approximation: the rate is proportional to the impurity density (Ando, Fowler,
-    # Stern, RMP 54, 437 (1982), sec. IV.A); the screening does not depend on it
+    # Stern, RMP 54, 437 (1982)); the screening does not depend on it
     a = scattering(demo, ScatteringOptions(background_m3=1e20))
     b = scattering(demo, ScatteringOptions(background_m3=3e20))
     for w in ("primary", "screen_upper"):
@@ -118,3 +118,20 @@ def test_profile_form_factor_matches_direct_sum(demo):
     wr[[0, -1]] *= 0.5
     direct = np.exp(-q[:, None, None] * np.abs(z[None, :, None] - z[None, None, :])) @ wr
     np.testing.assert_allclose(p.grid_form_factor(q), direct, rtol=1e-9, atol=1e-12)
+
+
+def test_empty_well_gets_no_estimate_and_same_columns(demo):
+    # under a depleting gate the upper screening well empties: its estimate is NaN (null in
+    # JSON), the other wells keep theirs, and the CSV columns are those of the zero-bias solve
+    import json
+    import math
+
+    r = solve_bands(load_stack(SCREENED), gate_voltage=-1.0)
+    empty = [w.name for w in r.wells if w.sheet_density_m2 < 1e12]
+    assert empty, "the -1.0 V gate should empty a well of the demo stack"
+    sr = scattering(r)
+    for w in sr.wells:
+        assert math.isnan(w.mobility_m2_per_Vs) == (w.name in empty)
+    d = json.loads(json.dumps(sr.merge_into(r.to_dict(arrays=False))))
+    assert d["wells"][empty[0]]["mobility_m2_per_Vs"] is None
+    assert set(sr.summary()) == set(scattering(demo).summary())

@@ -18,7 +18,10 @@ def test_every_entry_has_value_unit_temperature_and_source():
         assert e.source.strip() and len(e.source) > 15, f"{key} lacks a source"
         assert math.isfinite(e.temperature), key
         # a source is a publication, or an honest label
-        assert any(tag in e.source for tag in ("VMR", "Adachi", "common practice", "from memory"))
+        assert any(
+            tag in e.source
+            for tag in ("VMR", "Adachi", "Oestreich", "common practice", "from memory")
+        )
 
 
 # Vurgaftman, Meyer, Ram-Mohan, J. Appl. Phys. 89, 5815 (2001): GaAs and AlAs parameter tables.
@@ -82,3 +85,11 @@ def test_gap_fraction_rule():
 def test_hydrogenic_donor():
     # analytic: R* = 13.6057 eV m*/kappa^2 = 5.478 meV for m* = 0.067, kappa = 12.9
     assert materials.hydrogenic_binding_energy(0.067, 12.9) == pytest.approx(5.478 * MEV, rel=1e-3)
+
+
+def test_gaas_g_factor_is_sourced_in_the_table():
+    # M. Oestreich, W. W. Ruehle, Phys. Rev. Lett. 74, 2315 (1995): |g*| = 0.44 at 5 K, g* < 0
+    e = materials.entry("gaas.g_factor")
+    assert e.value == pytest.approx(-0.44, abs=1e-12)
+    assert "Phys. Rev. Lett. 74, 2315" in e.source
+    assert materials.electron_g_factor_gaas() == e.value

@@ -87,6 +87,7 @@ def test_plugin_stage_by_module_path():
     assert out["probe_value"] == pytest.approx(stack.layer("setback_upper").thickness, rel=1e-12)
 
 
+@pytest.mark.fem
 def test_edge_stage_runs_the_2d_cross_section(tmp_path):
     from qhdesign.sweep.runner import run_sweep
 

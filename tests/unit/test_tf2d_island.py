@@ -67,6 +67,7 @@ def test_option_errors_before_any_solve(screened_path):
             solve_island(stack, radius="0.8 um", **bad)
 
 
+@pytest.mark.fem
 def test_sweep_stage_gives_flat_floats(screened_path):
     from qhdesign.stack import load_stack
     from qhdesign.sweep.stages import get_stage
@@ -92,6 +93,7 @@ def _ql2403(tmp_path, **edits):
     return loads_stack(text, source="variant.toml")
 
 
+@pytest.mark.fem
 def test_sheet_model_source_keeps_the_substrate_and_the_stack_surface_model(tmp_path):
     # QL-2403 on a back gate: the island from the stack and from its sheet model must agree (the
     # sheet model used to drop the grounded bottom: K_IL/K_I 0.683 against 0.508)

@@ -1,4 +1,8 @@
-"""Every notebook (jupytext percent script) in notebooks/ runs to completion."""
+"""Every notebook (jupytext percent script) in notebooks/ runs to completion.
+
+Each notebook ends with a "Checks: physical invariants" cell of asserts (charge neutrality, the
+hand-off carrying every charge, ...), so running it checks physics, not only that it runs.
+"""
 
 import subprocess
 import sys
@@ -11,6 +15,13 @@ NOTEBOOKS = sorted((ROOT / "notebooks").glob("*.py"))
 
 def test_there_are_notebooks():
     assert NOTEBOOKS
+
+
+def test_every_notebook_ends_with_invariant_checks():
+    for path in NOTEBOOKS:
+        text = path.read_text(encoding="utf-8")
+        tail = text[text.rfind("# %% [markdown]") :]
+        assert "Checks: physical invariants" in tail and "assert " in tail, path.name
 
 
 @pytest.mark.parametrize("path", NOTEBOOKS, ids=lambda p: p.name)

@@ -1,0 +1,328 @@
+"""3D mesh of a layer stack under a gate layout: a gmsh plane mesh extruded through graded levels.
+
+Layers are slabs, so the 3D mesh is the product of a triangle mesh of the surface plane and the
+graded z-levels of the cross-section (a level on every layer boundary and sheet, fine at the
+surface and at the sheets, coarse in thick barriers): every triangle times every z-interval is a
+prism, cut into three tetrahedra. The plane mesh comes from gmsh (OpenCASCADE): the domain
+rectangle fragmented by the gate polygons, so gate edges are mesh edges, with element size
+``mesh.gate_edge`` at gate edges and inside the island, growing to ``mesh.far``.
+
+Cutting the prisms: with the triangle's vertices in increasing global order v0 < v1 < v2 and
+primes for the level above, the tetrahedra (v0 v1 v2 v0'), (v1 v2 v0' v1'), (v2 v0' v1' v2')
+split every side quad along the diagonal from the higher-numbered lower vertex to the
+lower-numbered upper vertex, a rule that depends only on the quad, so neighbouring prisms agree
+and the mesh is conforming (Dompierre, Labbé, Vallet, Camarero, Proc. 8th International Meshing
+Roundtable, 195 (1999), "How to subdivide pyramids, prisms and hexahedra into tetrahedra").
+
+Distribution: only the plane mesh is made on rank 0 (it is small: its size grows like the square
+root of the 3D problem); it is broadcast, and every rank builds the tetrahedra and coordinates of
+its own block of z-levels, which ``dolfinx.mesh.create_mesh`` then partitions. So the serial part
+of mesh generation stays bounded as the number of levels and ranks grows.
+
+Mesh coordinates are in nm with the third coordinate the height (-depth), as in the 2D meshes.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .layoutfile import Layout
+
+__all__ = ["TAGS3", "PlaneMesh", "build_mesh3d", "plane_mesh", "points_in_polygon"]
+
+NM = 1e-9
+
+#: Facet tags: gate i is ``gate0 + i``, sheet i is ``sheet0 + i``.
+TAGS3 = {"exposed": 2, "bottom": 3, "sides": 4, "levels": 5, "sheet0": 100, "gate0": 1000}
+
+
+@dataclass(frozen=True, eq=False)
+class PlaneMesh:
+    """The triangle mesh of the surface plane (SI units).
+
+    Attributes
+    ----------
+    xy_m
+        Node coordinates, shape (Np, 2), m.
+    triangles
+        Node indices, shape (T, 3), counter-clockwise.
+    gate_of_triangle
+        Index of the gate covering each triangle, -1 where the surface is exposed, shape (T,).
+    """
+
+    xy_m: np.ndarray
+    triangles: np.ndarray
+    gate_of_triangle: np.ndarray
+
+    @property
+    def num_nodes(self) -> int:
+        return int(self.xy_m.shape[0])
+
+
+def points_in_polygon(pts: np.ndarray, poly: np.ndarray) -> np.ndarray:
+    """Even-odd test for many points (shape (N, 2)) against one polygon (M, 2): bool (N,)."""
+    x, y = pts[:, 0][:, None], pts[:, 1][:, None]
+    x1, y1 = poly[:, 0][None, :], poly[:, 1][None, :]
+    x2, y2 = np.roll(poly[:, 0], -1)[None, :], np.roll(poly[:, 1], -1)[None, :]
+    crosses = (y1 > y) != (y2 > y)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        xc = x1 + (y - y1) * (x2 - x1) / (y2 - y1)
+    return (np.sum(crosses & (xc > x), axis=1) % 2) == 1
+
+
+def _refine_boxes(layout: Layout) -> list[tuple[float, float, float, float]]:
+    """Boxes (x0, x1, y0, y1, m) meshed at the gate-edge size: the island and its constrictions."""
+    boxes = []
+    if layout.island is not None:
+        a, b = layout.island.half_extent_m
+        xo = a + layout.island.wall_m
+        boxes.append((-xo, xo, -b, b))
+    for c in layout.constrictions:
+        (x0, y0), (x1, y1) = c.path_m
+        pad = 2 * layout.gate_edge_m
+        boxes.append((min(x0, x1) - pad, max(x0, x1) + pad, min(y0, y1) - pad, max(y0, y1) + pad))
+    return boxes
+
+
+def plane_mesh(layout: Layout, refine: float = 1.0) -> PlaneMesh:
+    """Mesh the surface plane with the gate polygons as embedded boundaries (gmsh, this rank).
+
+    ``refine`` divides both element sizes. gmsh must be initialised by the caller.
+    """
+    import gmsh
+
+    h_edge = layout.gate_edge_m / refine / NM
+    h_far = layout.far_m / refine / NM
+    (x0, x1), (y0, y1) = ((a / NM, b / NM) for a, b in layout.domain_m)
+    gmsh.model.add("qhdesign_layout_plane")
+    occ = gmsh.model.occ
+    rect = occ.addRectangle(x0, y0, 0.0, x1 - x0, y1 - y0)
+    gate_surfs = []
+    for g in layout.gates:
+        pts = [occ.addPoint(float(x) / NM, float(y) / NM, 0.0) for x, y in g.vertices_m]
+        lines = [occ.addLine(pts[i], pts[(i + 1) % len(pts)]) for i in range(len(pts))]
+        loop = occ.addCurveLoop(lines)
+        gate_surfs.append(occ.addPlaneSurface([loop]))
+    occ.fragment([(2, rect)], [(2, s) for s in gate_surfs])
+    occ.synchronize()
+    # size: gate_edge at every gate boundary and inside the island boxes, growing to far
+    curves = [c[1] for c in gmsh.model.getEntities(1)]
+    f_dist = gmsh.model.mesh.field.add("Distance")
+    gmsh.model.mesh.field.setNumbers(f_dist, "CurvesList", curves)
+    gmsh.model.mesh.field.setNumber(f_dist, "Sampling", 200)
+    f_thr = gmsh.model.mesh.field.add("Threshold")
+    gmsh.model.mesh.field.setNumber(f_thr, "InField", f_dist)
+    gmsh.model.mesh.field.setNumber(f_thr, "SizeMin", h_edge)
+    gmsh.model.mesh.field.setNumber(f_thr, "SizeMax", h_far)
+    gmsh.model.mesh.field.setNumber(f_thr, "DistMin", h_edge)
+    gmsh.model.mesh.field.setNumber(f_thr, "DistMax", 4.0 * h_far)
+    fields = [f_thr]
+    for bx0, bx1, by0, by1 in _refine_boxes(layout):
+        f_box = gmsh.model.mesh.field.add("Box")
+        for k, v in (
+            ("VIn", 1.5 * h_edge),
+            ("VOut", h_far),
+            ("XMin", bx0 / NM),
+            ("XMax", bx1 / NM),
+            ("YMin", by0 / NM),
+            ("YMax", by1 / NM),
+            ("Thickness", 4 * h_edge),
+        ):
+            gmsh.model.mesh.field.setNumber(f_box, k, v)
+        fields.append(f_box)
+    f_min = gmsh.model.mesh.field.add("Min")
+    gmsh.model.mesh.field.setNumbers(f_min, "FieldsList", fields)
+    gmsh.model.mesh.field.setAsBackgroundMesh(f_min)
+    for opt, val in (
+        ("Mesh.MeshSizeExtendFromBoundary", 0),
+        ("Mesh.MeshSizeFromPoints", 0),
+        ("Mesh.MeshSizeFromCurvature", 0),
+        ("Mesh.Algorithm", 6),
+        ("General.NumThreads", 1),
+        ("Mesh.RandomFactor", 1e-9),
+    ):
+        gmsh.option.setNumber(opt, val)
+    gmsh.model.mesh.generate(2)
+    tags, coords, _ = gmsh.model.mesh.getNodes()
+    order = np.argsort(tags)
+    tags = tags[order]
+    xy = coords.reshape(-1, 3)[order, :2] * NM
+    index = np.full(int(tags.max()) + 1, -1, dtype=np.int64)
+    index[tags] = np.arange(tags.size)
+    tris = []
+    for _, s in gmsh.model.getEntities(2):
+        etypes, _, enodes = gmsh.model.mesh.getElements(2, s)
+        for et, en in zip(etypes, enodes, strict=True):
+            if et == 2:
+                tris.append(index[np.asarray(en, dtype=np.int64)].reshape(-1, 3))
+    gmsh.model.remove()
+    tri = np.concatenate(tris)
+    # drop unused nodes (geometry points not in any triangle), renumber compactly
+    used = np.unique(tri)
+    remap = np.full(xy.shape[0], -1, dtype=np.int64)
+    remap[used] = np.arange(used.size)
+    xy, tri = xy[used], remap[tri]
+    # counter-clockwise
+    p = xy[tri]
+    area2 = (p[:, 1, 0] - p[:, 0, 0]) * (p[:, 2, 1] - p[:, 0, 1]) - (p[:, 1, 1] - p[:, 0, 1]) * (
+        p[:, 2, 0] - p[:, 0, 0]
+    )
+    tri[area2 < 0] = tri[area2 < 0][:, ::-1]
+    cen = xy[tri].mean(axis=1)
+    gate = np.full(tri.shape[0], -1, dtype=np.int64)
+    for i, g in enumerate(layout.gates):
+        gate[points_in_polygon(cen, g.vertices_m)] = i
+    return PlaneMesh(xy_m=xy, triangles=tri, gate_of_triangle=gate)
+
+
+def _prism_tets(tri: np.ndarray, k: int, n_plane: int) -> np.ndarray:
+    """Tetrahedra (global node numbers) of the prisms between levels k and k+1."""
+    s = np.sort(tri, axis=1)
+    lo = s + k * n_plane
+    hi = s + (k + 1) * n_plane
+    v0, v1, v2 = lo[:, 0], lo[:, 1], lo[:, 2]
+    w0, w1, w2 = hi[:, 0], hi[:, 1], hi[:, 2]
+    return np.concatenate(
+        (
+            np.stack((v0, v1, v2, w0), 1),
+            np.stack((v1, v2, w0, w1), 1),
+            np.stack((v2, w0, w1, w2), 1),
+        )
+    )
+
+
+@dataclass(frozen=True, eq=False)
+class Mesh3D:
+    """A distributed 3D mesh with its tags and the plane mesh it came from."""
+
+    mesh: object
+    cell_tags: object
+    facet_tags: object
+    plane: PlaneMesh
+    levels_m: np.ndarray
+    layer_of_interval: np.ndarray
+
+
+def build_mesh3d(
+    layout: Layout,
+    levels_m: np.ndarray,
+    layer_of_interval: np.ndarray,
+    sheet_level: np.ndarray,
+    charged_levels: np.ndarray,
+    comm,
+    refine: float = 1.0,
+) -> tuple[Mesh3D, dict]:
+    """Build and distribute the 3D mesh.
+
+    Parameters
+    ----------
+    layout
+        The gate layout.
+    levels_m, layer_of_interval, sheet_level
+        z-levels (m, from the surface down), the layer of each interval, the level of each sheet.
+    charged_levels
+        Interior levels that carry frozen line charge (tagged ``levels``).
+    comm
+        MPI communicator.
+
+    Returns
+    -------
+    (Mesh3D, timings in s: ``plane``, ``extrude``, ``distribute``, ``tags``)
+    """
+    import time
+
+    import basix.ufl
+    import ufl
+
+    from qhdesign.fem.backend import load
+
+    _, dolfinx = load()
+    t = {}
+    t0 = time.perf_counter()
+    plane = None
+    if comm.rank == 0:
+        import gmsh
+
+        started = False
+        if not gmsh.isInitialized():
+            gmsh.initialize(interruptible=False)
+            started = True
+        gmsh.option.setNumber("General.Terminal", 0)
+        try:
+            plane = plane_mesh(layout, refine)
+        finally:
+            if started:
+                gmsh.finalize()
+    plane = comm.bcast(plane, root=0)
+    t["plane"] = time.perf_counter() - t0
+
+    t0 = time.perf_counter()
+    z = np.asarray(levels_m, dtype=float)
+    nz, n_plane = z.size, plane.num_nodes
+    # this rank's block of levels (nodes) and of intervals (cells)
+    bounds = np.linspace(0, nz, comm.size + 1).round().astype(int)
+    k0, k1 = int(bounds[comm.rank]), int(bounds[comm.rank + 1])
+    xs = np.tile(plane.xy_m / NM, (k1 - k0, 1))
+    zs = np.repeat(-z[k0:k1] / NM, n_plane)
+    x_local = np.column_stack((xs, zs))
+    last_interval = nz - 1
+    cells = [_prism_tets(plane.triangles, k, n_plane) for k in range(k0, min(k1, last_interval))]
+    cells = np.concatenate(cells).astype(np.int64) if cells else np.zeros((0, 4), dtype=np.int64)
+    t["extrude"] = time.perf_counter() - t0
+
+    t0 = time.perf_counter()
+    domain = ufl.Mesh(basix.ufl.element("Lagrange", "tetrahedron", 1, shape=(3,)))
+    partitioner = dolfinx.mesh.create_cell_partitioner(dolfinx.mesh.GhostMode.shared_facet, 2)
+    msh = dolfinx.mesh.create_mesh(comm, cells, domain, x_local, partitioner=partitioner)
+    t["distribute"] = time.perf_counter() - t0
+
+    t0 = time.perf_counter()
+    tdim = 3
+    msh.topology.create_connectivity(tdim - 1, tdim)
+    msh.topology.create_connectivity(tdim, tdim - 1)
+    # cell tags = layer + 1, from the cell's mean height
+    n_cells = msh.topology.index_map(tdim).size_local + msh.topology.index_map(tdim).num_ghosts
+    cells_all = np.arange(n_cells, dtype=np.int32)
+    mid = dolfinx.mesh.compute_midpoints(msh, tdim, cells_all)
+    depth = -mid[:, 2] * NM
+    k = np.clip(np.searchsorted(z, depth) - 1, 0, nz - 2)
+    cell_tags = dolfinx.mesh.meshtags(
+        msh, tdim, cells_all, (layer_of_interval[k] + 1).astype(np.int32)
+    )
+
+    tol = 1e-6  # nm
+    idx_parts, val_parts = [], []
+
+    def level_facets(zk: float) -> np.ndarray:
+        return dolfinx.mesh.locate_entities(msh, tdim - 1, lambda x: np.abs(x[2] + zk / NM) < tol)
+
+    top = level_facets(z[0])
+    fmid = dolfinx.mesh.compute_midpoints(msh, tdim - 1, top)[:, :2] * NM
+    gate_val = np.full(top.size, TAGS3["exposed"], dtype=np.int32)
+    for i, g in enumerate(layout.gates):
+        gate_val[points_in_polygon(fmid, g.vertices_m)] = TAGS3["gate0"] + i
+    idx_parts.append(top)
+    val_parts.append(gate_val)
+    bottom = level_facets(z[-1])
+    idx_parts.append(bottom)
+    val_parts.append(np.full(bottom.size, TAGS3["bottom"], dtype=np.int32))
+    sheet_set = {int(s) for s in sheet_level}
+    for i, ks in enumerate(sheet_level):
+        f = level_facets(z[int(ks)])
+        idx_parts.append(f)
+        val_parts.append(np.full(f.size, TAGS3["sheet0"] + i, dtype=np.int32))
+    for kc in charged_levels:
+        kc = int(kc)
+        if kc in sheet_set or kc == 0 or kc == nz - 1:
+            continue
+        f = level_facets(z[kc])
+        idx_parts.append(f)
+        val_parts.append(np.full(f.size, TAGS3["levels"], dtype=np.int32))
+    idx = np.concatenate(idx_parts).astype(np.int32)
+    val = np.concatenate(val_parts)
+    order = np.argsort(idx)
+    facet_tags = dolfinx.mesh.meshtags(msh, tdim - 1, idx[order], val[order])
+    t["tags"] = time.perf_counter() - t0
+    return Mesh3D(msh, cell_tags, facet_tags, plane, z, np.asarray(layer_of_interval)), t
