@@ -20,7 +20,7 @@ def test_island_json_and_plot(cli_runner, app, screened_path, tmp_path):
             "0.6 um",
             "--filling",
             "1/3",
-            "--gap-energy",
+            "--gap",
             "50 ueV",
             "--json",
             str(out),
@@ -53,7 +53,7 @@ def test_island_json_and_plot(cli_runner, app, screened_path, tmp_path):
         (["--radius", "0.1 um", "--ring-width", "150 nm"], "--ring-width"),  # ring > island
         (["--radius", "0.8 um", "--gate-offset", "-50 nm"], "--gate-offset"),  # R_gate < R
         (["--radius", "0.8 um", "--filling", "2/5"], "--filling"),  # not a Laughlin 1/m
-        (["--radius", "0.8 um", "--gap-energy", "50 ueV"], "--gap"),  # gap without filling
+        (["--radius", "0.8 um", "--gap", "50 ueV"], "--gap"),  # gap without filling
         (["--radius", "0.8 um", "--screening", "metal"], "--screening"),
     ],
 )
