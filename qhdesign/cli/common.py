@@ -82,6 +82,8 @@ OUTPUT_OPTIONS = {
     "json_out": "--json",
     "csv_out": "--csv",
     "fields": "--fields",
+    "toml_out": "--toml",
+    "html_out": "--html",
     "out": "--out",
 }
 #: Figure formats every figure option accepts (matplotlib backends, by file suffix).
@@ -136,6 +138,20 @@ def warn(text: str) -> None:
         return
     _WARNED.add(key)
     typer.echo(f"warning: {key}", err=True)
+
+
+def renamed(new_value: Any, old_value: Any, new: str, old: str) -> Any:
+    """The value of an option whose old spelling is kept, hidden, for one release.
+
+    One name per concept across commands (docs/cli.md, "Option names"); the old spelling still
+    works and prints a one-line deprecation warning. Giving both is an error.
+    """
+    if old_value is None:
+        return new_value
+    if new_value is not None:
+        raise InputError(f"{old} is the old name of {new}; give only {new}", source=f"option {old}")
+    warn(f"{old} is deprecated and will be removed in the next release; use {new}")
+    return old_value
 
 
 def _given_options() -> set[str]:
