@@ -34,7 +34,11 @@ def _temperature(value: str | None, stack=None):
 
 
 #: Argument names of the 1D physics (error keys) -> options of ``bands``, ``gate``, ``calibrate``.
-BANDS_OPTIONS = {"gate_voltage": "--gate-voltage", "temperature": "--temperature", "field_T": "--field"}
+BANDS_OPTIONS = {
+    "gate_voltage": "--gate-voltage",
+    "temperature": "--temperature",
+    "field_T": "--field",
+}
 GATE_OPTIONS = {
     "v_from": "--from",
     "v_to": "--to",

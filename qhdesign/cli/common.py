@@ -71,8 +71,7 @@ class OneLineGroup(typer.core.TyperGroup):
             _echo_error(f"{where}{exc.format_message()}")
             sys.exit(EXIT_USER_ERROR)
         except Abort:
-            typer.echo("interrupted", err=True)
-            sys.exit(130)
+            _exit_interrupted()
         sys.exit(rv if isinstance(rv, int) else 0)
 
 
@@ -191,6 +190,15 @@ def translate(exc: InputError, options: Mapping[str, str], given: set[str]) -> I
     return type(exc)(exc.message, source=f"option {options[pick]}")
 
 
+def _exit_interrupted() -> None:
+    """Print ``interrupted`` and exit 130. Objects the interrupt left half built (a DOLFINx
+    NonlinearProblem stopped inside its constructor) may raise in ``__del__`` at shutdown; their
+    "Exception ignored" tracebacks are silenced, since the user asked to stop."""
+    sys.unraisablehook = lambda _unraisable: None
+    typer.echo("interrupted", err=True)
+    sys.exit(130)
+
+
 def guarded(
     func: Callable[..., Any] | None = None, *, options: Mapping[str, str] | None = None
 ) -> Callable[..., Any]:
@@ -216,12 +224,10 @@ def guarded(
             if _INTERRUPTED["flag"]:
                 # Ctrl-C inside a PETSc callback (the 2D Newton residual) comes back as a
                 # petsc4py error, not as KeyboardInterrupt: it is still an interruption
-                typer.echo("interrupted", err=True)
-                sys.exit(130)
+                _exit_interrupted()
             return _fail_cleanly(exc, mapping)
         except KeyboardInterrupt:
-            typer.echo("interrupted", err=True)
-            sys.exit(130)
+            _exit_interrupted()
         finally:
             restore()
 

@@ -155,8 +155,8 @@ def sheet_tables(
     t = _check_temperature(stack.temperature if temperature is None else temperature, "temperature")
     n_pts = int(np.floor(abs(v_to - v_from) / abs(step) + 1e-9)) + 1
     volts = v_from + np.sign(v_to - v_from) * abs(step) * np.arange(n_pts)
-    for v in (volts.min(), volts.max()):
-        check_gate_voltage(stack, float(v), "--from/--to")
+    check_gate_voltage(stack, float(v_from), "v_from", "first table voltage")
+    check_gate_voltage(stack, float(v_to), "v_to", "last table voltage")
     if frozen is None:
         frozen = freeze_out(stack, opts)
     layout = frozen.layout

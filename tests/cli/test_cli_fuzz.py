@@ -275,7 +275,7 @@ def _options_case(rng: random.Random) -> list[str]:
     # each command ends with a value refused before any solve, so a fuzzed value that is
     # valid still costs no solve (the refusal comes after the fuzzed option is parsed)
     if kind == 0:
-        return ["bands", s, "--temperature", v(), "--field", v(), "--gate", "50"]
+        return ["bands", s, "--temperature", v(), "--field", v(), "--gate-voltage", "50"]
     if kind == 1:
         return [
             "edge",
@@ -290,7 +290,7 @@ def _options_case(rng: random.Random) -> list[str]:
             "99",
         ]
     if kind == 2:
-        return ["pinchoff", s, "--gap", v(), "--from", v(), "--to", v(), "--refine", "99"]
+        return ["pinchoff", s, "--gate-gap", v(), "--from", v(), "--to", v(), "--refine", "99"]
     if kind == 3:
         return ["island", s, "--radius", v(), "--ring-width", v(), "--gap", v(), "--refine", "99"]
     if kind == 4:

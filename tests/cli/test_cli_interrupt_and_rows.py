@@ -39,7 +39,7 @@ def test_an_interrupt_inside_a_solver_callback_is_interrupted_exit_130(
 def test_ctrl_c_during_a_real_2d_newton_solve(command):
     args = {
         "edge": ["--gate-voltage", "-0.5", "--refine", "3"],
-        "pinchoff": ["--gap", "300 nm", "--refine", "3", "--step", "0.01"],
+        "pinchoff": ["--gate-gap", "300 nm", "--refine", "3", "--step", "0.01"],
     }[command]
     exe = Path(sys.executable).with_name("qhdesign")
     p = subprocess.Popen(
@@ -65,7 +65,7 @@ def test_sweep_summary_row_count_and_integer_columns(cli_runner, app, tmp_path):
         '[space.parameters]\n"layers.setback_upper.thickness" = ["34 nm", "38 nm"]\n'
     )
     out = tmp_path / "b.csv"
-    res = cli_runner.invoke(app, ["sweep", str(spec), "--out", str(out), "--workers", "1"])
+    res = cli_runner.invoke(app, ["sweep", str(spec), "--csv", str(out), "--workers", "1"])
     assert res.exit_code == 0, res.output
     assert "2 rows in the CSV" in res.stdout  # before: no row count
     with open(out, newline="") as fh:
@@ -73,5 +73,5 @@ def test_sweep_summary_row_count_and_integer_columns(cli_runner, app, tmp_path):
     assert [r["converged"] for r in rows] == ["1", "1"]  # before: "1.0"
     assert all(r["iterations"].isdigit() for r in rows), [r["iterations"] for r in rows]
     # resumed: nothing new, the count is what the file holds
-    res = cli_runner.invoke(app, ["sweep", str(spec), "--out", str(out), "--workers", "1"])
+    res = cli_runner.invoke(app, ["sweep", str(spec), "--csv", str(out), "--workers", "1"])
     assert "0 designs evaluated" in res.stdout and "2 rows in the CSV" in res.stdout

@@ -129,7 +129,7 @@ def test_sweep_csv_must_be_a_regular_file(cli_runner, app, tmp_path):
     node = tmp_path / "null.csv"
     os.mkfifo(node)
     spec = Path(__file__).resolve().parents[2] / "sweeps" / "ql2417_setback.toml"
-    res = cli_runner.invoke(app, ["sweep", str(spec), "--out", str(node), "--workers", "1"])
+    res = cli_runner.invoke(app, ["sweep", str(spec), "--csv", str(node), "--workers", "1"])
     one_line_error(res, "regular file")
     assert stat.S_ISFIFO(node.stat().st_mode)
 
@@ -180,7 +180,7 @@ def test_plugin_stage_needs_consent_and_check_never_imports_it(
     monkeypatch.syspath_prepend(str(tmp_path))
     res = cli_runner.invoke(
         app,
-        ["sweep", str(spec), "--allow-plugin", module, "--workers", "1", "-q", "--out", "p.csv"],
+        ["sweep", str(spec), "--allow-plugin", module, "--workers", "1", "-q", "--csv", "p.csv"],
     )
     assert res.exit_code == 0, res.output
     assert (tmp_path / "MARKER").exists()
@@ -307,5 +307,5 @@ def _is(text, dim, dims):
 @pytest.mark.parametrize("value", ["nan", "inf", "-1e999", "1+1"])
 def test_bare_voltages_must_be_finite_decimals(cli_runner, app, value):
     # before: float("nan") passed and "--from nan" blamed --to
-    res = cli_runner.invoke(app, ["pinchoff", STACK, "--gap", "300 nm", "--from", value])
+    res = cli_runner.invoke(app, ["pinchoff", STACK, "--gate-gap", "300 nm", "--from", value])
     one_line_error(res, "option --from")

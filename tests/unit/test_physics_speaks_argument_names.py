@@ -75,14 +75,14 @@ def test_cli_names_the_option_the_user_typed(cli_runner, app, screened_path):
     r = cli_runner.invoke(app, ["island", s, "--radius", "0.5 um", "--ring-width", "0.6 um"])
     assert_one_line_error(r, "option --ring-width")
     # pinchoff has no --gate-voltage: the last voltage is --to (before: "option --gate-voltage")
-    r = cli_runner.invoke(app, ["pinchoff", s, "--gap", "300 nm", "--to", "-1e6"])
+    r = cli_runner.invoke(app, ["pinchoff", s, "--gate-gap", "300 nm", "--to", "-1e6"])
     assert_one_line_error(r, "option --to", "below -20 V")
     # the first voltage typed above the default last one: --from is named, not --to
-    r = cli_runner.invoke(app, ["pinchoff", s, "--gap", "300 nm", "--from", "-6"])
+    r = cli_runner.invoke(app, ["pinchoff", s, "--gate-gap", "300 nm", "--from", "-6"])
     assert_one_line_error(r, "option --from")
-    # a gap wider than the 2D domain names --gap (before: no option at all)
-    r = cli_runner.invoke(app, ["edge", s, "--gate-voltage", "-0.5", "--gap", "0.9 mm"])
-    assert_one_line_error(r, "option --gap")
+    # a gap wider than the 2D domain names --gate-gap (before: no option at all)
+    r = cli_runner.invoke(app, ["edge", s, "--gate-voltage", "-0.5", "--gate-gap", "0.9 mm"])
+    assert_one_line_error(r, "option --gate-gap")
     # one wording: "option --step", never "key '--step'"
     r = cli_runner.invoke(app, ["gate", s, "--from", "0", "--to", "-1", "--step", "0"])
     err = assert_one_line_error(r, "option --step")
@@ -158,7 +158,7 @@ def test_shared_options_are_one_definition(app):
     "args",
     [
         ["edge", "--gate-voltage", "-0.5", "--refine", "0.2"],
-        ["pinchoff", "--gap", "300 nm", "--refine", "5"],
+        ["pinchoff", "--gate-gap", "300 nm", "--refine", "5"],
         ["island", "--radius", "0.8 um", "--refine", "0.2"],
     ],
 )

@@ -262,7 +262,7 @@ def test_missing_required_option_is_one_line(cli_runner, app):
 
     # before: a framework usage box over several lines
     res = cli_runner.invoke(app, ["pinchoff", str(STACK)])
-    assert_one_line_error(res, "--gap")
+    assert_one_line_error(res, "--gate-gap")
 
 
 def test_nan_is_never_printed_with_ok():
