@@ -40,6 +40,10 @@ EDGE_OPTIONS = {
     "gate_barrier_J": "--gate-barrier",
     "surface": "--surface",
     "refine": "--refine",
+    "spin_gap": "--spin-gap",
+    "spin_gap_J": "--spin-gap",
+    "g_effective": "--g-effective",
+    "strip_min_width_lB": "--strip-min-lb",
 }
 PINCHOFF_OPTIONS = {
     "v_start": "--from",

@@ -105,20 +105,20 @@ class EdgeSettings:
             raise InputError(
                 f"'{self.spin_gap}' is not a spin-gap model; allowed: bare, enhanced, or an "
                 "energy such as '0.8 meV'",
-                source="option --spin-gap",
+                key="spin_gap",
             )
         if self.g_effective is not None and not 0 < self.g_effective <= 100:
             raise InputError(
                 f"effective g-factor must lie in (0, 100], got {self.g_effective:g}",
-                source="option --g-effective",
+                key="g_effective",
             )
         if self.spin_gap_J is not None and not 0 < self.spin_gap_J < 0.1 * sc.e:
-            raise InputError("spin gap must lie between 0 and 100 meV", source="option --spin-gap")
+            raise InputError("spin gap must lie between 0 and 100 meV", key="spin_gap_J")
         if not 0 < self.strip_min_width_lB <= 20:
             raise InputError(
                 f"strip criterion must lie in (0, 20] magnetic lengths, got "
                 f"{self.strip_min_width_lB:g}",
-                source="option --strip-min-lb",
+                key="strip_min_width_lB",
             )
         if self.filling is not None and (self.field_T is None or self.field_T == 0.0):
             raise InputError(

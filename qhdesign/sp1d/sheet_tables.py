@@ -156,7 +156,7 @@ def sheet_tables(
     n_pts = int(np.floor(abs(v_to - v_from) / abs(step) + 1e-9)) + 1
     volts = v_from + np.sign(v_to - v_from) * abs(step) * np.arange(n_pts)
     for v in (volts.min(), volts.max()):
-        check_gate_voltage(stack, float(v), "--from/--to")
+        check_gate_voltage(stack, float(v), "v_from" if v == volts[0] else "v_to")
     if frozen is None:
         frozen = freeze_out(stack, opts)
     layout = frozen.layout
