@@ -32,22 +32,22 @@ demo: $(VENV)/.installed
 	$(QH) gate $(STACK) --from 0.2 --to -1.0 --step 0.01 --csv $(OUT)/gate.csv \
 	  --json $(OUT)/gate.json --plot $(OUT)/gate.png
 	@rm -f $(OUT)/setback.csv $(OUT)/setback.csv.sweep.json  # a fresh sweep, not a resume
-	$(QH) sweep sweeps/ql2417_setback_bands.toml --out $(OUT)/setback.csv
+	$(QH) sweep sweeps/ql2417_setback_bands.toml --csv $(OUT)/setback.csv
 	$(QH) plot-sweep $(OUT)/setback.csv --x layers.setback_upper.thickness \
 	  --y layers.setback_lower.thickness --color "primary_density_cm^-2" \
-	  --contour "primary_density_cm^-2=1.0e11" --out $(OUT)/setback_window.png
+	  --contour "primary_density_cm^-2=1.0e11" --plot $(OUT)/setback_window.png
 	@rm -f $(OUT)/setback_mobility.csv $(OUT)/setback_mobility.csv.sweep.json
-	$(QH) sweep sweeps/ql2417_setback_mobility.toml --out $(OUT)/setback_mobility.csv
+	$(QH) sweep sweeps/ql2417_setback_mobility.toml --csv $(OUT)/setback_mobility.csv
 	$(QH) plot-sweep $(OUT)/setback_mobility.csv --x layers.setback_upper.thickness \
 	  --y layers.setback_lower.thickness --color "primary_mobility_cm^2/Vs" \
-	  --contour "primary_mobility_cm^2/Vs=6e5" --out $(OUT)/setback_mobility.png
+	  --contour "primary_mobility_cm^2/Vs=6e5" --plot $(OUT)/setback_mobility.png
 	$(QH) edge $(STACK) --gate-voltage -1.0 --field 2 --filling 1 --perimeter "4 um" \
 	  --json $(OUT)/edge.json --plot $(OUT)/edge.png --fields $(OUT)/edge.xdmf
 	$(QH) island $(STACK) --gate-radius "1.25 um" --gate-voltage -1.0 --filling 1/3 --gap "120 ueV" \
 	  --field-range "11.5..14 T:20" --csv $(OUT)/island_vs_B.csv \
 	  --json $(OUT)/island.json --plot $(OUT)/island.png
-	$(QH) report $(STACK) --field "2 T" --edge-gate -1.0 --island "1.15 um" --filling 1/3 \
-	  --gap "120 ueV" -o $(OUT)/review.html --json $(OUT)/review.json
+	$(QH) report $(STACK) --field "2 T" --gate-voltage -1.0 --island "1.15 um" --filling 1/3 \
+	  --gap-energy "120 ueV" -o $(OUT)/review.html --json $(OUT)/review.json
 	@echo "demo results in $(OUT)/"
 
 test: $(VENV)/.installed

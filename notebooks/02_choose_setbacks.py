@@ -173,3 +173,14 @@ for seg in choice["gate"]["segments"]:
         print(f"   screened primary: {p_model:.3g} cm^-2/V, ladder {pred['primary']:.3g}")
     # the well nearest the gate follows the ladder to 10 % (sheet model, see above)
     assert abs(model / pred[top] - 1) < 0.10
+
+# %% [markdown]
+# ## Checks: physical invariants
+# Gauss's law: the chosen design's column is neutral (electrons, ionised donors and the boundary
+# charges sum to zero, to the solver's relative charge tolerance of 1e-6), and the window is the
+# distance between the two thresholds.
+
+# %%
+assert abs(choice["bands"]["charge_balance_relative"]) < 1e-6
+th = choice["gate"]["thresholds_V"]
+assert abs(choice["window_V"] - (th["screen_upper"] - th["primary"])) < 1e-9

@@ -115,3 +115,13 @@ assert abs(gate.window_V - (v_up - gate.thresholds_V["primary"])) < 1e-9
 # the Hall density is the sum of the wells, and the primary holds less than a third of it here
 assert abs(sum(dens.values()) * 1e4 / HALL_M2 - 1) < 1e-4
 assert dens["primary"] < sum(dens.values()) / 3
+
+# %% [markdown]
+# ## Checks: physical invariants
+# Gauss's law for the calibrated column (every charge, boundaries included, sums to zero to the
+# solver's relative charge tolerance of 1e-6), and the Hall density is carried by the wells (no
+# parallel channel in a doped layer).
+
+# %%
+assert abs(bands.charge_balance_relative) < 1e-6
+assert not bands.flags.parallel_conduction

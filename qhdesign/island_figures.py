@@ -14,7 +14,9 @@ Conventions (docs/interferometer.md, "Island figures"):
 * Field: the field at which the island's bulk (the primary well at its 1D density n) sits at the
   filling, B = n Phi0 / nu, unless given.
 * Thermal damping: the path is the edge's circumference 2 pi R; the edge velocity is an input
-  (default :data:`DEFAULT_EDGE_VELOCITY_M_S`), or comes from the 2D edge stage.
+  (default :data:`DEFAULT_EDGE_VELOCITY_M_S`).
+* Gate period: dA_I/dV from the island model when it has one, else from the 2D edge stage's edge
+  shift per volt at a given gate voltage times the gate circumference 2 pi R_gate.
 """
 
 from __future__ import annotations
@@ -31,7 +33,7 @@ __all__ = [
     "DEFAULT_ELECTRON_TEMPERATURE_K",
     "DEFAULT_FILLING",
     "QHConditions",
-    "edge_lever_arm",
+    "figures_from_flat",
     "figures_from_result",
     "island_column",
     "island_figures",
@@ -41,7 +43,7 @@ __all__ = [
 #: temperature (common practice).
 DEFAULT_ELECTRON_TEMPERATURE_K = 0.020
 #: Edge velocity when none is given (m/s): order of magnitude for GaAs fractional edges (from
-#: memory); the 2D edge stage computes E/B at the edge when a gate voltage is given.
+#: memory).
 DEFAULT_EDGE_VELOCITY_M_S = 2e4
 #: Filling when none is given.
 DEFAULT_FILLING = 1 / 3
@@ -64,7 +66,8 @@ class QHConditions:
     field_T
         Field; None: the field that puts the island's bulk at ``filling``.
     dA_dV_m2_per_V
-        |dA_I/dV| of the plunger (m^2/V), or None (no gate period); see :func:`edge_lever_arm`.
+        |dA_I/dV| of the plunger (m^2/V), or None (no gate period); see
+        :func:`conditions_from_edge`.
     edge_shift_m_per_V
         Instead of dA/dV: the edge's shift per volt (m/V), times the gate circumference.
     """
@@ -76,6 +79,7 @@ class QHConditions:
     field_T: float | None = None
     dA_dV_m2_per_V: float | None = None
     edge_shift_m_per_V: float | None = None
+    edge_velocity_source: str = "default"
 
     def __post_init__(self):
         try:
@@ -122,14 +126,27 @@ def _areas(res) -> tuple[float, float, float]:
     A_I = getattr(res, "A_I_m2", None)
     A_L = getattr(res, "A_L_m2", None)
     R = getattr(res, "electronic_radius_m", None)
-    g = res.geometry
     if R is None:
-        R = g.radius_m
+        R = res.geometry.radius_m
     if A_I is None:
         A_I = math.pi * R**2
     if A_L is None:
+        g = res.geometry
         A_L = math.pi * (g.radius_m - g.ring_width_m - 0.5 * g.split_gap_m) ** 2
     return float(R), float(A_I), float(A_L)
+
+
+class _FlatResult:
+    """A flat dict of an island model's figures (``A_I_m2``, ``K_I_J``, ...) seen as a result."""
+
+    def __init__(self, flat: dict):
+        self.__dict__.update(flat)
+
+
+def figures_from_flat(flat: dict, cond: QHConditions) -> dict:
+    """Figures from a flat dict with at least ``K_I_J``, ``K_L_J``, ``K_IL_J``, ``A_I_m2``,
+    ``A_L_m2`` and ``electronic_radius_m`` (the operating-point island's keys)."""
+    return figures_from_result(_FlatResult(flat), cond)
 
 
 def figures_from_result(res, cond: QHConditions, bulk_density_m2: float | None = None) -> dict:
@@ -146,7 +163,7 @@ def figures_from_result(res, cond: QHConditions, bulk_density_m2: float | None =
     L = 2.0 * math.pi * R
     T0 = itf.thermal_scale_K(cond.edge_velocity_m_s, L)
     dA = getattr(res, "dA_I_dV_m2_per_V", None) or cond.dA_dV_m2_per_V
-    if dA is None and cond.edge_shift_m_per_V is not None:
+    if dA is None and cond.edge_shift_m_per_V is not None and hasattr(res, "geometry"):
         dA = 2.0 * math.pi * res.geometry.gate_radius_m * abs(cond.edge_shift_m_per_V)
     reg = itf.regime(r)
     out: dict[str, Any] = {
@@ -176,6 +193,7 @@ def figures_from_result(res, cond: QHConditions, bulk_density_m2: float | None =
         "period_gate_ab_V": None,
         "period_gate_V": None,
         "edge_velocity_m_per_s": cond.edge_velocity_m_s,
+        "edge_velocity_source": cond.edge_velocity_source,
         "path_length_m": L,
         "T0_K": T0,
         "visibility": itf.visibility(T, T0),
@@ -192,22 +210,6 @@ def figures_from_result(res, cond: QHConditions, bulk_density_m2: float | None =
         # the gate period is reported where the AB form holds (AB and crossover)
         out["period_gate_V"] = out["period_gate_ab_V"] if reg != "CD" else None
     return out
-
-
-def edge_lever_arm(stack, gate_voltage_V: float, field_T: float, filling: float) -> dict:
-    """Edge shift per volt (m/V) and edge velocity (m/s) from the 2D edge stage at the gate
-    voltage, field and filling (one straight-edge solve; the shift is independent of R)."""
-    from qhdesign.pipeline import section_from_stack
-    from qhdesign.section import EdgeSettings, solve_edge
-
-    res = solve_edge(
-        section_from_stack(stack),
-        EdgeSettings(gate_voltage_V=gate_voltage_V, field_T=field_T, filling=filling),
-    )
-    return {
-        "edge_shift_m_per_V": res.edge_shift_m_per_V,
-        "edge_velocity_m_per_s": res.edge_velocity_m_per_s,
-    }
 
 
 def island_figures(
@@ -311,6 +313,7 @@ def split_island_options(
         if "gap" in opts:
             opts["filling"] = nu
     cond = QHConditions(
+        edge_velocity_source="option" if "edge_velocity" in kw else "default",
         filling=nu,
         gap_qp_J=kw.get("gap_qp_J"),
         temperature_K=kw.get("temperature", DEFAULT_ELECTRON_TEMPERATURE_K),
@@ -321,23 +324,18 @@ def split_island_options(
 
 
 def conditions_from_edge(stack, cond: QHConditions, gate_voltage_V: float, comm=None):
-    """``cond`` with the edge velocity and edge shift per volt of the 2D edge stage at the gate
-    voltage (and the field of ``cond``, or the one that puts the bulk at the filling)."""
-    B = cond.field_T
-    if B is None:
-        col = island_column(stack)
-        B = col.primary.density_m2 * itf.PHI0 / cond.filling
+    """``cond`` with the edge shift per volt of the 2D edge stage at the gate voltage (one
+    straight-edge solve; dA/dV = 2 pi R_gate |dx/dV| for every radius).
+
+    The edge velocity stays the option's (or the default): the edge stage's E/B at the nu
+    contour is not the velocity of a nu = 1/m edge whose bulk is at nu (docs/interferometer.md).
+    """
     from qhdesign.pipeline import section_from_stack
     from qhdesign.section import EdgeSettings, solve_edge
 
     kw = {} if comm is None else {"comm": comm}
-    res = solve_edge(
-        section_from_stack(stack),
-        EdgeSettings(gate_voltage_V=gate_voltage_V, field_T=B, filling=cond.filling),
-        **kw,
-    )
-    v = res.edge_velocity_m_per_s or cond.edge_velocity_m_s
-    return replace(cond, field_T=B, edge_velocity_m_s=v, edge_shift_m_per_V=res.edge_shift_m_per_V)
+    res = solve_edge(section_from_stack(stack), EdgeSettings(gate_voltage_V=gate_voltage_V), **kw)
+    return replace(cond, edge_shift_m_per_V=res.edge_shift_m_per_V)
 
 
 #: Sweep-column code of the regime verdict (a CSV row holds numbers only).

@@ -377,7 +377,7 @@ def build_review(stack_file: str | Path, settings: ReportSettings | None = None)
     stack = load_stack(path)
     text = path.read_text(encoding="utf-8")
     if not s.gate_step_V > 0:
-        raise InputError("gate step must be > 0 V", source="option --gate-step")
+        raise InputError("gate step must be > 0 V", source="option --step")
     if s.field_T is not None and not 0 < s.field_T <= 100:
         raise InputError(
             "field out of range; allowed above 0 T up to 100 T", source="option --field"
@@ -391,7 +391,8 @@ def build_review(stack_file: str | Path, settings: ReportSettings | None = None)
     }
     results: dict[str, Any] = {"stack": stack, "bands": bands, "gate": gate}
     if s.edge_gate_V is not None:
-        from .tf2d import EdgeSettings, MeshOptions, SolverOptions, section_from_stack, solve_edge
+        from .pipeline import section_from_stack
+        from .section import EdgeSettings, MeshOptions, SolverOptions, solve_edge
 
         section = section_from_stack(stack)
         surf = section.surface_mode if stack.surface.kind == "exposed" else "pinned"
@@ -405,7 +406,7 @@ def build_review(stack_file: str | Path, settings: ReportSettings | None = None)
         results["edge"] = edge
     if s.island_radius_m is not None:
         from .island_options import island_inputs
-        from .tf2d import solve_island
+        from .pipeline import solve_island
 
         island = solve_island(
             stack,

@@ -9,7 +9,7 @@ from pathlib import Path
 import typer
 
 from . import disorder as D
-from .common import JsonOut, StackFile, Temperature, guarded, option_quantity, warn
+from .common import JsonOut, StackFile, Temperature, guarded, option_quantity, renamed, warn
 
 
 def _load(stack_file: Path):
@@ -34,7 +34,7 @@ def _temperature(value: str | None, stack=None):
 
 
 #: Argument names of the 1D physics (error keys) -> options of ``bands``, ``gate``, ``calibrate``.
-BANDS_OPTIONS = {"gate_voltage": "--gate", "temperature": "--temperature", "field_T": "--field"}
+BANDS_OPTIONS = {"gate_voltage": "--gate-voltage", "temperature": "--temperature", "field_T": "--field"}
 GATE_OPTIONS = {
     "v_from": "--from",
     "v_to": "--to",
@@ -135,8 +135,9 @@ def register(app: typer.Typer) -> None:
     def bands(
         stack_file: StackFile,
         gate: str | None = typer.Option(
-            None, "--gate", help="Gate voltage (V; default: the stack's bias)."
+            None, "--gate-voltage", help="Gate voltage (V; default: the stack's bias)."
         ),
+        gate_old: str | None = typer.Option(None, "--gate", hidden=True),
         temperature: Temperature = None,
         field: str | None = typer.Option(
             None, "--field", help='Perpendicular field for the filling-factor flag, e.g. "3 T".'
@@ -161,7 +162,8 @@ def register(app: typer.Typer) -> None:
         stack = _load(stack_file)
         from qhdesign.limits import check_field
 
-        v = option_quantity(gate, "voltage", "--gate")
+        gate = renamed(gate, gate_old, "--gate-voltage", "--gate")
+        v = option_quantity(gate, "voltage", "--gate-voltage")
         t = _temperature(temperature, stack)
         b = check_field(option_quantity(field, "field", "--field"))
         r = solve_bands(stack, gate_voltage=v, temperature=t, options=BandsOptions(field_T=b))
@@ -291,9 +293,12 @@ def register(app: typer.Typer) -> None:
             help='Search interval for the parameter, "LOW..HIGH" with units '
             '(e.g. "0.6 eV..0.8 eV"); default +-50% of its value.',
         ),
-        out: Path | None = typer.Option(
-            None, "--out", help="Write the calibrated stack (TOML) here (not with --mobility)."
+        toml_out: Path | None = typer.Option(
+            None,
+            "--toml",
+            help="Write the calibrated stack file (TOML) here (not with --mobility).",
         ),
+        out: Path | None = typer.Option(None, "--out", hidden=True),
         json_out: Path | None = typer.Option(None, "--json", help="Write the fit as JSON."),
         mobility: str | None = typer.Option(
             None,
@@ -307,6 +312,7 @@ def register(app: typer.Typer) -> None:
         from qhdesign.errors import InputError
         from qhdesign.sp1d import calibrate
 
+        out = renamed(toml_out, out, "--toml", "--out")
         given = [x is not None for x in (density, hall_density, threshold, mobility)]
         if sum(given) != 1:
             raise InputError(
@@ -320,7 +326,7 @@ def register(app: typer.Typer) -> None:
         if mobility is not None:
             D.calibrate_mobility(stack_file, parameter, well, mobility, out, json_out)
             return
-        for value, option in ((parameter, "--parameter"), (out, "--out")):
+        for value, option in ((parameter, "--parameter"), (out, "--toml")):
             if value is None:
                 raise InputError(
                     "required with --density, --hall-density or --threshold",
@@ -340,14 +346,21 @@ def register(app: typer.Typer) -> None:
         res = calibrate(
             stack, parameter, target=target, well=well, measured=measured, bracket=bracket
         )
-        typer.echo(
-            f"{parameter}: fitted {res.fitted_value:.6g} (SI), was {res.initial_value:.6g}; "
-            f"reproduces the measured {target} of {res.well} "
-            f"({res.achieved:.6g} vs {res.measured:.6g} SI) after {res.evaluations} solves"
-        )
         from qhdesign.io import atomic_write_json, atomic_write_text
+        from qhdesign.stackedit import edit_value, format_in_unit, unit_in_file
 
-        atomic_write_text(out, res.stack.to_toml())
+        # the stack file edited in place: comments kept, the value in the file's own unit
+        text = Path(stack_file).read_text(encoding="utf-8")
+        edited, written = edit_value(text, stack, parameter, res.fitted_value)
+        was = format_in_unit(res.initial_value, unit_in_file(text, stack, parameter))
+        unit = "V" if target == "threshold" else "cm^-2"
+        what = "depletion threshold" if target == "threshold" else "density"
+        typer.echo(
+            f"{parameter}: {was} -> {written}; reproduces the measured {what} of {res.well}: "
+            f"{format_in_unit(res.achieved, unit)} (measured {format_in_unit(res.measured, unit)}) "
+            f"after {res.evaluations} solves"
+        )
+        atomic_write_text(out, edited)
         typer.echo(f"wrote {out}")
         if json_out is not None:
             atomic_write_json(json_out, res.to_dict())

@@ -82,6 +82,8 @@ OUTPUT_OPTIONS = {
     "json_out": "--json",
     "csv_out": "--csv",
     "fields": "--fields",
+    "toml_out": "--toml",
+    "html_out": "--html",
     "out": "--out",
 }
 #: Figure formats every figure option accepts (matplotlib backends, by file suffix).
@@ -136,6 +138,20 @@ def warn(text: str) -> None:
         return
     _WARNED.add(key)
     typer.echo(f"warning: {key}", err=True)
+
+
+def renamed(new_value: Any, old_value: Any, new: str, old: str) -> Any:
+    """The value of an option whose old spelling is kept, hidden, for one release.
+
+    One name per concept across commands (docs/cli.md, "Option names"); the old spelling still
+    works and prints a one-line deprecation warning. Giving both is an error.
+    """
+    if old_value is None:
+        return new_value
+    if new_value is not None:
+        raise InputError(f"{old} is the old name of {new}; give only {new}", source=f"option {old}")
+    warn(f"{old} is deprecated and will be removed in the next release; use {new}")
+    return old_value
 
 
 def _given_options() -> set[str]:
@@ -266,8 +282,8 @@ def option_number(value: str | float | None, option: str) -> float | None:
 def option_quantity(value: str | None, dimension: str, option: str) -> float | None:
     """Parse a CLI option value with a unit (``"-0.4 V"``, ``"30 nm"``); ``None`` passes through.
 
-    Every dimensional option needs its unit, except voltages (and fields, read in tesla): a plain
-    number given to a voltage option is read in volts (``--gate-voltage -0.4``), since negative
+    Every dimensional option needs its unit, except voltages: a plain number given to a voltage
+    option is read in volts (``--gate-voltage -0.4``), since negative
     bare numbers are what people type for gate biases. A plain number must be finite and
     decimal (no ``nan``, no ``inf``).
     """
@@ -276,7 +292,7 @@ def option_quantity(value: str | None, dimension: str, option: str) -> float | N
     from qhdesign.units import _BARE_NUMBER
 
     text = str(value).strip()
-    if dimension in ("voltage", "field") and _BARE_NUMBER.match(text):
+    if dimension == "voltage" and _BARE_NUMBER.match(text):
         return option_number(text, option)
     from qhdesign.units import parse_quantity
 

@@ -118,7 +118,7 @@ def calibrate_mobility(stack_file, parameter, well, mobility, out, json_out) -> 
         raise InputError(
             "the background density is an option of bands (--background), not a stack "
             "parameter: no stack is written; use --json for the fit",
-            source="option --out",
+            source="option --toml",
         )
     mu = option_quantity(mobility, "mobility", "--mobility")
     stack = load_stack(stack_file)

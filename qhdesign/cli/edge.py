@@ -14,7 +14,18 @@ import typer
 
 from qhdesign.limits import check_refine
 
-from .common import GateBarrier, JsonOut, Refine, StackFile, Surface, guarded, option_quantity, warn
+from .common import (
+    GateBarrier,
+    JsonOut,
+    Refine,
+    StackFile,
+    Surface,
+    guarded,
+    option_number,
+    option_quantity,
+    renamed,
+    warn,
+)
 
 
 def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
@@ -36,7 +47,7 @@ EDGE_OPTIONS = {
     "filling": "--filling",
     "gap_energy_J": "--gap-energy",
     "perimeter_m": "--perimeter",
-    "gap_m": "--gap",
+    "gap_m": "--gate-gap",
     "gate_barrier_J": "--gate-barrier",
     "surface": "--surface",
     "refine": "--refine",
@@ -49,7 +60,7 @@ PINCHOFF_OPTIONS = {
     "v_start": "--from",
     "v_stop": "--to",
     "v_step": "--step",
-    "gap_m": "--gap",
+    "gap_m": "--gate-gap",
     "gate_barrier_J": "--gate-barrier",
     "surface": "--surface",
     "refine": "--refine",
@@ -57,7 +68,12 @@ PINCHOFF_OPTIONS = {
 
 
 def _field(value: str | None) -> float | None:
-    """A field option: a bare number is read in tesla; the range is the physics' rule."""
+    """A field option of ``edge``: a bare number is read in tesla (as documented there); the
+    range is the physics' rule."""
+    from qhdesign.units import _BARE_NUMBER
+
+    if value is not None and _BARE_NUMBER.match(value.strip()):
+        return option_number(value, "--field")
     return option_quantity(value, "field", "--field")
 
 
@@ -193,8 +209,11 @@ def register(app: typer.Typer) -> None:
             ..., "--gate-voltage", help="Depletion-gate bias, e.g. -0.8 or '-800 mV'."
         ),
         gap: str | None = typer.Option(
-            None, "--gap", help="Split gate of this gap (e.g. '300 nm') instead of one edge."
+            None,
+            "--gate-gap",
+            help="Split gate with this opening (e.g. '300 nm') instead of one edge.",
         ),
+        gap_old: str | None = typer.Option(None, "--gap", hidden=True),
         field: str | None = typer.Option(
             None, "--field", help="Perpendicular field (e.g. '4 T'; a bare number is tesla)."
         ),
@@ -224,7 +243,9 @@ def register(app: typer.Typer) -> None:
         refine: Refine = 1.0,
         json_out: JsonOut = None,
         csv_out: Path | None = typer.Option(None, "--csv", help="Write n(x) per well as CSV."),
-        plot: Path | None = typer.Option(None, "--plot", help="Write the edge figure (PNG/SVG)."),
+        plot: Path | None = typer.Option(
+            None, "--plot", help="Write the edge figure (PNG, SVG or PDF by suffix)."
+        ),
         fields: Path | None = typer.Option(
             None, "--fields", help="Write the potential field for ParaView (XDMF, lengths in nm)."
         ),
@@ -237,7 +258,8 @@ def register(app: typer.Typer) -> None:
         nu = _filling(filling)
         e_gap = option_quantity(gap_energy, "energy", "--gap-energy")
         per = _positive_length(perimeter, "--perimeter")
-        w = _positive_length(gap, "--gap")
+        gap = renamed(gap, gap_old, "--gate-gap", "--gap")
+        w = _positive_length(gap, "--gate-gap")
         check_refine(refine)
         gap_model, gap_J = _spin_gap(spin_gap)
         settings = EdgeSettings(
@@ -291,7 +313,10 @@ def register(app: typer.Typer) -> None:
     @guarded(options=PINCHOFF_OPTIONS)
     def pinchoff(
         stack_file: StackFile,
-        gap: str = typer.Option(..., "--gap", help="Split-gate gap, e.g. '300 nm'."),
+        gap: str | None = typer.Option(
+            None, "--gate-gap", help="Opening of the split gate, e.g. '300 nm' (required)."
+        ),
+        gap_old: str | None = typer.Option(None, "--gap", hidden=True),
         v_start: str = typer.Option("0", "--from", help="First gate voltage of the sweep (V)."),
         v_stop: str = typer.Option("-5", "--to", help="Last gate voltage of the sweep (V)."),
         v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
@@ -300,13 +325,21 @@ def register(app: typer.Typer) -> None:
         refine: Refine = 1.0,
         json_out: JsonOut = None,
         csv_out: Path | None = typer.Option(None, "--csv", help="Write the sweep as CSV."),
-        plot: Path | None = typer.Option(None, "--plot", help="Write the pinch-off figure."),
+        plot: Path | None = typer.Option(
+            None, "--plot", help="Write the pinch-off figure (PNG, SVG or PDF by suffix)."
+        ),
     ) -> None:
         """Centre density of a split-gate constriction vs gate voltage; pinch-off per well."""
         from qhdesign.errors import InputError
         from qhdesign.section import MeshOptions, SolverOptions, solve_pinchoff
 
-        w = _positive_length(gap, "--gap")
+        gap = renamed(gap, gap_old, "--gate-gap", "--gap")
+        if gap is None:
+            raise InputError(
+                "required: the opening of the split gate, e.g. --gate-gap '300 nm'",
+                source="option --gate-gap",
+            )
+        w = _positive_length(gap, "--gate-gap")
         a = option_quantity(v_start, "voltage", "--from")
         b = option_quantity(v_stop, "voltage", "--to")
         step = option_quantity(v_step, "voltage", "--step")

@@ -50,6 +50,25 @@ def _print(res) -> None:
     console.print(t)
 
 
+def _print_figures(f: dict) -> None:
+    def mT(v):
+        return "-" if v is None else f"{v * 1e3:.4g} mT"
+
+    gate = "-" if f["period_gate_V"] is None else f"{f['period_gate_V'] * 1e3:.4g} mV"
+    typer.echo(
+        f"interferometer (nu = {f['filling']:.4g}, B = {f['field_T']:.4g} T): regime "
+        f"{f['regime']} (K_IL/K_I = {f['K_IL_over_K_I']:.4f}); periods "
+        f"{mT(f['period_compressible_T'])} / {mT(f['period_incompressible_T'])} "
+        f"(A_I - r A_L form); window {mT(f['window_T'])}; gate period {gate}"
+    )
+    typer.echo(
+        f"E_C = {f['E_C_mK']:.4g} mK vs T = {f['temperature_K'] * 1e3:.4g} mK; T0 = "
+        f"{f['T0_K'] * 1e3:.4g} mK (v = {f['edge_velocity_m_per_s']:.3g} m/s, L = "
+        f"{f['path_length_m'] * 1e6:.3g} um, {f['edge_velocity_source']}): visibility factor "
+        f"{f['visibility']:.3f}"
+    )
+
+
 #: Argument names of the island physics (error keys) -> options of ``island``.
 ISLAND_OPTIONS = {
     "radius_m": "--radius",
@@ -174,6 +193,16 @@ def register(app: typer.Typer) -> None:
             help="LEGACY (--radius): primary well beyond the gate edge as a sheet.",
         ),
         refine: Refine = 1.0,
+        electron_temperature: str = typer.Option(
+            "20 mK",
+            "--electron-temperature",
+            help="Electron temperature for the visibility (x/sinh x) and the thermal window.",
+        ),
+        edge_velocity: str | None = typer.Option(
+            None,
+            "--edge-velocity",
+            help="Edge velocity for T0 (default: the operating point's strip, else 2e4 m/s).",
+        ),
         json_out: JsonOut = None,
         plot: Path | None = typer.Option(
             None, "--plot", help="Write the figure (n(r) and, with --field-range, K's vs B)."
@@ -200,25 +229,58 @@ def register(app: typer.Typer) -> None:
             gate_offset_m=option_quantity(gate_offset, "length", "--gate-offset"),
             split_gap_m=option_quantity(split_gap, "length", "--split-gap"),
         )
+        from qhdesign.island_figures import (
+            conditions_from_edge,
+            figures_from_result,
+            island_column,
+            split_island_options,
+        )
+
+        cond, _, gate_v = split_island_options(
+            {
+                "filling": filling,
+                "gap": gap,
+                "gap_kind": gap_kind,
+                "temperature": electron_temperature,
+                "edge_velocity": edge_velocity,
+                "field": field,
+                "gate_voltage": gate_voltage,
+            },
+            source_prefix="--",
+        )
         settings = IslandSettings(
             screening=screening,
             surface=surface,
             far=far,
             outer_well=outer_well,
             filling=parse_filling(filling, key="filling"),
-            gap_energy_J=option_quantity(gap, "energy", "--gap"),
+            gap_energy_J=cond.gap_qp_J,  # the quasiparticle gap (an activation gap halved)
         )
         settings = replace(settings, mesh=replace(settings.mesh, refine=check_refine(refine)))
         stack = load_stack(stack_file)
-        res = solve_island(stack, geometry, settings, keep_potentials=plot is not None)
+        column = island_column(stack)
+        if gate_v is not None:
+            cond = conditions_from_edge(stack, cond, gate_v)
+        res = solve_island(column, geometry, settings, keep_potentials=plot is not None)
+        figures = figures_from_result(res, cond, column.primary.density_m2)
         MPI, _ = load()
         if MPI.COMM_WORLD.rank != 0:
             return
         _print(res)
+        _print_figures(figures)
         if json_out is not None:
             from qhdesign.io import atomic_write_json
 
-            atomic_write_json(json_out, {"stack_file": str(stack_file), **res.to_dict()})
+            top = {k: figures[k] for k in ("regime", "period_gate_V", "T0_K", "visibility")}
+            atomic_write_json(
+                json_out,
+                {
+                    "stack_file": str(stack_file),
+                    **res.to_dict(),
+                    **top,
+                    "interferometer": figures,
+                },
+            )
         if plot is not None:
             from qhdesign.plotting import save_figure, use_agg
 

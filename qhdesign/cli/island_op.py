@@ -113,6 +113,7 @@ def run(stack_file: Path, o: dict) -> None:
     written = []
     if o["json_out"] is not None:
         d = {"stack_file": str(stack_file), **res.to_dict()}
+        d.update(_interferometer(res, settings, o))
         if fields:
             d["field_range"] = res.rows()
         atomic_write_json(o["json_out"], _finite(d))
@@ -132,6 +133,35 @@ def run(stack_file: Path, o: dict) -> None:
 
     for p in written:
         typer.echo(f"wrote {p}")
+
+
+def _interferometer(res, settings, o: dict) -> dict:
+    """regime, period_gate_V, T0_K, visibility and the interferometer block (docs/cli.md) from
+    the operating point, at the electron temperature (``--electron-temperature``)."""
+    from qhdesign.island_figures import DEFAULT_EDGE_VELOCITY_M_S, QHConditions, figures_from_flat
+
+    flat = res.point.flat()
+    v_opt = option_quantity(o.get("edge_velocity"), "velocity", "--edge-velocity")
+    v_strip = flat.get("edge_velocity_m_per_s")
+    if v_opt is not None:
+        v, src = v_opt, "option"
+    elif v_strip is not None and v_strip > 0:
+        v, src = float(v_strip), "operating point (compressible strip)"
+    else:
+        v, src = DEFAULT_EDGE_VELOCITY_M_S, "default"
+    cond = QHConditions(
+        filling=settings.filling,
+        gap_qp_J=settings.quasiparticle_gap_J,
+        temperature_K=option_quantity(
+            o.get("electron_temperature") or "20 mK", "temperature", "--electron-temperature"
+        ),
+        edge_velocity_m_s=v,
+        field_T=flat["field_T"],
+        edge_velocity_source=src,
+    )
+    f = figures_from_flat(flat, cond)
+    top = {k: f[k] for k in ("regime", "period_gate_V", "T0_K", "visibility")}
+    return {**top, "interferometer": f}
 
 
 def _finite(obj):

@@ -14,8 +14,8 @@ def register(app: typer.Typer) -> None:
     @guarded
     def report(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
-        out: Path = typer.Option(
-            ..., "--out", "-o", help="The review, one self-contained HTML file (e.g. review.html)."
+        html_out: Path = typer.Option(
+            ..., "--html", "-o", help="The review, one self-contained HTML file (e.g. review.html)."
         ),
         field: str | None = typer.Option(
             None, "--field", help="Perpendicular field, e.g. '2 T': fillings, strips, velocity."
@@ -27,14 +27,16 @@ def register(app: typer.Typer) -> None:
             None, "--filling", help="Laughlin filling of the island, e.g. 1/3."
         ),
         gap: str | None = typer.Option(
-            None, "--gap", help="Quasiparticle gap of the island filling, e.g. '120 ueV'."
+            None, "--gap-energy", help="Quasiparticle gap of the island filling, e.g. '120 ueV'."
         ),
         edge_gate: str | None = typer.Option(
-            None, "--edge-gate", help="Depletion-gate bias of the edge section (V): adds the edge."
+            None,
+            "--gate-voltage",
+            help="Depletion-gate bias of the edge section (V): adds the edge.",
         ),
-        gate_from: str = typer.Option("0.2", "--gate-from", help="Gate sweep start (V)."),
-        gate_to: str = typer.Option("-1.0", "--gate-to", help="Gate sweep end (V)."),
-        gate_step: str = typer.Option("0.02", "--gate-step", help="Gate sweep step (V, > 0)."),
+        gate_from: str = typer.Option("0.2", "--from", help="Gate sweep start (V)."),
+        gate_to: str = typer.Option("-1.0", "--to", help="Gate sweep end (V)."),
+        gate_step: str = typer.Option("0.02", "--step", help="Gate sweep step (V, > 0)."),
         electron_temperature: str | None = typer.Option(
             None,
             "--electron-temperature",
@@ -51,10 +53,11 @@ def register(app: typer.Typer) -> None:
         from qhdesign.sp1d.solve import check_gate_voltage
         from qhdesign.stack import load_stack
 
+        out = html_out
         if out.suffix.lower() not in (".html", ".htm"):
             raise InputError(
                 f"the review is an HTML file; '{out.name}' does not end in .html",
-                source="option --out",
+                source="option --html",
             )
         b = None if field is None else option_quantity(field, "field", "--field")
         radius = option_quantity(island, "length", "--island")
@@ -64,16 +67,16 @@ def register(app: typer.Typer) -> None:
             )
         if (filling or gap) and radius is None:
             raise InputError(
-                "--filling and --gap describe the island: give --island too",
+                "--filling and --gap-energy describe the island: give --island too",
                 source="option --island",
             )
         t_e = option_quantity(electron_temperature, "temperature", "--electron-temperature")
         settings = ReportSettings(
-            gate_from_V=option_quantity(gate_from, "voltage", "--gate-from"),
-            gate_to_V=option_quantity(gate_to, "voltage", "--gate-to"),
-            gate_step_V=option_quantity(gate_step, "voltage", "--gate-step"),
+            gate_from_V=option_quantity(gate_from, "voltage", "--from"),
+            gate_to_V=option_quantity(gate_to, "voltage", "--to"),
+            gate_step_V=option_quantity(gate_step, "voltage", "--step"),
             field_T=b,
-            edge_gate_V=option_quantity(edge_gate, "voltage", "--edge-gate"),
+            edge_gate_V=option_quantity(edge_gate, "voltage", "--gate-voltage"),
             island_radius_m=radius,
             filling=filling,
             gap=gap,
@@ -81,8 +84,8 @@ def register(app: typer.Typer) -> None:
         )
         stack = load_stack(stack_file)
         for value, option in (
-            (settings.gate_from_V, "--gate-from"),
-            (settings.gate_to_V, "--gate-to"),
+            (settings.gate_from_V, "--from"),
+            (settings.gate_to_V, "--to"),
         ):
             check_gate_voltage(stack, value, option)
         review = build_review(stack_file, settings)

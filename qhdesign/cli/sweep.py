@@ -15,7 +15,45 @@ from pathlib import Path
 
 import typer
 
-from .common import check_figure_path, guarded
+from .common import check_figure_path, guarded, renamed
+
+#: A sweep estimated to run longer than this (s) starts only with --yes.
+LONG_SWEEP_S = 3600.0
+
+
+def _duration(seconds: float) -> str:
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    if seconds < 5400:
+        return f"{seconds / 60:.0f} min"
+    return f"{seconds / 3600:.1f} h"
+
+
+def _mpi_size() -> int:
+    """Ranks of an mpiexec launch, from the launcher's environment (1 outside mpiexec)."""
+    for var in ("PMI_SIZE", "OMPI_COMM_WORLD_SIZE", "PMIX_SIZE"):
+        v = os.environ.get(var)
+        if v and v.isdigit():
+            return int(v)
+    return 1
+
+
+def _estimate(plan, workers: int | None, executor: str) -> tuple[float, str]:
+    """Run time of the whole sweep from one timed evaluation of the nominal design (the same
+    probe the runner sizes its chunks with): seconds and a sentence."""
+    from qhdesign.sweep.runner import probe
+
+    _, status, _, t = probe(plan)
+    n = len(plan)
+    w = 1 if executor == "serial" else (workers or os.cpu_count() or 1)
+    w = max(1, min(w, n))
+    total = t * n / w
+    note = "" if status == "ok" else f" (the timed design ended '{status}')"
+    return total, (
+        f"estimated run time about {_duration(total)}: one design {t:.3g} s x {n} designs on "
+        f"{w} worker{'s' if w > 1 else ''}{note}"
+    )
+
 
 _EXECUTOR_HELP = (
     "auto: MPI when started under mpiexec with >1 rank, else local processes (serial for "
@@ -199,9 +237,10 @@ def register(app: typer.Typer) -> None:
         spec: Path = typer.Argument(
             ..., help="Sweep spec TOML (docs/sweeps.md), or a stack TOML with --param."
         ),
-        out: Path | None = typer.Option(
-            None, "--out", help="CSV to write or resume (default: <spec name>.csv here)."
+        csv_out: Path | None = typer.Option(
+            None, "--csv", help="CSV to write or resume (default: <spec name>.csv here)."
         ),
+        out: Path | None = typer.Option(None, "--out", hidden=True),
         workers: int | None = typer.Option(
             None, "--workers", help="Local worker processes (default: all cores)."
         ),
@@ -225,7 +264,12 @@ def register(app: typer.Typer) -> None:
         ),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar, no summary."),
         check: bool = typer.Option(
-            False, "--check", help="Validate the spec against the stack and stop (no evaluation)."
+            False,
+            "--check",
+            help="Validate the spec, time one design, print the estimated run time and stop.",
+        ),
+        yes: bool = typer.Option(
+            False, "--yes", help="Start a sweep estimated to run longer than one hour."
         ),
         allow_plugin: list[str] | None = typer.Option(
             None,
@@ -242,6 +286,7 @@ def register(app: typer.Typer) -> None:
         quiet = quiet or _mpi_rank() > 0
         from qhdesign.sweep.spec import read_spec
 
+        out = renamed(csv_out, out, "--csv", "--out")
         raw = read_spec(spec)
         if raw is not None and "sweep" not in raw:
             # shorthand: SPEC is a stack file
@@ -285,7 +330,16 @@ def register(app: typer.Typer) -> None:
                     f"'{plan.stage}' over {', '.join(plan.parameters[:6])}"
                     f"{' ...' if len(plan.parameters) > 6 else ''}; {note}"
                 )
+                if ":" not in plan.stage:  # a plug-in stage is never run (nor imported) by --check
+                    typer.echo(_estimate(plan, workers, executor)[1])
             return
+        if not yes and _mpi_size() == 1:
+            seconds, text = _estimate(plan, workers, executor)
+            if seconds > LONG_SWEEP_S:
+                raise InputError(
+                    f"{text}, above one hour; add --yes to start it (or narrow the space)",
+                    source="option --yes",
+                )
         out = out or Path(f"{spec.stem}.csv")
         summary = _run_with_progress(plan, out, executor, workers, chunk, quiet)
         _finish(summary, plan, out, quiet)
@@ -297,7 +351,10 @@ def register(app: typer.Typer) -> None:
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file (the nominal design)."),
         samples: int = typer.Option(1000, "--samples", help="Monte Carlo samples (wafers)."),
         seed: int = typer.Option(1, "--seed", help="Random seed (same seed, same samples)."),
-        out: Path | None = typer.Option(None, "--out", help="CSV (default <stack>_tolerance.csv)."),
+        csv_out: Path | None = typer.Option(
+            None, "--csv", help="CSV (default <stack>_tolerance.csv)."
+        ),
+        out: Path | None = typer.Option(None, "--out", hidden=True),
         stage: str = typer.Option("bands", "--stage", help="Stage evaluated per sample."),
         option: list[str] | None = typer.Option(
             None, "--option", help="Stage option KEY=VALUE (VALUE may be JSON)."
@@ -359,7 +416,7 @@ def register(app: typer.Typer) -> None:
             base_dir=Path.cwd(),
             allow_plugins=tuple(allow_plugin or ()),
         )
-        out = out or Path(f"{stack_file.stem}_tolerance.csv")
+        out = renamed(csv_out, out, "--csv", "--out") or Path(f"{stack_file.stem}_tolerance.csv")
         summary = _run_with_progress(plan, out, executor, workers, None, quiet or rank > 0)
         if summary is None:
             return
@@ -387,7 +444,10 @@ def register(app: typer.Typer) -> None:
         require: list[str] | None = typer.Option(
             None, "--require", help="Feasible if COLUMN=MIN..MAX; the rest is hatched."
         ),
-        out: Path | None = typer.Option(None, "--out", help="Figure file (PNG/SVG/PDF)."),
+        plot: Path | None = typer.Option(
+            None, "--plot", help="Figure file (PNG, SVG or PDF by suffix; default <csv>.png)."
+        ),
+        out: Path | None = typer.Option(None, "--out", hidden=True),
     ) -> None:
         """Design-window map (--x, --y), line plot (--x) or Monte Carlo histograms of a sweep."""
         from qhdesign.errors import InputError
@@ -395,8 +455,9 @@ def register(app: typer.Typer) -> None:
         from qhdesign.plotting.sweep import plot_sweep_table
         from qhdesign.sweep.table import read_sweep_csv
 
+        out = renamed(plot, out, "--plot", "--out")
         if out is not None:
-            check_figure_path(out, "--out")
+            check_figure_path(out, "--plot")
         if x is not None and y is not None and x == y:
             raise InputError("--x and --y name the same parameter", source="option --y")
         table = read_sweep_csv(csv_file)

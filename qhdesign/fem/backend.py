@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import functools
 
-__all__ = ["load", "mesh_from_gmsh"]
+__all__ = ["load", "mesh_from_gmsh", "write_fields"]
 
 
 @functools.cache
@@ -60,3 +60,18 @@ def mesh_from_gmsh(build_model, comm, gdim: int = 2):
         if started and gmsh is not None:
             gmsh.finalize()
     return data
+
+
+def write_fields(path, comm, mesh, potential, permittivity) -> None:
+    """Write the mesh, the potential and the relative permittivity (a DG0 function, written as
+    ``relative_permittivity``) to one XDMF file, collectively on ``comm`` (lengths as in the mesh,
+    nm)."""
+    _, dolfinx = load()
+    from dolfinx.io import XDMFFile
+
+    eps = dolfinx.fem.Function(permittivity.function_space, name="relative_permittivity")
+    eps.x.array[:] = permittivity.x.array
+    with XDMFFile(comm, str(path), "w") as f:
+        f.write_mesh(mesh)
+        f.write_function(potential)
+        f.write_function(eps)

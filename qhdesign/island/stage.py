@@ -19,10 +19,12 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
+import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
 from qhdesign.landau import G_FACTOR_GAAS, LandauSheet, level_width_from_lifetime, zero_field_dos
+from qhdesign.results import Table, flatten
 
 from .operating import EdgeStrip, IslandDevice, OperatingPoint, solve_operating_point
 
@@ -290,6 +292,18 @@ class IslandOperatingResult:
             "solver": dict(op.info) | dict(self.info),
         }
         return d
+
+    def summary(self) -> dict[str, float]:
+        """Flat numbers of :meth:`to_dict` (solver record left out)."""
+        d = self.to_dict()
+        d.pop("solver", None)
+        return flatten(d)
+
+    def table(self) -> Table:
+        """:meth:`rows` as a table: one row per field, its numeric columns."""
+        rows = [flatten(r) for r in self.rows()]
+        cols = tuple(rows[0])
+        return Table(cols, np.array([[r.get(c, np.nan) for c in cols] for r in rows]))
 
     def rows(self) -> list[dict]:
         """One flat row per field (for the CSV)."""

@@ -450,12 +450,6 @@ class LayoutSolver:
 
     def write_fields(self, path) -> None:
         """Write the mesh, phi (V) and the permittivity to XDMF (lengths in nm)."""
-        from dolfinx import fem
-        from dolfinx.io import XDMFFile
+        from qhdesign.fem.backend import write_fields
 
-        eps = fem.Function(self.eps.function_space, name="relative_permittivity")
-        eps.x.array[:] = self.eps.x.array
-        with XDMFFile(self.comm, str(path), "w") as f:
-            f.write_mesh(self.mesh)
-            f.write_function(self.phi)
-            f.write_function(eps)
+        write_fields(path, self.comm, self.mesh, self.phi, self.eps)

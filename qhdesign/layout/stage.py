@@ -29,6 +29,7 @@ import numpy as np
 from scipy import constants as sc
 
 from qhdesign.errors import InputError
+from qhdesign.results import Table, flatten
 
 from .analysis import PINCH_FRACTION, constriction_profile, island_shape
 from .layoutfile import Layout
@@ -133,6 +134,19 @@ class LayoutResult:
             first = next(iter(self.lever_arm_m2_per_V))
             out["dA_I_dV_m2_per_V"] = self.lever_arm_m2_per_V[first]
         return out
+
+    def summary(self) -> dict[str, float]:
+        """Flat numbers of :meth:`to_dict` (the solver record ``info`` left out)."""
+        d = self.to_dict()
+        d.pop("info", None)  # dofs and timings: not design outputs
+        return flatten(d)
+
+    def table(self) -> Table:
+        """The density maps on the plane nodes: x, y (nm) and each well's density (cm^-2)."""
+        cols = ("x_nm", "y_nm", *(f"{n}_density_cm^-2" for n in self.sheet_names))
+        xy = np.asarray(self.xy_m)
+        data = [xy[:, 0] * 1e9, xy[:, 1] * 1e9, *(np.asarray(self.density_m2) * 1e-4)]
+        return Table(cols, np.column_stack(data))
 
 
 def _area_along(xy, tri, n, dn, bulk, seed, cons, comp, step):

@@ -18,10 +18,18 @@ import itertools
 import math
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
-__all__ = ["GridSpace", "LatinHypercubeSpace", "Range", "ZipSpace", "latin_hypercube"]
+__all__ = [
+    "GridSpace",
+    "LatinHypercubeSpace",
+    "LinkedSpace",
+    "Range",
+    "ZipSpace",
+    "latin_hypercube",
+]
 
 
 @dataclass(frozen=True)
@@ -170,3 +178,36 @@ def check_equal_lengths(paths: Sequence[str], values: Sequence[Sequence[float]])
         if len(v) != n0:
             return f"zip lists must have equal lengths: '{paths[0]}' has {n0}, '{p}' has {len(v)}"
     return None
+
+
+@dataclass(frozen=True)
+class LinkedSpace:
+    """A space whose linked parameters follow a leader: one value sets several paths.
+
+    ``links`` pairs each leader path of ``inner`` with the paths that take its value (symmetric
+    setbacks: ``layers.setback_upper.thickness`` leads, ``layers.setback_lower.thickness``
+    follows). Designs carry every path, so the CSV shows the followers too.
+    """
+
+    inner: Any
+    links: tuple[tuple[str, tuple[str, ...]], ...]
+
+    @property
+    def paths(self) -> tuple[str, ...]:
+        return tuple(self.inner.paths) + tuple(f for _, fs in self.links for f in fs)
+
+    def __len__(self) -> int:
+        return len(self.inner)
+
+    def _expand(self, design: dict[str, float]) -> dict[str, float]:
+        out = dict(design)
+        for lead, followers in self.links:
+            for f in followers:
+                out[f] = out[lead]
+        return out
+
+    def __iter__(self) -> Iterator[dict[str, float]]:
+        return (self._expand(d) for d in self.inner)
+
+    def corners(self) -> Iterator[dict[str, float]]:
+        return (self._expand(d) for d in self.inner.corners())

@@ -22,7 +22,14 @@ from qhdesign.errors import InputError, QHDesignError
 from qhdesign.units import DIMENSIONS
 
 from .evaluate import apply_values
-from .spaces import GridSpace, LatinHypercubeSpace, Range, ZipSpace, check_equal_lengths
+from .spaces import (
+    GridSpace,
+    LatinHypercubeSpace,
+    LinkedSpace,
+    Range,
+    ZipSpace,
+    check_equal_lengths,
+)
 from .tolerance import GrowthMonteCarlo, TolerancePlan
 
 __all__ = ["SPACE_KINDS", "SweepPlan", "build_plan", "load_spec", "parse_criteria"]
@@ -380,7 +387,67 @@ def _values(stack, path: str, spec: Any, source: str) -> tuple[float, ...]:
     )
 
 
+#: Joins linked parameter paths in one key: ``"layers.a.thickness+layers.b.thickness"``.
+LINK = "+"
+
+
+def _split_links(params: Mapping, stack, source: str):
+    """Keys naming several paths joined by '+' (one value sets all of them): the leader (first
+    path) keeps the values; the others follow. Each path must accept the same values."""
+    out: dict = {}
+    links: list[tuple[str, tuple[str, ...]]] = []
+    for key, spec in params.items():
+        if not isinstance(key, str) or LINK not in key:
+            out[key] = spec
+            continue
+        paths = [p.strip() for p in key.split(LINK)]
+        if any(not p for p in paths) or len(set(paths)) != len(paths):
+            raise InputError(
+                "a linked parameter joins distinct paths with '+', e.g. "
+                '"layers.setback_upper.thickness+layers.setback_lower.thickness"',
+                source=source,
+                key=_pkey(key),
+            )
+        for p in paths:
+            _check_path(stack, p, source)
+        if isinstance(spec, dict) and "steps" not in spec:  # a Latin-hypercube range
+            ref = _range(stack, paths[0], spec, source, steps_allowed=False)[0]
+            for p in paths[1:]:
+                r = _range(stack, p, spec, source, steps_allowed=False)[0]
+                if (r.low, r.high) != (ref.low, ref.high):
+                    raise InputError(
+                        f"'{p}' does not take the same values as '{paths[0]}'",
+                        source=source,
+                        key=_pkey(key),
+                    )
+        else:
+            ref = _values(stack, paths[0], spec, source)
+            for p in paths[1:]:
+                if _values(stack, p, spec, source) != ref:
+                    raise InputError(
+                        f"'{p}' does not take the same values as '{paths[0]}'",
+                        source=source,
+                        key=_pkey(key),
+                    )
+        if paths[0] in out or any(p in params for p in paths):
+            raise InputError("a path appears twice in the space", source=source, key=_pkey(key))
+        out[paths[0]] = spec
+        links.append((paths[0], tuple(paths[1:])))
+    followers = [f for _, fs in links for f in fs]
+    if len(set(followers) | set(out)) != len(followers) + len(out):
+        raise InputError("a path appears twice in the space", source=source, key="space.parameters")
+    return out, tuple(links)
+
+
 def _build_space(kind: str, tab: Mapping, stack, source: str):
+    space, sig, links = _build_space_inner(kind, tab, stack, source)
+    if links:
+        sig = {**sig, "links": [[lead, list(fs)] for lead, fs in links]}
+        space = LinkedSpace(space, links)
+    return space, sig
+
+
+def _build_space_inner(kind: str, tab: Mapping, stack, source: str):
     allowed = {
         "grid": ("kind", "parameters"),
         "zip": ("kind", "parameters"),
@@ -418,7 +485,7 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
             "tolerance": plan.__dict__,
             "doping_cells": cells,
         }
-        return space, sig
+        return space, sig, ()
     params = tab.get("parameters")
     if not isinstance(params, dict) or not params:
         raise InputError(
@@ -426,12 +493,14 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
             source=source,
             key="space.parameters",
         )
+    params, links = _split_links(params, stack, source)
     for path in params:
         _check_path(stack, path, source)
     # one spelling per parameter: two spellings of one parameter would write two columns, and
-    # the rows would follow only one of them (mislabelled rows)
+    # the rows would follow only one of them (mislabelled rows); linked followers count too
     canonical: dict[str, str] = {}
-    for path in params:
+    followers = [f for _, fs in links for f in fs]
+    for path in [*params, *followers]:
         canon = stack.canonical_path(path)
         if canon in canonical:
             raise InputError(
@@ -442,7 +511,11 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
             )
         canonical[canon] = path
     paths = tuple(params)  # as the user wrote them (for error messages)
-    canon_paths = tuple(canonical)  # the space and the CSV columns use the one spelling
+    canon_paths = tuple(stack.canonical_path(p) for p in paths)  # space and CSV: one spelling
+    links = tuple(
+        (stack.canonical_path(lead), tuple(stack.canonical_path(f) for f in fs))
+        for lead, fs in links
+    )
     if kind == "lhs":
         samples = _int(tab, "samples", "space", source, 1, MAX_DESIGNS)
         seed = _int(tab, "seed", "space", source, 0, 2**63 - 1)
@@ -469,7 +542,7 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
                 source=source,
                 key="space.samples",
             )
-        return space, sig
+        return space, sig, links
     if kind == "grid":
         # refuse an oversized grid before any value is built or checked
         total = 1
@@ -504,7 +577,7 @@ def _build_space(kind: str, tab: Mapping, stack, source: str):
             key="space.parameters",
         )
     sig = {"kind": kind, "paths": list(canon_paths), "values": [list(v) for v in values]}
-    return space, sig
+    return space, sig, links
 
 
 def _fraction(v: Any, key: str, source: str) -> float:

@@ -70,8 +70,11 @@ def test_forward_bias_warning(cli_runner, app):
         (["--temperature", "0 K"], ["--temperature", "above 0 K"]),
         (["--temperature", "-2 K"], ["--temperature", "above 0 K"]),
         (["--temperature", "3"], ["--temperature", "no unit"]),
-        (["--gate", "0.95"], ["surface.barrier", "past the Schottky barrier", "below +0.800 V"]),
-        (["--gate", "abc"], ["--gate"]),
+        (
+            ["--gate-voltage", "0.95"],
+            ["surface.barrier", "past the Schottky barrier", "below +0.800 V"],
+        ),
+        (["--gate-voltage", "abc"], ["--gate"]),
         (["--field", "-1 T"], ["--field", "above 0 T"]),
     ],
 )
@@ -119,7 +122,7 @@ def test_wells_that_cannot_hold_charge_warn(cli_runner, app, tmp_path):
         app,
         [
             "calibrate", str(f), "--parameter", "surface.barrier", "--well", "primary",
-            "--density", "1e11 cm^-2", "--out", str(tmp_path / "c.toml"),
+            "--density", "1e11 cm^-2", "--toml", str(tmp_path / "c.toml"),
         ],
     )  # fmt: skip
     _one_line_error(res, ["--range", "not reached"])
@@ -132,7 +135,7 @@ def test_calibrate_density_writes_stack(cli_runner, app, tmp_path):
         app,
         [
             "calibrate", str(GATED), "--parameter", "surface.barrier", "--well", "well",
-            "--density", "1.2e11 cm^-2", "--out", str(out),
+            "--density", "1.2e11 cm^-2", "--toml", str(out),
         ],
     )  # fmt: skip
     assert res.exit_code == 0, res.output
@@ -148,7 +151,7 @@ def test_calibrate_density_writes_stack(cli_runner, app, tmp_path):
 
 
 def test_calibrate_bad_options(cli_runner, app, tmp_path):
-    base = ["calibrate", str(GATED), "--out", str(tmp_path / "c.toml")]
+    base = ["calibrate", str(GATED), "--toml", str(tmp_path / "c.toml")]
     res = cli_runner.invoke(app, [*base, "--parameter", "surface.barier", "--well", "well",
                                   "--density", "1e11 cm^-2"])  # fmt: skip
     _one_line_error(res, ["surface.barier"])
@@ -165,7 +168,7 @@ def test_calibrate_threshold_round_trip(cli_runner, app, tmp_path):
         app,
         [
             "calibrate", str(GATED), "--parameter", "doping.delta_upper.sheet", "--well", "well",
-            "--threshold", "-0.4", "--out", str(out),
+            "--threshold", "-0.4", "--toml", str(out),
         ],
     )  # fmt: skip
     assert res.exit_code == 0, res.output

@@ -103,9 +103,9 @@ def test_calibrate_mobility_errors(cli_runner, app, tmp_path):
     res = cli_runner.invoke(app, [*base, "--mobility", "1e6 cm^2/Vs", "--parameter", "x.y"])
     _one_line_error(res, ["option --parameter", "allowed: background"])
     res = cli_runner.invoke(
-        app, [*base, "--mobility", "1e6 cm^2/Vs", "--out", str(tmp_path / "c.toml")]
+        app, [*base, "--mobility", "1e6 cm^2/Vs", "--toml", str(tmp_path / "c.toml")]
     )
-    _one_line_error(res, ["option --out", "not a stack parameter"])
+    _one_line_error(res, ["option --toml", "not a stack parameter"])
     res = cli_runner.invoke(app, [*base, "--mobility", "1e6 cm^2/Vs", "--density", "1e11 cm^-2"])
     _one_line_error(res, ["exactly one of"])
     res = cli_runner.invoke(app, [*base, "--density", "1e11 cm^-2"])

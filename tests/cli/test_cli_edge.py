@@ -64,8 +64,8 @@ def test_edge_writes_documented_outputs(cli_runner, app, screened_path, tmp_path
 @pytest.mark.parametrize(
     ("args", "needle"),
     [
-        (["--gate-voltage", "-5", "--gap", "200 nm"], "no electrons anywhere"),
-        (["--gate-voltage", "-0.5", "--gap", "5 nm"], "narrower than the mesh"),
+        (["--gate-voltage", "-5", "--gate-gap", "200 nm"], "no electrons anywhere"),
+        (["--gate-voltage", "-0.5", "--gate-gap", "5 nm"], "narrower than the mesh"),
         (["--gate-voltage", "-0.5", "--field", "0", "--filling", "1"], "--field"),
         (["--gate-voltage", "-25"], "allowed -20 V"),
     ],
@@ -84,7 +84,7 @@ def test_pinchoff_json_and_definition(cli_runner, app, screened_path, tmp_path):
         [
             "pinchoff",
             str(screened_path),
-            "--gap",
+            "--gate-gap",
             "300 nm",
             "--from",
             "0",
@@ -122,8 +122,8 @@ def test_pinchoff_json_and_definition(cli_runner, app, screened_path, tmp_path):
 
 
 def test_pinchoff_bad_gap_exit_2(cli_runner, app, screened_path):
-    r = cli_runner.invoke(app, ["pinchoff", str(screened_path), "--gap", "-3 nm"])
-    assert "--gap" in _one_line_error(r)
+    r = cli_runner.invoke(app, ["pinchoff", str(screened_path), "--gate-gap", "-3 nm"])
+    assert "--gate-gap" in _one_line_error(r)
 
 
 def test_edge_split_gate_reports_constriction(cli_runner, app, screened_path, tmp_path):
@@ -135,7 +135,7 @@ def test_edge_split_gate_reports_constriction(cli_runner, app, screened_path, tm
             str(screened_path),
             "--gate-voltage",
             "-0.8",
-            "--gap",
+            "--gate-gap",
             "250 nm",
             "--refine",
             "0.5",
@@ -159,7 +159,16 @@ def test_pinchoff_tells_closed_at_start_from_never_pinched(
     # starting at -1.2 V the upper screening well is already closed at the constriction centre,
     # the lower one stays open down to -1.5 V: the two must not read the same
     out = tmp_path / "p.json"
-    args = ["pinchoff", str(screened_path), "--gap", "300 nm", "--from", "-1.2", "--to", "-1.5"]
+    args = [
+        "pinchoff",
+        str(screened_path),
+        "--gate-gap",
+        "300 nm",
+        "--from",
+        "-1.2",
+        "--to",
+        "-1.5",
+    ]
     r = cli_runner.invoke(app, [*args, "--step", "0.1", "--refine", "0.5", "--json", str(out)])
     assert r.exit_code == 0, r.output
     status = json.loads(out.read_text())["pinchoff_status"]
@@ -173,7 +182,7 @@ def test_pinchoff_without_electrons_exit_2(cli_runner, app, tmp_path):
     text = (ROOT / "stacks" / "ql2409_doped_well.toml").read_text()
     undoped = tmp_path / "undoped.toml"
     undoped.write_text(re.sub(r'sheet = "[^"]*"', 'sheet = "1e6 cm^-2"', text))
-    r = cli_runner.invoke(app, ["pinchoff", str(undoped), "--gap", "300 nm"])
+    r = cli_runner.invoke(app, ["pinchoff", str(undoped), "--gate-gap", "300 nm"])
     assert "no electrons" in _one_line_error(r)
 
 

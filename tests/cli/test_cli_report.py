@@ -21,8 +21,8 @@ from qhdesign.report import EMPTY_PRIMARY_M2, flag_badges
 
 # the demo review of `make demo` (Makefile)
 DEMO_ARGS = [
-    "--field", "2 T", "--edge-gate", "-1.0", "--island", "1.15 um", "--filling", "1/3",
-    "--gap", "120 ueV",
+    "--field", "2 T", "--gate-voltage", "-1.0", "--island", "1.15 um", "--filling", "1/3",
+    "--gap-energy", "120 ueV",
 ]  # fmt: skip
 SECTIONS = ("stack", "bands", "flags", "gate", "edge", "island", "inputs")
 
@@ -53,7 +53,7 @@ def check_key_numbers(shown: dict[str, str], data: dict) -> int:
 
 def test_report_needs_an_html_file(cli_runner, app, tmp_path):
     res = cli_runner.invoke(app, ["report", str(SCREENED), "-o", str(tmp_path / "r.pdf")])
-    assert_one_line_error(res, "--out", ".html")
+    assert_one_line_error(res, "--html", ".html")
 
 
 def test_island_options_need_the_island(cli_runner, app, tmp_path):
@@ -67,7 +67,7 @@ def test_one_d_review_is_self_contained_and_matches_its_json(cli_runner, app, tm
     out, js = tmp_path / "review.html", tmp_path / "review.json"
     res = cli_runner.invoke(
         app,
-        ["report", str(SCREENED), "-o", str(out), "--json", str(js), "--gate-step", "0.05"],
+        ["report", str(SCREENED), "-o", str(out), "--json", str(js), "--step", "0.05"],
     )
     assert res.exit_code == 0, res.output
     html = out.read_text(encoding="utf-8")

@@ -20,7 +20,7 @@ def _rows(path):
 
 def test_sweep_spec_then_plot(cli_runner, app, tmp_path):
     out = tmp_path / "setback.csv"
-    res = cli_runner.invoke(app, ["sweep", str(SETBACK_SPEC), "--out", str(out), "--workers", "1"])
+    res = cli_runner.invoke(app, ["sweep", str(SETBACK_SPEC), "--csv", str(out), "--workers", "1"])
     assert res.exit_code == 0, res.output
     assert "182 designs evaluated (ok 182" in res.stdout  # 14 x 13 grid of the spec
     assert "designs/s" in res.stdout
@@ -29,7 +29,7 @@ def test_sweep_spec_then_plot(cli_runner, app, tmp_path):
     assert rows[0]["layers.setback_upper.thickness_nm"] == "20.0"
     assert rows[1]["layers.spacer_upper.thickness_nm"] == "18.0"  # last parameter fastest
     # second run: nothing left to do, nothing duplicated
-    res = cli_runner.invoke(app, ["sweep", str(SETBACK_SPEC), "--out", str(out), "--workers", "1"])
+    res = cli_runner.invoke(app, ["sweep", str(SETBACK_SPEC), "--csv", str(out), "--workers", "1"])
     assert res.exit_code == 0
     assert "0 designs evaluated" in res.stdout and "182 already in the CSV" in res.stdout
     assert len(_rows(out)) == 182
@@ -47,7 +47,7 @@ def test_sweep_spec_then_plot(cli_runner, app, tmp_path):
             "dn_dV_primary_cm^-2/V",
             "--contour",
             "dn_dV_primary_cm^-2/V=3e10",
-            "--out",
+            "--plot",
             str(png),
         ],
     )
@@ -63,7 +63,7 @@ def test_sweep_spec_then_plot(cli_runner, app, tmp_path):
             "layers.setback_upper.thickness",
             "--color",
             "v_dep_primary_V",
-            "--out",
+            "--plot",
             str(line),
         ],
     )
@@ -72,7 +72,7 @@ def test_sweep_spec_then_plot(cli_runner, app, tmp_path):
     same = ["plot-sweep", str(out), "--x", "layers.setback_upper.thickness"]
     res = cli_runner.invoke(app, [*same, "--y", "layers.setback_upper.thickness"])
     assert res.exit_code == 2 and "same parameter" in res.output
-    res = cli_runner.invoke(app, [*same, "--out", str(tmp_path / "w.xyz")])
+    res = cli_runner.invoke(app, [*same, "--plot", str(tmp_path / "w.xyz")])
     assert res.exit_code == 2 and "unsupported figure format" in res.output
 
 
@@ -92,7 +92,7 @@ def test_sweep_shorthand_on_a_stack(cli_runner, app, tmp_path):
             "layers.setback_upper.thickness=20nm..30nm:3",
             "--param",
             "surface.barrier=0.6 eV,0.8 eV",
-            "--out",
+            "--csv",
             str(out),
             "--workers",
             "1",
@@ -123,7 +123,7 @@ def test_sweep_shorthand_on_a_stack(cli_runner, app, tmp_path):
             "3",
             "--param",
             "layers.setback_upper.thickness=20nm..30nm",
-            "--out",
+            "--csv",
             str(lhs),
             "-q",
             "--workers",
@@ -155,7 +155,7 @@ def test_tolerance_prints_percentiles_yield_and_sensitivity(cli_runner, app, tmp
             f"densities={dens}",
             "--require",
             "v_screening_empty_V=-0.098..",
-            "--out",
+            "--csv",
             str(out),
             "--json",
             str(js),
@@ -179,7 +179,7 @@ def test_tolerance_prints_percentiles_yield_and_sensitivity(cli_runner, app, tmp
     top = [name for name, _ in rep["sensitivity_src"]["depth_primary_nm"][:2]]
     assert set(top) == {"tol.ga_rate", "tol.al_rate"}
     png = tmp_path / "hist.png"
-    res = cli_runner.invoke(app, ["plot-sweep", str(out), "--out", str(png)])
+    res = cli_runner.invoke(app, ["plot-sweep", str(out), "--plot", str(png)])
     assert res.exit_code == 0, res.output
     assert png.exists()
 
@@ -204,9 +204,9 @@ def test_tolerance_prints_percentiles_yield_and_sensitivity(cli_runner, app, tmp
 def test_sweep_bad_input_is_one_line_exit_2(cli_runner, app, tmp_path, args, fragments):
     res = cli_runner.invoke(
         app,
-        ["sweep", str(SCREENED), "--stage", "capacitor", "--out", str(tmp_path / "x.csv"), *args]
+        ["sweep", str(SCREENED), "--stage", "capacitor", "--csv", str(tmp_path / "x.csv"), *args]
         if args
-        else ["sweep", str(SCREENED), "--out", str(tmp_path / "x.csv")],
+        else ["sweep", str(SCREENED), "--csv", str(tmp_path / "x.csv")],
     )
     _one_line_error(res, *fragments)
 
@@ -243,7 +243,7 @@ def test_bad_spec_file_and_plot_options(cli_runner, app, tmp_path):
 def test_monte_carlo_spec_prints_tolerance_statistics(cli_runner, app, tmp_path):
     spec = ROOT / "sweeps" / "ql2417_tolerance.toml"
     out = tmp_path / "mc.csv"
-    res = cli_runner.invoke(app, ["sweep", str(spec), "--out", str(out), "--workers", "1"])
+    res = cli_runner.invoke(app, ["sweep", str(spec), "--csv", str(out), "--workers", "1"])
     assert res.exit_code == 0, res.output
     assert "400 of 400 samples solved" in res.stdout
     assert "P5" in res.stdout and "P95" in res.stdout
@@ -263,7 +263,7 @@ def test_monte_carlo_spec_prints_tolerance_statistics(cli_runner, app, tmp_path)
             "tol.ga_rate",
             "--color",
             "depth_primary_nm",
-            "--out",
+            "--plot",
             str(png),
         ],
     )

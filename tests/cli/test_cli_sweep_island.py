@@ -29,7 +29,7 @@ def test_island_radius_sweep_is_resumable(cli_runner, app, tmp_path):
         "gap=60 ueV",
         "--workers",
         "2",
-        "--out",
+        "--csv",
         str(out),
     ]
     res = cli_runner.invoke(app, args)
@@ -66,7 +66,7 @@ def test_tolerance_through_the_island_stage_on_two_workers(cli_runner, app, tmp_
             "4",
             "--workers",
             "2",
-            "--out",
+            "--csv",
             str(out),
             "--require",
             "K_IL_over_K_I=..0.5",

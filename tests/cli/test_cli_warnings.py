@@ -22,7 +22,7 @@ def test_gate_note_once_and_plain(cli_runner, app):
 
 
 def test_bands_with_a_gate_prints_the_note_once(cli_runner, app):
-    res = cli_runner.invoke(app, ["bands", str(SCREENED), "--gate", "-0.2"])
+    res = cli_runner.invoke(app, ["bands", str(SCREENED), "--gate-voltage", "-0.2"])
     assert res.exit_code == 0, res.output
     assert sum("bare surface" in w for w in _warnings(res)) == 1
     res = cli_runner.invoke(app, ["bands", str(SCREENED)])  # no gate: no note

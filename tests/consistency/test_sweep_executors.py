@@ -110,7 +110,7 @@ def _run_three_ways(spec, tmp_path, chunk):
         ],
     }.items():
         out = tmp_path / f"{name}.csv"
-        res = run([*cmd, "--out", str(out), "-q"], cwd=tmp_path)
+        res = run([*cmd, "--csv", str(out), "-q"], cwd=tmp_path)
         assert res.returncode == 0, res.stderr
         outs[name] = read_rows(out)
     return outs
@@ -130,7 +130,7 @@ def test_serial_two_workers_and_mpi_write_identical_csvs(tmp_path):
 def test_killed_sweep_resumes_every_design_exactly_once(tmp_path):
     spec = write_spec(tmp_path, n1=8, n2=6, extra="delay_s = 0.03")
     out = tmp_path / "killed.csv"
-    cmd = [*QH, "sweep", str(spec), "--out", str(out), "--workers", "1", "--chunk", "1", "-q"]
+    cmd = [*QH, "sweep", str(spec), "--csv", str(out), "--workers", "1", "--chunk", "1", "-q"]
     proc = subprocess.Popen(cmd, cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     t0 = time.monotonic()
     try:
@@ -150,7 +150,7 @@ def test_killed_sweep_resumes_every_design_exactly_once(tmp_path):
     res = run(cmd, cwd=tmp_path)
     assert res.returncode == 0, res.stderr
     ref = tmp_path / "ref.csv"
-    res = run([*cmd[:3], "--out", str(ref), "--workers", "1", "-q"], cwd=tmp_path)
+    res = run([*cmd[:3], "--csv", str(ref), "--workers", "1", "-q"], cwd=tmp_path)
     assert res.returncode == 0, res.stderr
     h1, resumed = read_rows(out)
     h2, straight = read_rows(ref)
@@ -163,9 +163,9 @@ def test_killed_sweep_resumes_every_design_exactly_once(tmp_path):
 def test_resume_into_a_different_sweep_is_refused(tmp_path):
     spec = write_spec(tmp_path, n1=2, n2=2)
     out = tmp_path / "a.csv"
-    assert run([*QH, "sweep", str(spec), "--out", str(out), "--workers", "1", "-q"]).returncode == 0
+    assert run([*QH, "sweep", str(spec), "--csv", str(out), "--workers", "1", "-q"]).returncode == 0
     spec2 = write_spec(tmp_path, n1=3, n2=2)
-    res = run([*QH, "sweep", str(spec2), "--out", str(out), "--workers", "1", "-q"])
+    res = run([*QH, "sweep", str(spec2), "--csv", str(out), "--workers", "1", "-q"])
     assert res.returncode == 2
     assert res.stderr.strip().count("\n") == 0
     assert "a.csv: holds rows of a different sweep" in res.stderr
@@ -230,7 +230,7 @@ def _alive(pid: int) -> bool:
 def test_workers_exit_when_the_main_process_is_killed(tmp_path):
     spec = write_spec(tmp_path, n1=8, n2=6, extra="delay_s = 0.2")
     out = tmp_path / "orphans.csv"
-    cmd = [*QH, "sweep", str(spec), "--out", str(out), "--workers", "2", "--chunk", "1", "-q"]
+    cmd = [*QH, "sweep", str(spec), "--csv", str(out), "--workers", "2", "--chunk", "1", "-q"]
     proc = subprocess.Popen(cmd, cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     try:
         t0 = time.monotonic()
@@ -259,7 +259,7 @@ def test_a_design_that_kills_its_worker_is_recorded_and_the_sweep_finishes(tmp_p
     # run, and the sweep exits 0
     spec = write_spec(tmp_path, extra="die_at = 3e-8")
     out = tmp_path / "dies.csv"
-    cmd = [*QH, "sweep", str(spec), "--out", str(out), "--workers", "2", "--chunk", "2", "-q"]
+    cmd = [*QH, "sweep", str(spec), "--csv", str(out), "--workers", "2", "--chunk", "2", "-q"]
     res = run(cmd, cwd=tmp_path)
     assert res.returncode == 0, res.stderr
     assert "Traceback" not in res.stderr
@@ -268,7 +268,7 @@ def test_a_design_that_kills_its_worker_is_recorded_and_the_sweep_finishes(tmp_p
     ref_spec = write_spec(ref_dir, extra="")
     ref = tmp_path / "ref.csv"
     res = run(
-        [*QH, "sweep", str(ref_spec), "--out", str(ref), "--workers", "1", "-q"], cwd=tmp_path
+        [*QH, "sweep", str(ref_spec), "--csv", str(ref), "--workers", "1", "-q"], cwd=tmp_path
     )
     assert res.returncode == 0, res.stderr
     h, rows = read_rows(out)

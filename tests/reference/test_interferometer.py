@@ -23,6 +23,7 @@ from qhdesign.errors import InputError
 
 PHI0 = sc.h / sc.e
 UEV = 1e-6 * sc.e
+SRC_BF = "brute-force minimisation of the HSNR functional, Halperin et al., PRB 83, 155440 (2011)"
 
 
 class BruteForce:
@@ -56,7 +57,10 @@ class BruteForce:
     def ground(self, B, V=0.0, span=6):
         dl0 = (self.nu * B * self.A_L / PHI0 - self.q0 - self.beta * V) / self.nu
         n0 = round(dl0)
-        Ns = range(min(n0, 0) - span, max(n0, 0) + span + 1)
+        if self.gap == 0:  # E is a parabola in N around n0
+            Ns = range(n0 - span, n0 + span + 1)
+        else:  # the gap can hold N anywhere between 0 and n0
+            Ns = range(min(n0, 0) - span, max(n0, 0) + span + 1)
         return min(Ns, key=lambda N: self.energy(B, V, N))
 
     def phase(self, B, V=0.0, N=None):
@@ -102,13 +106,23 @@ def test_incompressible_period_matches_brute_force(case, record_check):
 
 
 @pytest.mark.parametrize("case", [c for c in CASES if c[4] == c[5]])
-def test_compressible_period_matches_brute_force(case):
+def test_compressible_period_matches_brute_force(case, record_check):
     A_I = case[4]
     bf = BruteForce(*case)
     P = itf.period_compressible_T(A_I)
+    devs = []
     for B in np.linspace(4.0, 4.0 + 7.3 * P, 23):
         d = bf.phase(B + P) - bf.phase(B)  # ground states (quasiparticles enter freely)
-        assert abs(d - round(d)) < 1e-9
+        devs.append(abs(d - round(d)))
+    record_check(
+        "compressible period Phi0/A_I: phase change per period minus an integer (2 pi units)",
+        SRC_BF,
+        max(devs),
+        0.0,
+        1e-9,
+        kind="abs",
+    )
+    assert max(devs) < 1e-9
     # and it is the smallest period: half of it is not one
     ds = [bf.phase(B + P / 2) - bf.phase(B) for B in np.linspace(4.0, 4.0 + 3 * P, 11)]
     assert max(abs(d - round(d)) for d in ds) > 0.1
@@ -156,10 +170,14 @@ def test_window_and_jump_match_brute_force(case, record_check):
     assert bf.ground(lo * (1 + 1e-6) - 1e-12) == -1
     # the jump at the upper edge, same field, N_L 0 -> 1
     jump = bf.phase(up, N=1) - bf.phase(up, N=0)
-    assert abs(2 * math.pi * jump) == pytest.approx(itf.phase_jump_rad(nu, K_IL / K_I), rel=1e-9)
+    ref = itf.phase_jump_rad(nu, K_IL / K_I)
+    record_check(
+        "phase jump 2 pi nu (1 - r)", SRC_BF, ref, abs(2 * math.pi * jump), 1e-9, unit="rad"
+    )
+    assert abs(2 * math.pi * jump) == pytest.approx(ref, rel=1e-9)
 
 
-def test_thermal_window_matches_brute_force_average():
+def test_thermal_window_matches_brute_force_average(record_check):
     """P(N_L = 0) from the full Boltzmann sum over N_L in [-8, 8], integrated over B, against
     the two-edge closed form. Neglected: weights of |N_L| >= 2 at the edges, relative to
     |N_L| = 1 below exp(-2 E_C nu^2 / k_B T) = exp(-44) here (analytic: E_2 - E_1 = 2 E_C nu^2
@@ -178,14 +196,23 @@ def test_thermal_window_matches_brute_force_average():
     integral = quad(
         p0, -2 * W, 2 * W, epsabs=1e-16, epsrel=1e-11, limit=400, points=[-W / 2, W / 2]
     )
-    assert integral[0] == pytest.approx(itf.window_thermal_T(A_L, nu, gap, EC, T), rel=1e-8)
+    closed = itf.window_thermal_T(A_L, nu, gap, EC, T)
+    record_check(
+        "thermal window W/(1 - exp(-W/w))",
+        "Boltzmann sum over N_L of the HSNR functional (Halperin et al., PRB 83, 155440 (2011))",
+        closed,
+        integral[0],
+        1e-8,
+        unit="T",
+    )
+    assert integral[0] == pytest.approx(closed, rel=1e-8)
     for b in (-0.6 * W, -W / 2, 0.0, 0.45 * W, W / 2, 0.55 * W):
         assert p0(b) == pytest.approx(itf.window_occupation(b, A_L, nu, gap, EC, T), abs=1e-9)
     # the P0 = 1/2 points are the T = 0 window ends
     assert brentq(lambda b: p0(b) - 0.5, 0, W, xtol=1e-16) == pytest.approx(W / 2, rel=1e-9)
 
 
-def test_gate_periods_and_slope_signs_match_brute_force():
+def test_gate_periods_and_slope_signs_match_brute_force(record_check):
     K_I, K_L, K_IL, nu, A_I, A_L = CASES[0]
     B = 6.0
     # AB (no coupling): phase at fixed N_L against V
@@ -194,6 +221,7 @@ def test_gate_periods_and_slope_signs_match_brute_force():
     p0 = bf.phase(B, 0.0, N=0)
     PV = itf.period_gate_ab_V(nu, B, dA)
     got = brentq(lambda V: bf.phase(B, V, N=0) - p0 - 1, 0.5 * PV, 2 * PV, xtol=1e-18)
+    record_check("AB gate period (e/e*) Phi0/(B dA/dV)", SRC_BF, PV, got, 1e-9, unit="V")
     assert got == pytest.approx(PV, rel=1e-9)
     # constant-phase line through (B, 0): V(B + dB) by root finding, slope vs closed form
     dB = 1e-4
@@ -213,7 +241,9 @@ def test_gate_periods_and_slope_signs_match_brute_force():
     N0 = bf.ground(B, 0.0)
     v1 = brentq(lambda V: degeneracy(V, N0), -0.1, 0.1, xtol=1e-18)
     v2 = brentq(lambda V: degeneracy(V, N0 - 1), v1 + 1e-9, v1 + 0.1, xtol=1e-18)
-    assert abs(v1 - v2) == pytest.approx(itf.period_gate_cd_V(nu, C_gL), rel=1e-9)
+    ref = itf.period_gate_cd_V(nu, C_gL)
+    record_check("CD gate period e*/C_gL", SRC_BF, ref, abs(v1 - v2), 1e-9, unit="V")
+    assert abs(v1 - v2) == pytest.approx(ref, rel=1e-9)
     # slope of the degeneracy line in (B, V)
     v1b = brentq(lambda V: bf.energy(B + dB, V, N0) - bf.energy(B + dB, V, N0 + 1), -0.1, 0.1)
     ref = itf.constant_phase_slope_V_per_T(
@@ -223,7 +253,7 @@ def test_gate_periods_and_slope_signs_match_brute_force():
     assert (v1b - v1) / dB == pytest.approx(ref, rel=1e-6)
 
 
-def test_visibility_is_the_fermi_average():
+def test_visibility_is_the_fermi_average(record_check):
     """x/sinh x = integral of -df/de cos(e tau/hbar) (analytic; checked by quadrature)."""
     v, L, T = 2e4, 2 * math.pi * 0.8e-6, 0.020
     T0 = itf.thermal_scale_K(v, L)
@@ -234,7 +264,15 @@ def test_visibility_is_the_fermi_average():
         return 1.0 / (4 * kT * math.cosh(e / (2 * kT)) ** 2)
 
     num = quad(lambda e: mdf(e) * math.cos(e * tau / sc.hbar), -60 * kT, 60 * kT, limit=800)[0]
-    assert num == pytest.approx(itf.visibility(T, T0), rel=1e-9)
+    vis = itf.visibility(T, T0)
+    record_check(
+        "thermal damping x/sinh x, x = pi k_B T L/(hbar v)",
+        "analytic: integral of -df/de cos(e tau/hbar) (scipy quad)",
+        vis,
+        num,
+        1e-9,
+    )
+    assert num == pytest.approx(vis, rel=1e-9)
 
 
 GRID = [0.3, 0.7, 1.0, 2.5]

@@ -15,6 +15,8 @@ import numpy as np
 import pytest
 
 from qhdesign.island import IslandResult
+from qhdesign.island.stage import IslandOperatingResult
+from qhdesign.layout.stage import LayoutResult
 from qhdesign.results import StageResult, Table
 from qhdesign.section import ConstrictionResult, EdgeResult, PinchoffResult
 from qhdesign.sp1d.calibrate import CalibrationResult
@@ -29,6 +31,8 @@ ALL = (
     PinchoffResult,
     ConstrictionResult,
     IslandResult,
+    IslandOperatingResult,
+    LayoutResult,
 )
 
 

@@ -20,7 +20,7 @@ def test_primary_emptied_by_a_gate_is_flagged(cli_runner, app):
     assert empty.flags.primary_empty
     assert empty.to_dict()["flags"]["primary_empty"] is True
     assert empty.summary()["flag_primary_empty"] == 1.0
-    res = cli_runner.invoke(app, ["bands", str(SCREENED), "--gate", "-0.8"])
+    res = cli_runner.invoke(app, ["bands", str(SCREENED), "--gate-voltage", "-0.8"])
     assert res.exit_code == 0, res.output
     assert "[EMPTY" in res.output
     assert "(primary empty)" in res.output  # not "(ok)" for its second subband

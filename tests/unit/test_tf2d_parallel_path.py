@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from qhdesign.tf2d.constriction import PinchoffResult
+from qhdesign.section.constriction import PinchoffResult
 
 ROLES = {"screen_upper": "screening", "primary": "primary", "screen_lower": "screening"}
 
