@@ -66,7 +66,7 @@ def main() -> None:
                 str(samples),
                 "--workers",
                 "2",
-                "--out",
+                "--csv",
                 str(csv),
                 "--quiet",
             ]
