@@ -60,7 +60,7 @@ class Measurement:
         if (self.period_gate_V is None) != (self.field_T is None):
             raise InputError(
                 "a gate period needs the field it was measured at (and vice versa)",
-                source="option --gate-period/--field",
+                key="field_T" if self.field_T is None else "period_gate_V",  # the missing one
             )
 
 
@@ -120,7 +120,7 @@ def interpret_measurement(m: Measurement) -> dict:
         if not r < 1:
             raise InputError(
                 f"K_IL/K_I = {r:.3g} >= 1 from these periods: the jump cannot be corrected",
-                source="option --period-incompressible",
+                key="period_incompressible_T",
             )
         vals_j = {**vals, "jump": m.jump_rad.value}
         sig_j = {**sig, "jump": m.jump_rad.sigma}

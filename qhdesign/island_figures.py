@@ -85,19 +85,20 @@ class QHConditions:
         try:
             itf.check_filling(self.filling)
         except InputError as exc:
-            raise InputError(exc.message, source="option --filling") from None
+            raise InputError(exc.message, key="filling") from None
+        # error keys are argument names; the front ends name their own option or spec key
         checks = (
-            ("temperature_K", "--temperature", True),
-            ("edge_velocity_m_s", "--edge-velocity", False),
-            ("field_T", "--field", False),
-            ("gap_qp_J", "--gap", False),
+            ("temperature_K", "electron_temperature_K", True),
+            ("edge_velocity_m_s", "edge_velocity_m_s", False),
+            ("field_T", "field_T", False),
+            ("gap_qp_J", "gap_qp_J", False),
         )
-        for name, opt, zero_ok in checks:
+        for name, key, zero_ok in checks:
             v = getattr(self, name)
             if v is None:
                 continue
             if not (math.isfinite(v) and (v >= 0 if zero_ok else v > 0)):
-                raise InputError(f"must be {'>=' if zero_ok else '>'} 0, got {v!r}", source=opt)
+                raise InputError(f"must be {'>=' if zero_ok else '>'} 0, got {v!r}", key=key)
 
 
 def island_column(stack):

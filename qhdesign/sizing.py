@@ -86,22 +86,21 @@ class Target:
         return f"{value / scale:.4g}{' ' + unit if unit else ''}"
 
 
-def parse_target(text: str, option: str = "--target") -> Target:
-    """``"E_C > 10 ueV"`` -> :class:`Target` (one-line InputError naming the option if bad)."""
-    src = f"option {option}"
+def parse_target(text: str, key: str = "targets") -> Target:
+    """``"E_C > 10 ueV"`` -> :class:`Target` (one-line InputError keyed by ``key`` if bad)."""
     m = _TARGET.match(str(text))
     if not m:
         raise InputError(
             f"cannot read target '{text}'; write QUANTITY < VALUE or QUANTITY > VALUE, e.g. "
             "'E_C > 10 ueV'",
-            source=src,
+            key=key,
         )
     name, op, rhs = m.groups()
     name = _ALIASES.get(name, name)
     if name not in QUANTITIES:
         raise InputError(
             f"unknown quantity '{name}' in target '{text}'; allowed: {', '.join(QUANTITIES)}",
-            source=src,
+            key=key,
         )
     _, dim, unit, _, _ = QUANTITIES[name]
     if dim is None:
@@ -109,29 +108,29 @@ def parse_target(text: str, option: str = "--target") -> Target:
             v = float(rhs)
         except ValueError:
             raise InputError(
-                f"'{name}' is a pure number; got '{rhs}' in target '{text}'", source=src
+                f"'{name}' is a pure number; got '{rhs}' in target '{text}'", key=key
             ) from None
     else:
         from qhdesign.units import parse_quantity
 
         try:
-            v = parse_quantity(rhs, dim, source=src)
+            v = parse_quantity(rhs, dim, source=f"target '{text}'")
         except InputError as exc:
             raise InputError(
-                f"target '{text}': {exc.message} (e.g. '{name} {op} 10 {unit}')", source=src
+                f"target '{text}': {exc.message} (e.g. '{name} {op} 10 {unit}')", key=key
             ) from None
     if not math.isfinite(v):
-        raise InputError(f"target '{text}': threshold is not finite", source=src)
+        raise InputError(f"target '{text}': threshold is not finite", key=key)
     return Target(str(text).strip(), name, op, v)
 
 
-def parse_targets(texts: Sequence[str], option: str = "--target") -> tuple[Target, ...]:
+def parse_targets(texts: Sequence[str], key: str = "targets") -> tuple[Target, ...]:
     """Parse every target and refuse contradictory bounds on one quantity."""
     if not texts:
         raise InputError(
-            "give at least one target, e.g. 'K_IL/K_I < 0.1'", source=f"option {option}"
+            "give at least one target, e.g. 'K_IL/K_I < 0.1'", key=key
         )
-    targets = tuple(parse_target(t, option) for t in texts)
+    targets = tuple(parse_target(t, key) for t in texts)
     for q in {t.quantity for t in targets}:
         lo = max((t.threshold for t in targets if t.quantity == q and t.lower), default=-math.inf)
         hi = min(
@@ -140,7 +139,7 @@ def parse_targets(texts: Sequence[str], option: str = "--target") -> tuple[Targe
         if lo >= hi:
             raise InputError(
                 f"contradictory bounds on {q}: it must exceed {lo:g} and stay below {hi:g} (SI)",
-                source=f"option {option}",
+                key=key,
             )
     return targets
 
@@ -315,10 +314,10 @@ def size_island(
     if not (0 < r_min_m < r_max_m and math.isfinite(r_max_m)):
         raise InputError(
             f"radius range must satisfy 0 < low < high, got {r_min_m:g} m..{r_max_m:g} m",
-            source="option --radius-range",
+            key="radius_range",
         )
     if not 3 <= points <= 200:
-        raise InputError(f"points must lie in [3, 200], got {points}", source="option --points")
+        raise InputError(f"points must lie in [3, 200], got {points}", key="points")
     cache: dict[float, dict] = {}
 
     def fig(R: float) -> dict:

@@ -86,7 +86,14 @@ def _fmt(v, s, scale, unit, digits=4) -> str:
 
 def register(app: typer.Typer) -> None:
     @app.command("interpret")
-    @guarded(options={"filling": "--filling"})
+    @guarded(
+        options={
+            "filling": "--filling",
+            "period_gate_V": "--gate-period",
+            "field_T": "--field",
+            "period_incompressible_T": "--period-incompressible",
+        }
+    )
     def interpret(
         period_compressible: str = typer.Option(
             ...,

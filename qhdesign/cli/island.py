@@ -95,6 +95,10 @@ ISLAND_OPTIONS = {
     "quantum_lifetime_s": "--quantum-lifetime",
     "g_factor": "--g-factor",
     "r_threshold": "--r-threshold",
+    # the interferometer figures (qhdesign.island_figures)
+    "electron_temperature_K": "--electron-temperature",
+    "edge_velocity_m_s": "--edge-velocity",
+    "gap_qp_J": "--gap",
 }
 
 

@@ -30,9 +30,22 @@ def _range(text: str) -> tuple[float, float]:
     )
 
 
+#: Argument names of the sizing search and the island figures (error keys) -> options of ``size``.
+SIZE_OPTIONS = {
+    "targets": "--target",
+    "radius_range": "--radius-range",
+    "points": "--points",
+    "filling": "--filling",
+    "electron_temperature_K": "--temperature",
+    "edge_velocity_m_s": "--edge-velocity",
+    "field_T": "--field",
+    "gap_qp_J": "--gap",
+}
+
+
 def register(app: typer.Typer) -> None:
     @app.command("size")
-    @guarded
+    @guarded(options=SIZE_OPTIONS)
     def size(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         target: list[str] = typer.Option(

@@ -34,14 +34,17 @@ def _char_device(path: Path) -> None:
 # ----------------------------------------------------------------- major 1: outputs
 def test_json_into_a_device_node_writes_into_it_and_keeps_the_node(cli_runner, app, tmp_path):
     node = tmp_path / "null"
-    _char_device(node)
-    if stat.S_ISFIFO(node.stat().st_mode):
-        pytest.skip("not root: the FIFO test covers this rule")
+    try:  # a node like /dev/null (1, 3) in a scratch folder: needs root (CI runs as root)
+        os.mknod(node, 0o666 | stat.S_IFCHR, os.makedev(1, 3))
+    except PermissionError:
+        # not root: the system's /dev/null itself, which a non-root process cannot replace
+        # (before the fix the replace failed: exit != 0), so this still fails without the fix
+        node = Path("/dev/null")
     res = cli_runner.invoke(app, ["check", STACK, "--json", str(node)])
     assert res.exit_code == 0, res.output
     # before the fix: mkstemp + os.replace turned the node into a regular file
     assert stat.S_ISCHR(node.stat().st_mode)
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["null"]  # no temp file left
+    assert [p.name for p in tmp_path.iterdir() if p.name != "null"] == []  # no temp file left
 
 
 def test_json_into_a_fifo_is_streamed_to_its_reader(cli_runner, app, tmp_path):
@@ -103,8 +106,7 @@ def test_bad_output_paths_fail_before_any_work(cli_runner, app, tmp_path, make, 
 
 
 def test_a_full_disk_is_one_line(cli_runner, app):
-    if not os.path.exists("/dev/full"):
-        pytest.skip("no /dev/full on this system")
+    assert os.path.exists("/dev/full"), "this check needs Linux's /dev/full"
     # /dev/full: every write fails with ENOSPC, as on a full disk (before: a traceback, exit 1)
     one_line_error(
         cli_runner.invoke(app, ["check", STACK, "--json", "/dev/full"]),
