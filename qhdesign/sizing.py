@@ -127,9 +127,7 @@ def parse_target(text: str, key: str = "targets") -> Target:
 def parse_targets(texts: Sequence[str], key: str = "targets") -> tuple[Target, ...]:
     """Parse every target and refuse contradictory bounds on one quantity."""
     if not texts:
-        raise InputError(
-            "give at least one target, e.g. 'K_IL/K_I < 0.1'", key=key
-        )
+        raise InputError("give at least one target, e.g. 'K_IL/K_I < 0.1'", key=key)
     targets = tuple(parse_target(t, key) for t in texts)
     for q in {t.quantity for t in targets}:
         lo = max((t.threshold for t in targets if t.quantity == q and t.lower), default=-math.inf)

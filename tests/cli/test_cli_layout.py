@@ -24,7 +24,7 @@ def test_layout_in_help(cli_runner, app):
         (["--gate", "fp_plunger_upper"], ["option --gate", "NAME=VOLTAGE"]),
         (["--refine", "9"], ["option --refine"]),
         (["--fields", "out.vtk"], ["option --fields", "XDMF"]),
-        (["--field", "5"], ["option --field", "unit"]),
+        (["--field", "5 nm"], ["option --field"]),  # a length is not a field
     ],
 )
 def test_bad_options_one_line(cli_runner, app, screened_path, args, fragments):
