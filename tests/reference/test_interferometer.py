@@ -140,7 +140,8 @@ def test_compressible_general_decomposition(case):
         d = g(B + PL) - g(B)
         assert abs(d - round(d)) < 1e-9
     f1 = nu * (A_I - A_L) / PHI0 + A_L / PHI0
-    assert 1 / f1 == pytest.approx(itf.period_compressible_general_T(A_I, A_L, nu), rel=1e-12)
+    period = 1 / f1
+    assert period == pytest.approx(itf.period_compressible_general_T(A_I, A_L, nu), rel=1e-12)
 
 
 @pytest.mark.parametrize("case", CASES)

@@ -197,7 +197,8 @@ def test_short_range_ratio_is_one_and_golden_rule_value(record_check):
     )
     assert w.transport_lifetime_s / w.quantum_lifetime_s == pytest.approx(1.0, abs=1e-6)
     w_ref = (v0 * r0) ** 2 * math.pi * delta**2 * lam**2
-    assert 1 / w.quantum_lifetime_s == pytest.approx(M_GAAS * sc.m_e * w_ref / sc.hbar**3, rel=1e-6)
+    rate = 1 / w.quantum_lifetime_s
+    assert rate == pytest.approx(M_GAAS * sc.m_e * w_ref / sc.hbar**3, rel=1e-6)
 
 
 @pytest.mark.parametrize("eta", [0.05, 0.3, 1.0, 3.0])

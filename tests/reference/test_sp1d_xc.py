@@ -91,7 +91,8 @@ def test_hedin_lundqvist_beta_limits(record_check):
     )
     assert xc.hl_beta(1e-3) == pytest.approx(1.0, abs=1e-3)
     for rs in (10.0, 15.0, 20.0, 25.0):
-        assert 1.4 <= xc.hl_beta(rs) <= 1.6
+        beta = xc.hl_beta(rs)
+        assert 1.4 <= beta <= 1.6
     # monotone in between
     r = np.geomspace(1e-3, 50, 200)
     assert np.all(np.diff(xc.hl_beta(r)) > 0)
