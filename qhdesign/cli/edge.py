@@ -18,6 +18,7 @@ from .common import (
     GateBarrier,
     JsonOut,
     Refine,
+    Sheets,
     StackFile,
     Surface,
     guarded,
@@ -28,16 +29,25 @@ from .common import (
 )
 
 
-def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
-    from qhdesign.pipeline import exposed_surface_model, section_from_stack
+def _load_section(
+    stack_file: Path, surface: str | None, gate_barrier: str | None, sheets: str = "1d-tables"
+):
+    from qhdesign.pipeline import check_sheet_model, exposed_surface_model, section_from_stack
     from qhdesign.stack import load_stack
 
+    check_sheet_model(sheets)  # refuse a bad choice before the 1D solve
     stack = load_stack(stack_file)
     barrier = option_quantity(gate_barrier, "energy", "--gate-barrier")
-    if surface is not None:  # refuse a bad choice before the 1D solve
+    if surface is not None:
         exposed_surface_model(stack, None, surface)
-    section = section_from_stack(stack, gate_barrier_J=barrier)
+    section = section_from_stack(stack, gate_barrier_J=barrier, sheets=sheets)
     return stack, section, exposed_surface_model(stack, section, surface)
+
+
+def _sheet_info(section) -> dict:
+    from qhdesign.pipeline import sheet_model_info
+
+    return sheet_model_info(section)
 
 
 #: Argument names of the 2D physics (error keys) -> options of ``edge`` and ``pinchoff``.
@@ -55,6 +65,7 @@ EDGE_OPTIONS = {
     "spin_gap_J": "--spin-gap",
     "g_effective": "--g-effective",
     "strip_min_width_lB": "--strip-min-lb",
+    "sheets": "--sheets",
 }
 PINCHOFF_OPTIONS = {
     "v_start": "--from",
@@ -64,6 +75,7 @@ PINCHOFF_OPTIONS = {
     "gate_barrier_J": "--gate-barrier",
     "surface": "--surface",
     "refine": "--refine",
+    "sheets": "--sheets",
 }
 
 
@@ -239,6 +251,7 @@ def register(app: typer.Typer) -> None:
             1.0, "--strip-min-lb", help="Flag strips narrower than this many magnetic lengths."
         ),
         surface: Surface = None,
+        sheets: Sheets = "1d-tables",
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
         json_out: JsonOut = None,
@@ -273,7 +286,7 @@ def register(app: typer.Typer) -> None:
             spin_gap_J=gap_J,
             strip_min_width_lB=strip_min_lb,
         )
-        stack, section, surf = _load_section(stack_file, surface, gate_barrier)
+        stack, section, surf = _load_section(stack_file, surface, gate_barrier, sheets)
         mesh = MeshOptions(refine=refine)
         opts = SolverOptions(exposed=surf)
         if w is not None:
@@ -291,7 +304,12 @@ def register(app: typer.Typer) -> None:
         if root and json_out is not None:
             from qhdesign.io import atomic_write_json
 
-            data = {"stack": str(stack_file), "surface": surf, **res.to_dict()}
+            data = {
+                "stack": str(stack_file),
+                "surface": surf,
+                "sheets": _sheet_info(section),
+                **res.to_dict(),
+            }
             atomic_write_json(json_out, data)
         if root and csv_out is not None:
             from qhdesign.io import atomic_write_text
@@ -321,6 +339,7 @@ def register(app: typer.Typer) -> None:
         v_stop: str = typer.Option("-5", "--to", help="Last gate voltage of the sweep (V)."),
         v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
         surface: Surface = None,
+        sheets: Sheets = "1d-tables",
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
         json_out: JsonOut = None,
@@ -353,7 +372,7 @@ def register(app: typer.Typer) -> None:
                 related=("v_start",),
             )
         check_refine(refine)
-        stack, section, surf = _load_section(stack_file, surface, gate_barrier)
+        stack, section, surf = _load_section(stack_file, surface, gate_barrier, sheets)
         res = solve_pinchoff(
             section,
             w,
@@ -388,7 +407,12 @@ def register(app: typer.Typer) -> None:
             from qhdesign.io import atomic_write_json
 
             atomic_write_json(
-                json_out, {"stack": str(stack_file), "surface": surf, **res.to_dict()}
+                json_out, {
+                "stack": str(stack_file),
+                "surface": surf,
+                "sheets": _sheet_info(section),
+                **res.to_dict(),
+            }
             )
         if csv_out is not None:
             from qhdesign.io import atomic_write_text
@@ -430,7 +454,10 @@ def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot,
     if json_out is not None:
         from qhdesign.io import atomic_write_json
 
-        atomic_write_json(json_out, {"stack": str(stack.source), **res.to_dict()})
+        atomic_write_json(
+            json_out,
+            {"stack": str(stack.source), "sheets": _sheet_info(section), **res.to_dict()},
+        )
     if csv_out is not None:
         from qhdesign.io import atomic_write_text
 
