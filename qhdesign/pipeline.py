@@ -93,6 +93,8 @@ TABLE_LOWEST_V = -4.0
 #: Largest departure from monotone (fraction of the well's largest density) a table may have
 #: in its sheet potential; smaller departures are smoothed by isotonic regression.
 TABLE_MONOTONE_TOL = 0.005
+#: A law ends at the first knot within this fraction of the well's largest tabulated density.
+TABLE_TOP_FRACTION = 0.01
 
 _TABLE_CACHE: dict = {}
 _LAST_TABLE_INFO: dict = {}
@@ -229,6 +231,7 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
         section, sheets=tuple(replace(s, z_m=tops.get(s.name, s.z_m)) for s in section.sheets)
     )
     phi_col = _column_potentials(section, tables)
+    x_far = _far_column_potentials(section)
     sheets = []
     for k, s in enumerate(section.sheets):
         order = np.argsort(phi_col[:, k], kind="stable")
@@ -246,6 +249,7 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
                 key="sheets",
             )
         n = mono
+        x, n, layer = _law_top(x, n, layer, float(x_far[k]), float(s.far_charge_m2))
         law = SheetLaw(x, n, absolute=True, label="1D table", reported_m2=np.maximum(layer, 0.0))
         sheets.append(replace(s, law=law))
     return replace(section, sheets=tuple(sheets))
@@ -277,6 +281,74 @@ def sheet_model_info(section) -> dict:
     return out
 
 
+def _law_top(x, n, layer, x_far: float, n_far: float):
+    """The top of a well's law, where the table says nothing about sideways screening.
+
+    A well screened from the gate by a filled well above it keeps its density while the gate
+    empties the wells above, and its sheet potential wanders meanwhile (the wells above are
+    sheets, not their real charge distributions): the top of its table is nearly flat over
+    several mV, a slope that would make the well useless as a screen beside the gate. The law
+    therefore keeps the table up to its first knot within TABLE_TOP_FRACTION of the largest
+    density (the part where the well itself empties), rises from there with the slope s_c the
+    table has just below it to n_flat (the median density of the dropped knots, what the well
+    holds while it is screened), stays at n_flat, and reaches the far-field state (x_far, n_far) of
+    the ungated column along a line of slope s_c, which it follows above.
+    docs/models.md, "Sheets that follow the gate".
+    """
+    if not (n_far > 0 and n[-1] > 0) or n.size < 3:
+        return x, n, layer
+    cut = max(int(np.argmax(n >= (1.0 - TABLE_TOP_FRACTION) * n[-1])), 1)
+    if cut >= n.size - 1 or x_far <= x[cut]:
+        return x, n, layer
+    s_c = (n[cut] - n[cut - 1]) / (x[cut] - x[cut - 1])
+    if not s_c > 0:
+        return x, n, layer
+    ratio = layer[cut] / n[cut] if n[cut] > 0 else 1.0
+    n_flat = min(max(float(np.median(n[cut + 1 :])), float(n[cut])), n_far)
+    xs, ns = list(x[: cut + 1]), list(n[: cut + 1])
+    x_up = x[cut] + (n_flat - n[cut]) / s_c  # end of the rise to n_flat
+    x_start = x_far - (n_far - n_flat) / s_c  # start of the rise to the far field
+    if x_start <= x_up + 1e-7:  # no room for a flat stretch: straight on to the far field
+        xs += [x_far, x_far + 1e-3]
+        ns += [n_far, n_far + s_c * 1e-3]
+    else:
+        if n_flat > n[cut]:
+            xs.append(x_up)
+            ns.append(n_flat)
+        xs.append(x_start)
+        ns.append(n_flat)
+        if n_far > n_flat:
+            xs.append(x_far)
+            ns.append(n_far)
+        xs.append(xs[-1] + 1e-3)
+        ns.append(ns[-1] + s_c * 1e-3)
+    lay = list(layer[: cut + 1]) + [ratio * v for v in ns[cut + 1 :]]
+    keep = np.concatenate(([True], np.diff(xs) > 0))
+    return np.array(xs)[keep], np.array(ns)[keep], np.array(lay)[keep]
+
+
+def _far_column_potentials(section) -> np.ndarray:
+    """phi (V) at every sheet depth in the ungated far-field column (the FEM stages'
+    calibration on the 1D nodes), shape (W,)."""
+    from qhdesign.section.model import calibrate
+
+    levels, eps = _column_levels(section)
+    cal = calibrate(section, levels, eps, exposed=section.surface_mode)
+    return np.asarray(cal["phi_V"])[cal["sheet_level"]]
+
+
+def _column_levels(section):
+    z_sheet = np.array([s.z_m for s in section.sheets])
+    edges = np.asarray(section.charge_edges_m, dtype=float)
+    layer_z = np.asarray(section.layer_z_m, dtype=float)
+    levels = np.unique(np.concatenate((edges, z_sheet, layer_z)))
+    levels = levels[(levels >= layer_z[0]) & (levels <= layer_z[-1])]
+    mid = 0.5 * (levels[1:] + levels[:-1])
+    layer = np.clip(np.searchsorted(layer_z, mid) - 1, 0, layer_z.size - 2)
+    eps = np.asarray(section.layer_permittivity, dtype=float)[layer]
+    return levels, eps
+
+
 def _isotonic(y: np.ndarray) -> np.ndarray:
     """The non-decreasing sequence closest to ``y`` in least squares (pool adjacent violators;
     Barlow, Bartholomew, Bremner, Brunk, Statistical Inference under Order Restrictions, 1972)."""
@@ -302,12 +374,7 @@ def _column_potentials(section, tables) -> np.ndarray:
 
     z_sheet = np.array([s.z_m for s in section.sheets])
     edges = np.asarray(section.charge_edges_m, dtype=float)
-    layer_z = np.asarray(section.layer_z_m, dtype=float)
-    levels = np.unique(np.concatenate((edges, z_sheet, layer_z)))
-    levels = levels[(levels >= layer_z[0]) & (levels <= layer_z[-1])]
-    mid = 0.5 * (levels[1:] + levels[:-1])
-    layer = np.clip(np.searchsorted(layer_z, mid) - 1, 0, layer_z.size - 2)
-    eps = np.asarray(section.layer_permittivity, dtype=float)[layer]
+    levels, eps = _column_levels(section)
     q_fixed = lump_volume_charge(
         levels,
         section.charge_z_m,

@@ -95,6 +95,7 @@ ISLAND_OPTIONS = {
     "quantum_lifetime_s": "--quantum-lifetime",
     "g_factor": "--g-factor",
     "r_threshold": "--r-threshold",
+    "sheets": "--sheets",
     # the interferometer figures (qhdesign.island_figures)
     "electron_temperature_K": "--electron-temperature",
     "edge_velocity_m_s": "--edge-velocity",
@@ -149,6 +150,12 @@ def register(app: typer.Typer) -> None:
         g_factor: float | None = typer.Option(None, "--g-factor", help="|g*| (default 0.44)."),
         exchange: bool = typer.Option(
             True, "--exchange/--no-exchange", help="Hartree-Fock exchange in the sheets' dmu/dn."
+        ),
+        sheets: str = typer.Option(
+            "1d-tables",
+            "--sheets",
+            help="Sheet model of the operating point: 1d-tables (density and tails follow the "
+            "gate; default) or constant-dos.",
         ),
         bulk_charge: str = typer.Option(
             "uniform", "--bulk-charge", help="Shape of the bulk's added charge: uniform, parabolic."

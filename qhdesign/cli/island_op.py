@@ -100,9 +100,17 @@ def run(stack_file: Path, o: dict) -> None:
     from qhdesign.fem.grid import check_refine
 
     check_refine(refine, source="option --refine")
+    from qhdesign.pipeline import check_sheet_model, sheet_model_info
+
+    sheets = check_sheet_model(o.get("sheets") or "1d-tables")
     stack = load_stack(stack_file)
     res = solve_island_operating(
-        stack, device, settings, fields_T=fields, mesh_options=MeshOptions(refine=refine)
+        stack,
+        device,
+        settings,
+        fields_T=fields,
+        mesh_options=MeshOptions(refine=refine),
+        sheets=sheets,
     )
     MPI, _ = load()
     if MPI.COMM_WORLD.rank != 0:
@@ -112,7 +120,11 @@ def run(stack_file: Path, o: dict) -> None:
 
     written = []
     if o["json_out"] is not None:
-        d = {"stack_file": str(stack_file), **res.to_dict()}
+        d = {
+            "stack_file": str(stack_file),
+            "sheets": sheet_model_info(res.operating.section),
+            **res.to_dict(),
+        }
         d.update(_interferometer(res, settings, o))
         if fields:
             d["field_range"] = res.rows()

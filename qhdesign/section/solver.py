@@ -334,11 +334,18 @@ class CrossSectionSolver:
                 dn_fun = fem.Function(self.V)
                 dofs = fem.locate_dofs_topological(self.V, 1, ft.find(sheet_tags[i]))
                 self._laws.append((i, dofs, n_fun, dn_fun))
-                F += forms.sheet(n_fun("+"), v, dS_n(sheet_tags[i]), r=wr)
-                J_laws.append(forms.sheet(dn_fun("+") * du("+"), v, dS_n(sheet_tags[i]), r=wr))
+                r_lump = None if wr is None else self._lumped_radius(sheet_tags[i], dofs)
+                F += forms.sheet(n_fun("+"), v, dS_n(sheet_tags[i]), r=r_lump)
+                J_laws.append(
+                    forms.sheet(dn_fun("+") * du("+"), v, dS_n(sheet_tags[i]), r=r_lump)
+                )
                 continue
             density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
-            F += forms.sheet(density, v, dS_v(sheet_tags[i]), r=wr)
+            r_sheet = wr
+            if wr is not None and self.options.sheet_quadrature_degree == 0:
+                dofs = fem.locate_dofs_topological(self.V, 1, ft.find(sheet_tags[i]))
+                r_sheet = self._lumped_radius(sheet_tags[i], dofs)
+            F += forms.sheet(density, v, dS_v(sheet_tags[i]), r=r_sheet)
         J = None
         if J_laws:
             J = ufl.derivative(F, u, du)
@@ -363,6 +370,33 @@ class CrossSectionSolver:
             self._hook_laws(snes)
         self._history: list[float] = []
         snes.setMonitor(lambda _snes, _it, norm: self._history.append(float(norm)))
+
+    def _lumped_radius(self, tag: int, dofs: np.ndarray):
+        """The radial weight of a law sheet under vertex quadrature: the P1 function whose
+        nodal values are int(hat_i r dS) / int(hat_i dS) on the sheet line, so that the lumped
+        sheet term holds the exact int(hat_i r) at every node (the plain vertex rule would give
+        the axis node no weight at all, and its density no equation)."""
+        import ufl
+        from dolfinx import fem
+        from dolfinx.fem.petsc import assemble_vector
+
+        from qhdesign.fem import forms
+
+        dS = forms.sheet_measure(self.mesh, self.facet_tags, 2)
+        v = ufl.TestFunction(self.V)
+        wr = self.radial_weight()
+        out = fem.Function(self.V)
+        vals = []
+        for integrand in (v("+") * wr("+"), v("+")):
+            b = assemble_vector(fem.form(integrand * dS(tag)))
+            b.ghostUpdate(addv=_add(), mode=_reverse())
+            b.ghostUpdate(addv=_insert(), mode=_forward())
+            with b.localForm() as loc:
+                vals.append(loc.array.copy())
+            b.destroy()
+        num, den = vals
+        out.x.array[dofs] = num[dofs] / np.where(den[dofs] > 0, den[dofs], 1.0)
+        return out
 
     def _update_laws(self) -> None:
         """Nodal density (nm^-2) and slope (nm^-2/V) of every law sheet from the current phi
@@ -566,3 +600,27 @@ def _land():
     from mpi4py import MPI
 
     return MPI.LAND
+
+
+def _add():
+    from petsc4py import PETSc
+
+    return PETSc.InsertMode.ADD
+
+
+def _insert():
+    from petsc4py import PETSc
+
+    return PETSc.InsertMode.INSERT
+
+
+def _reverse():
+    from petsc4py import PETSc
+
+    return PETSc.ScatterMode.REVERSE
+
+
+def _forward():
+    from petsc4py import PETSc
+
+    return PETSc.ScatterMode.FORWARD
