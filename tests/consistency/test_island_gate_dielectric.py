@@ -248,3 +248,34 @@ def test_conductor_island_refuses_in_one_line(cli_runner, app, tmp_path):
     stack.write_text(COATED_TXT)
     res = cli_runner.invoke(app, ["island", str(stack), "--radius", "0.8 um"])
     assert_one_line_error(res, "surface.dielectric_thickness", "= 0", "conductor island")
+
+
+@pytest.mark.mpi
+def test_mpi_two_ranks_equal_serial(tmp_path):
+    # determinism (design rule): mpiexec -n 2 gives the serial numbers with the layer (measured
+    # 1e-14)
+    import os
+    import subprocess
+
+    from qhdesign.island.operating import IslandDevice
+    from qhdesign.island.stage import OperatingSettings
+    from qhdesign.pipeline import solve_island_operating
+
+    stack = tmp_path / "coated.toml"
+    stack.write_text(COATED_TXT)
+    res = solve_island_operating(
+        COATED, IslandDevice(CUT_V, gate_radius_m=1.0e-6), OperatingSettings(gap_J=120e-6 * sc.e)
+    )
+    out = tmp_path / "mpi.json"
+    bindir = Path(sys.executable).parent
+    cmd = [
+        str(bindir / "mpiexec"), "-n", "2", str(bindir / "qhdesign"), "island", str(stack),
+        "--gate-radius", "1 um", "--gate-voltage", str(CUT_V), "--gap", "120 ueV",
+        "--json", str(out),
+    ]  # fmt: skip
+    env = dict(os.environ, OMP_NUM_THREADS="1")
+    subprocess.run(cmd, check=True, env=env, capture_output=True, timeout=600)
+    data = json.loads(out.read_text())
+    p = res.point
+    for key, val in (("K_I_J", p.K_I_J), ("K_L_J", p.K_L_J), ("K_IL_J", p.K_IL_J)):
+        assert data[key] == pytest.approx(val, rel=1e-10, abs=0), key
