@@ -4,7 +4,7 @@ The 1D stage (:mod:`qhdesign.sp1d`) reduces a :class:`~qhdesign.stack.Stack` to 
 :class:`~qhdesign.sheets.SheetModel`; the FEM stages (:mod:`qhdesign.section`,
 :mod:`qhdesign.island`) are built from that sheet model alone and import neither the stack nor
 the 1D stage. This module runs the chain for a stack and refuses what a FEM stage does not model
-(a gate dielectric in the island stage) with an error that names the stack file and key.
+(a gate dielectric in the legacy conductor island) with an error that names the stack file and key.
 
 Functions
 ---------
@@ -423,7 +423,7 @@ def island_column_from_stack(stack):
     """The island stage's layer column of a stack (the 1D stage places the sheets)."""
     from qhdesign.island import column_from_sheet_model
 
-    refuse_gate_dielectric(stack, "the island model")
+    refuse_gate_dielectric(stack, "the split-gap conductor island")
     _require_primary(stack)
     return column_from_sheet_model(_bands_to_sheets(stack))
 
@@ -467,7 +467,6 @@ def solve_island_operating(
     st = settings or OperatingSettings()
     if isinstance(source, Stack):
         stack = source
-        refuse_gate_dielectric(stack, "the island model")
         _require_primary(stack)
         from qhdesign.section.model import cross_section_from_sheet_model
         from qhdesign.sp1d import solve_bands

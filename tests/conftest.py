@@ -190,6 +190,8 @@ FEM_MODULES = (
     "test_island_operating_reference.py",
     "test_layout3d.py",
     "test_layout3d_pinchoff.py",
+    "test_island_gate_dielectric.py",
+    "test_layout3d_gate_dielectric.py",
 )
 
 
@@ -221,6 +223,8 @@ SLOW_MODULES = (
     "test_island_operating_reference.py",
     "test_layout3d.py",
     "test_layout3d_pinchoff.py",
+    "test_island_gate_dielectric.py",
+    "test_layout3d_gate_dielectric.py",
 )
 #: Single slow tests in otherwise quick modules (node id without the parameter part): 10-80 s
 #: each in a `make test-fast` run on the shared machine (``--durations``, 2026-12-02).

@@ -215,6 +215,15 @@ def _print(res, with_range: bool) -> None:
         f"{label} R_gate = {op.gate_radius_m * 1e9:.1f} nm; B = {p.field_T:.4g} T, nu = "
         f"1/{round(1 / st.filling)}, T = {res.temperature_K:g} K; {op.info['dofs']} dofs"
     )
+    from qhdesign.island.stage import gate_dielectric
+
+    gd = gate_dielectric(op.section)
+    c.print(
+        f"gate dielectric: {gd['thickness_m'] * 1e9:g} nm, eps_r = {gd['permittivity_rel']:g} "
+        f"(series {gd['capacitance_F_m2'] * 1e2:.4g} uF/cm^2 under the gate)"
+        if gd["thickness_m"] > 0
+        else "gate dielectric: none (metal on the semiconductor)"
+    )
     s = p.strip
     t = Table(title="operating point")
     t.add_column("quantity")

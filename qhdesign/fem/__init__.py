@@ -7,7 +7,7 @@ modules; nothing here knows a stack, a well or a gate layout:
 * :mod:`~qhdesign.fem.grid` -- the graded node generator (``graded_nodes``);
 * :mod:`~qhdesign.fem.tensor_mesh` -- tensor grid -> gmsh numbering -> DOLFINx mesh;
 * :mod:`~qhdesign.fem.forms` -- weak-form pieces (dielectric with optional r weight, sheet
-  terms, far-field Robin term);
+  terms, far-field Robin term, the series-layer Robin term of a gate dielectric);
 * :mod:`~qhdesign.fem.petsc` -- PETSc option sets, each used under its own options prefix;
 * :mod:`~qhdesign.fem.capacitance` -- the axisymmetric linear capacitance solver (build,
   assemble, solve, extract).

@@ -15,8 +15,12 @@ stage (:mod:`qhdesign.island`) and its validation problems
 The outer boundary (top, bottom, side r = R_out) is split into parts that are ``ground``
 (Dirichlet 0), ``free`` (zero normal field) or ``far`` (Robin monopole condition
 du/dn = -u (n . rho_hat)/rho, rho measured from a centre on the axis, which makes a monopole
-far field exact and adds the exterior field energy of that monopole to the form). The axis
-r = 0 needs no condition: every form carries the factor r.
+far field exact and adds the exterior field energy of that monopole to the form). A top part
+may also be ``dielectric``: a grounded gate on a thin charge-free layer (thickness t,
+permittivity eps_d), the Robin condition of the series capacitance per area eps_0 eps_d / t
+(:func:`qhdesign.fem.forms.series_layer`). The axis r = 0 needs no condition: every form
+carries the factor r. ``permittivity_patches`` override the permittivity over rectangles
+(r, z) of the tensor mesh, e.g. to mesh such a layer only under a gate.
 
 Capacitance by energy: with u_i the solution for conductor i at 1 V and every other conductor at
 0 V, C_ij = a(u_i, u_j), where a is the full symmetric bilinear form (field energy, sheet terms,
@@ -68,7 +72,7 @@ __all__ = [
 ]
 
 #: Boundary facet tags by kind; line i has tag LINE0 + i.
-BOUNDARY_TAGS = {"ground": 1, "free": 2, "far": 3}
+BOUNDARY_TAGS = {"ground": 1, "free": 2, "far": 3, "dielectric": 4}
 LINE0 = 100
 LINE_KINDS = ("conductor", "ground", "sheet")
 
@@ -115,11 +119,18 @@ class AxiProblem:
         Domain radius R_out (m).
     top
         Parts of the top boundary: ``((r_from_m, r_to_m, kind), ...)`` covering [0, R_out];
-        kind in ``ground``, ``free``, ``far``.
+        kind in ``ground``, ``free``, ``far``, ``dielectric`` (a grounded gate on the top
+        dielectric below).
     bottom, side
-        Kind of the bottom boundary and of the side r = R_out.
+        Kind of the bottom boundary and of the side r = R_out (``ground``, ``free``, ``far``).
     far_centre_z_m
         Depth of the monopole centre of the Robin condition (on the axis).
+    top_dielectric_thickness_m, top_dielectric_permittivity
+        The layer between a ``dielectric`` top part's metal and the domain (m; relative), lumped
+        into the series capacitance per area eps_0 eps_d / t.
+    permittivity_patches
+        ``((z_from_m, z_to_m, r_from_m, r_to_m, eps), ...)``: relative permittivity ``eps`` on
+        the cells inside each rectangle (later patches win); z ends must be layer boundaries.
     """
 
     layer_z_m: tuple[float, ...]
@@ -130,6 +141,9 @@ class AxiProblem:
     bottom: str = "far"
     side: str = "far"
     far_centre_z_m: float = 0.0
+    top_dielectric_thickness_m: float = 0.0
+    top_dielectric_permittivity: float = 1.0
+    permittivity_patches: tuple[tuple[float, float, float, float, float], ...] = ()
 
     def __post_init__(self):
         z = np.asarray(self.layer_z_m, dtype=float)
@@ -141,9 +155,34 @@ class AxiProblem:
             raise InputError("permittivities must be > 0", key="layer_permittivity")
         if not self.outer_radius_m > 0:
             raise InputError("outer radius must be > 0", key="outer_radius_m")
-        for kind in (self.bottom, self.side, *(p[2] for p in self.top)):
-            if kind not in BOUNDARY_TAGS:
+        for kind in (self.bottom, self.side):
+            if kind not in ("ground", "free", "far"):
                 raise InputError(f"boundary kind '{kind}'; allowed: ground, free, far")
+        for kind in (p[2] for p in self.top):
+            if kind not in BOUNDARY_TAGS:
+                raise InputError(
+                    f"top boundary kind '{kind}'; allowed: ground, free, far, dielectric"
+                )
+        if any(p[2] == "dielectric" for p in self.top):
+            if not 0.0 < self.top_dielectric_thickness_m < 10e-6:
+                raise InputError(
+                    "a dielectric top part needs a layer thickness in (0, 10 um)",
+                    key="top_dielectric_thickness_m",
+                )
+            if not self.top_dielectric_permittivity >= 1.0:
+                raise InputError(
+                    "the top dielectric's relative permittivity must be >= 1",
+                    key="top_dielectric_permittivity",
+                )
+        for patch in self.permittivity_patches:
+            z0, z1, r0, r1, e = (float(x) for x in patch)
+            on_layers = all(np.any(np.isclose(z, zz, rtol=0, atol=1e-15)) for zz in (z0, z1))
+            if not (z0 < z1 and 0.0 <= r0 < r1 <= self.outer_radius_m and e > 0 and on_layers):
+                raise InputError(
+                    "a permittivity patch needs z_from < z_to on layer boundaries, "
+                    "0 <= r_from < r_to <= R_out and eps > 0",
+                    key="permittivity_patches",
+                )
         ends = sorted((float(a), float(b)) for a, b, _ in self.top)
         if (
             not ends
@@ -256,6 +295,8 @@ def build_axi_grid(problem: AxiProblem, opts: AxiMeshOptions) -> tuple[np.ndarra
         r_breaks |= {ln.r_from_m, ln.r_to_m}
     for a, b, _ in problem.top:
         r_breaks |= {float(a), float(b)}
+    for patch in problem.permittivity_patches:
+        r_breaks |= {float(patch[2]), float(patch[3])}
     # singular points: line ends away from the axis and the outer edge, boundary-kind changes
     r_attr = sorted(r for r in r_breaks if 0.0 < r < R)
     r = graded_nodes(
@@ -369,6 +410,14 @@ def build(problem: AxiProblem, mesh_options: AxiMeshOptions | None = None, *, co
     Q = fem.functionspace(msh, ("DG", 0))
     eps = fem.Function(Q)
     eps.x.array[ct.indices] = np.asarray(problem.layer_permittivity, dtype=float)[ct.values - 1]
+    if problem.permittivity_patches:
+        from dolfinx.mesh import compute_midpoints
+
+        tdim = msh.topology.dim
+        mid = compute_midpoints(msh, tdim, ct.indices) * NM  # (r, -z) in m
+        for z0, z1, r0, r1, e in problem.permittivity_patches:
+            inside = (mid[:, 0] > r0) & (mid[:, 0] < r1) & (-mid[:, 1] > z0) & (-mid[:, 1] < z1)
+            eps.x.array[ct.indices[inside]] = float(e)
     eps.x.scatter_forward()
 
     r = ufl.SpatialCoordinate(msh)[0]
@@ -377,10 +426,21 @@ def build(problem: AxiProblem, mesh_options: AxiMeshOptions | None = None, *, co
     ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
     dS = ufl.Measure("dS", domain=msh, subdomain_data=ft)
 
+    c_top = None
+    if any(p[2] == "dielectric" for p in problem.top):
+        c_top = fem.Constant(
+            msh,
+            default_scalar_type(
+                problem.top_dielectric_permittivity / (problem.top_dielectric_thickness_m / NM)
+            ),
+        )
+
     def energy(u, v):
         """The bilinear form in units of eps_0 * nm (times 2 pi): C = 2 pi eps_0 nm * a."""
         a = forms.dielectric(u, v, eps, dx, r=r)
         a += forms.far_field_robin(u, v, eps, ds(BOUNDARY_TAGS["far"]), centre, r=r)
+        if c_top is not None:  # grounded gates on the top dielectric (units of eps_0 / nm)
+            a += forms.series_layer(u, v, c_top, ds(BOUNDARY_TAGS["dielectric"]), r=r)
         for i, ln in enumerate(problem.lines):
             if ln.kind == "sheet":
                 # linear Thomas–Fermi sheet: e^2 D / eps_0 in nm^-1 (the quantum capacitance)

@@ -11,6 +11,10 @@ are in mesh units (nm); the stage chooses the scale factor that makes its units 
 * :func:`far_field_robin`: the monopole far-field condition du/dn = -u (n . rho)/rho^2 on an
   outer boundary, ``eps (n . rho / rho^2) u v [r] ds``, rho measured from a centre; exact for a
   monopole field and it adds the exterior field energy of that monopole to the form.
+* :func:`series_layer`: a thin charge-free layer (a gate dielectric) between a metal at potential
+  u_m and a boundary, lumped into a series capacitance per area c = eps_0 eps_d / t:
+  ``c (u - u_m) v [r] ds`` (a Robin condition; u_m = 0 in a linear response with the metal
+  grounded). It adds the layer's field energy c (u - u_m)^2 / 2 per area to the energy.
 * :func:`sheet_measure`: the interior-facet measure of the sheets with the quadrature the
   nonlinear sheet term needs (``exp``/``log`` in the integrand: the degree is set explicitly).
 
@@ -26,6 +30,7 @@ __all__ = [
     "dielectric",
     "far_field_robin",
     "linear_sheet_density",
+    "series_layer",
     "sheet",
     "sheet_measure",
     "softplus",
@@ -94,6 +99,33 @@ def far_field_robin(u, v, eps, ds, centre, *, r=None):
     rho = xs - ufl.as_vector(tuple(float(c) for c in centre))
     beta = ufl.dot(n, rho) / ufl.dot(rho, rho)
     integrand = eps * beta * u * v
+    if r is not None:
+        integrand = integrand * r
+    return integrand * ds
+
+
+def series_layer(u, v, capacitance, ds, *, metal=None, r=None):
+    """Robin term of a thin dielectric under a metal: ``c (u - u_m) v r ds``.
+
+    Gauss's law across a charge-free layer of thickness t and permittivity eps_d whose thickness
+    is small against the scale on which the field varies along it: the displacement through it
+    is eps_0 eps_d (u_m - u)/t, so the semiconductor below sees the metal through the series
+    capacitance per area c = eps_0 eps_d / t (Gauss's law for D, the parallel-plate capacitor).
+
+    Parameters
+    ----------
+    u, v
+        Trial/test functions (or two solutions, for an energy).
+    capacitance
+        c in the caller's units (e.g. C_EPS eps_d / (t / nm)); a float or a Constant.
+    ds
+        The boundary measure restricted to the facets under the metal.
+    metal
+        Metal potential u_m (a Constant), or None for a grounded metal.
+    r
+        Axisymmetric weight, or None.
+    """
+    integrand = capacitance * (u if metal is None else u - metal) * v
     if r is not None:
         integrand = integrand * r
     return integrand * ds

@@ -12,7 +12,11 @@ On the operating point's own mesh (:mod:`qhdesign.island.operating`):
   a potential u changing its charge by -e^2 D(r) u; where the operating point left a sheet empty
   (below 1 % of its 1D density) it is absent;
 - the gate and a pinned surface or bottom contact are grounded; a frozen surface carries no
-  change of charge (zero normal field), the outer side is zero-flux (the 1D far field).
+  change of charge (zero normal field), the outer side is zero-flux (the 1D far field). A gate
+  on a dielectric (thickness t, permittivity eps_d) is grounded through the layer: the surface
+  under it is a Robin boundary, the series capacitance per area eps_0 eps_d / t to the grounded
+  metal (:func:`qhdesign.fem.forms.series_layer`, the nonlinear solve's own term), and the
+  layer's field energy is part of the energy form.
 
 With u_1 the potential of I at 1 V (everything else grounded, no L charge) and phi_L that of the
 L charge (one electron charge) with I grounded: C_I = a(u_1, u_1), w = <sigma_L, u_1>,
@@ -71,6 +75,8 @@ class ResponseProblem:
         import ufl
         from dolfinx import default_scalar_type, fem
 
+        from qhdesign.fem import forms
+
         if bulk_shape not in BULK_SHAPES:
             from qhdesign.errors import InputError
 
@@ -100,10 +106,20 @@ class ResponseProblem:
         shape = 1.0 if bulk_shape == "uniform" else (1.0 - (x / self.r_L) ** 2)
         self.bulk_shape = bulk_shape
 
+        ds = ufl.Measure("ds", domain=msh, subdomain_data=ft)
+        t_d = float(op.section.gate_dielectric_thickness_m)
+        # the gate dielectric's series capacitance per area, in the solver's units (as its form)
+        c_d = C_EPS * op.section.gate_dielectric_permittivity / (t_d / NM) if t_d > 0 else None
+        self.dielectric_capacitance_F_m2 = (
+            sc.epsilon_0 * op.section.gate_dielectric_permittivity / t_d if t_d > 0 else 0.0
+        )
+
         def energy(u, v):
-            a = C_EPS * s.eps * ufl.inner(ufl.grad(u), ufl.grad(v)) * wr * dx
+            a = forms.dielectric(u, v, s.eps, dx, scale=C_EPS, r=wr)
             for D, tag in zip(self.D, self.tags, strict=True):
                 a += D("+") * u("+") * v("+") * wS * dS(tag)
+            if c_d is not None:  # the grounded gate seen through its dielectric
+                a += forms.series_layer(u, v, c_d, ds(TAGS["gate"]), r=wr)
             return a
 
         u_t, v_t = ufl.TrialFunction(V), ufl.TestFunction(V)
@@ -115,10 +131,12 @@ class ResponseProblem:
         self.total_form = fem.form(sig * one * wS * dS(self.tags[ip]))
         self.ua, self.ub = fem.Function(V), fem.Function(V)
         self.e_form = fem.form(energy(self.ua, self.ub))
-        # dofs: the grounded set (gate, pinned surface, bottom contact) as the solver has it
-        self.ground = np.unique(
-            np.concatenate([d for d, kind in s._bc_groups if kind != "outer"])
-        ).astype(np.int32)
+        # dofs: the grounded set (gate on the bare surface, pinned surface, bottom contact) as the
+        # solver has it; a gate on a dielectric has no Dirichlet dofs (its Robin term above)
+        grounded = [d for d, kind in s._bc_groups if kind != "outer"]
+        self.ground = np.unique(np.concatenate(grounded or [np.zeros(0, dtype=np.int32)])).astype(
+            np.int32
+        )
         prim = fem.locate_dofs_topological(V, 1, ft.find(self.tags[ip]))
         self.prim_dofs = prim
         self.prim_r_m = s._dof_x_m[prim]

@@ -255,6 +255,7 @@ class IslandOperatingResult:
             else "lithographic",
             "electronic_radius_input_m": self.device.electronic_radius_m,
             "gate_width_m": self.device.gate_width_m,
+            "gate_dielectric": gate_dielectric(op.section),
             "field_T": p.field_T,
             "filling": st.filling,
             "temperature_K": self.temperature_K,
@@ -311,6 +312,18 @@ class IslandOperatingResult:
             p.flat() | {"r_above_threshold": p.ratio > self.settings.r_threshold}
             for p in self.points
         ]
+
+
+def gate_dielectric(section) -> dict:
+    """The gate dielectric of a cross-section as reported (SI): thickness, relative
+    permittivity and the series capacitance per area eps_0 eps_d / t (0 without a layer)."""
+    t = float(section.gate_dielectric_thickness_m)
+    eps = float(section.gate_dielectric_permittivity)
+    return {
+        "thickness_m": t,
+        "permittivity_rel": eps if t > 0 else None,
+        "capacitance_F_m2": sc.epsilon_0 * eps / t if t > 0 else 0.0,
+    }
 
 
 def _sheet_mass_ratio(dos_J_m2: float) -> float:

@@ -45,7 +45,11 @@ MAX_VERTICES = 2000
 _TOP = ("layout", "mesh", "gates", "island", "constrictions")
 _LAYOUT_KEYS = ("name", "notes", "stack", "domain_x", "domain_y")
 _MESH_KEYS = ("gate_edge", "far")
-_GATE_KEYS = ("name", "vertices", "voltage")
+_GATE_KEYS = ("name", "vertices", "voltage", "dielectric_thickness", "dielectric_permittivity")
+#: Allowed gate dielectric (as the stack file's surface.dielectric_*): thickness in m, relative
+#: permittivity.
+DIELECTRIC_THICKNESS_RANGE_M = (0.0, 10e-6)
+DIELECTRIC_PERMITTIVITY_RANGE = (1.0, 100.0)
 _CONSTRICTION_KEYS = ("name", "path")
 _ISLAND_KEYS = (
     "name",
@@ -81,6 +85,10 @@ class Gate:
         ``"gate"`` (drawn), ``"wall"`` or ``"plunger"`` (generated or listed as a plunger).
     key
         Where it came from in the file (``gates[1]`` or ``island``), for messages.
+    dielectric_thickness_m, dielectric_permittivity
+        The gate's own dielectric between metal and semiconductor (m; relative permittivity);
+        None: the stack's (``surface.dielectric_*``). A thickness of 0 puts this gate's metal on
+        the semiconductor.
     """
 
     name: str
@@ -88,6 +96,8 @@ class Gate:
     voltage_V: float
     role: str = "gate"
     key: str = ""
+    dielectric_thickness_m: float | None = None
+    dielectric_permittivity: float | None = None
 
 
 @dataclass(frozen=True)
@@ -179,6 +189,8 @@ class Layout:
                     "role": g.role,
                     "voltage_V": g.voltage_V,
                     "vertices_m": g.vertices_m.tolist(),
+                    "dielectric_thickness_m": g.dielectric_thickness_m,
+                    "dielectric_permittivity": g.dielectric_permittivity,
                 }
                 for g in self.gates
             ],
@@ -287,6 +299,43 @@ def _point(v: Any, key: str, src: str) -> tuple[float, float]:
     )
 
 
+def _gate_dielectric(tab: dict, where: str, src: str) -> tuple[float | None, float | None]:
+    """A gate's own dielectric (thickness m, relative permittivity), None where not given."""
+    t = eps = None
+    if "dielectric_thickness" in tab:
+        t = _qty(tab, "dielectric_thickness", "length", where, src)
+        lo, hi = DIELECTRIC_THICKNESS_RANGE_M
+        if not lo <= t <= hi:
+            raise _err(
+                f"{t * 1e9:g} nm; allowed from {lo * 1e9:g} nm to {hi * 1e6:g} um",
+                src,
+                f"{where}.dielectric_thickness",
+            )
+    if "dielectric_permittivity" in tab:
+        v = tab["dielectric_permittivity"]
+        lo, hi = DIELECTRIC_PERMITTIVITY_RANGE
+        if isinstance(v, bool) or not isinstance(v, int | float) or not lo <= v <= hi:
+            raise _err(
+                f"{v!r}; allowed a number from {lo:g} to {hi:g}",
+                src,
+                f"{where}.dielectric_permittivity",
+            )
+        eps = float(v)
+        if t is None:
+            raise _err(
+                "a gate's dielectric permittivity needs its dielectric_thickness",
+                src,
+                f"{where}.dielectric_thickness",
+            )
+    if t is not None and t > 0 and eps is None:
+        raise _err(
+            "a gate dielectric needs its relative permittivity (a number from 1 to 100)",
+            src,
+            f"{where}.dielectric_permittivity",
+        )
+    return t, eps
+
+
 def check_voltage(v: float, key: str, src: str, barrier_V: float, stack_src: str) -> float:
     """Refuse a voltage at or past the Schottky barrier or below -20 V (one line, file, key)."""
     if v >= barrier_V:
@@ -384,7 +433,7 @@ def _build(raw: dict, src: str, base: Path, stack) -> Layout:
             barrier_V,
             stack.source,
         )
-        gates.append(Gate(gname, poly, volt, "gate", where))
+        gates.append(Gate(gname, poly, volt, "gate", where, *_gate_dielectric(tab, where, src)))
 
     spec = None
     seed = None

@@ -196,12 +196,15 @@ class LayoutSolver:
             return fem.locate_dofs_topological(self.V, 2, ft.find(tag))
 
         self._gate_dofs = [dofs_of(TAGS3["gate0"] + i) for i in range(len(self.layout.gates))]
+        # a gate on a dielectric: its series capacitance per area in the form's units, else None
+        self._gate_layer = [_layer_capacitance(g, self.section) for g in self.layout.gates]
         self._fixed_groups: list[tuple[np.ndarray, float]] = []
         if self.options.exposed == "pinned":
             self._fixed_groups.append((dofs_of(TAGS3["exposed"]), self.section.surface_potential_V))
         if self.section.bottom == "gate":
             self._fixed_groups.append((dofs_of(TAGS3["bottom"]), self.section.bottom_potential_V))
-        parts = [*self._gate_dofs, *(d for d, _ in self._fixed_groups)]
+        metal = [d for d, c in zip(self._gate_dofs, self._gate_layer, strict=True) if c is None]
+        parts = [*metal, *(d for d, _ in self._fixed_groups), np.zeros(0, dtype=np.int32)]
         self._bc_dofs = np.unique(np.concatenate(parts)).astype(np.int32)
         self.bc = fem.dirichletbc(self._g, self._bc_dofs)
 
@@ -231,6 +234,11 @@ class LayoutSolver:
         for E, D, tag in zip(self.E, self.D, self.sheet_tags, strict=True):
             density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
             F += forms.sheet(density, v, self.dS_sheet(tag))
+        # gates on a dielectric: the metal potential is a Constant of the Robin term
+        self._metal = [fem.Constant(msh, default_scalar_type(0.0)) for _ in self.layout.gates]
+        for i, c in enumerate(self._gate_layer):
+            if c is not None:
+                F += forms.series_layer(u, v, c, self.ds(TAGS3["gate0"] + i), metal=self._metal[i])
         self.F = F
         from dolfinx.fem.petsc import NonlinearProblem
 
@@ -254,8 +262,11 @@ class LayoutSolver:
         barrier = self.section.gate_barrier_J / sc.e
         for dofs, val in self._fixed_groups:
             self._g.x.array[dofs] = val
-        for g, dofs in zip(self.layout.gates, self._gate_dofs, strict=True):
-            self._g.x.array[dofs] = volts[g.name] - barrier
+        for i, (g, dofs) in enumerate(zip(self.layout.gates, self._gate_dofs, strict=True)):
+            if self._gate_layer[i] is None:
+                self._g.x.array[dofs] = volts[g.name] - barrier
+            else:  # behind its dielectric: the Robin term's metal potential
+                self._metal[i].value = volts[g.name] - barrier
 
     def _newton(self) -> tuple[bool, int]:
         self._history.clear()
@@ -388,6 +399,9 @@ class LayoutSolver:
         for D, tag, w in zip(self.D, self.sheet_tags, weights, strict=True):
             # the Jacobian of the Thomas-Fermi sheet: D sigmoid((phi - E)/kT) per volt
             a += forms.sheet(forms.linear_sheet_density(D * w("+"), u("+")), v, self.dS_sheet(tag))
+        for i, c in enumerate(self._gate_layer):  # gates on a dielectric, metal grounded
+            if c is not None:
+                a += forms.series_layer(u, v, c, self.ds(TAGS3["gate0"] + i))
         return a
 
     def linear_response(self, dirichlet: list[tuple[np.ndarray, float]], masks=None):
@@ -397,7 +411,9 @@ class LayoutSolver:
         Parameters
         ----------
         dirichlet
-            (local dof indices, value) pairs; every gate and fixed part not listed is 0.
+            (local dof indices, value) pairs; every gate and fixed part not listed is 0. The
+            dofs of a gate on a dielectric (the array :meth:`gate_dofs` returns) set that gate's
+            metal potential behind its layer (a Robin source), not a Dirichlet value.
         masks
             Per sheet, a plane-node array multiplying the sheet's linear Thomas–Fermi term.
 
@@ -411,15 +427,24 @@ class LayoutSolver:
 
         weights = self._sheet_weight_functions(masks)
         a = self._linear_operator(weights)
+        from qhdesign.fem import forms
+
         g = fem.Function(self.V)
         g.x.array[:] = 0.0
-        extra = [d for d, _ in dirichlet]
-        for dofs, val in dirichlet:
-            g.x.array[dofs] = val
-        all_dofs = np.unique(np.concatenate([self._bc_dofs, *extra])).astype(np.int32)
-        bc = fem.dirichletbc(g, all_dofs)
         v = ufl.TestFunction(self.V)
         L = fem.Constant(self.mesh, default_scalar_type(0.0)) * v * self.dx
+        extra = []
+        for dofs, val in dirichlet:
+            i = next((k for k, d in enumerate(self._gate_dofs) if d is dofs), None)
+            if i is not None and self._gate_layer[i] is not None:
+                # a driven gate behind its dielectric: c V v on its facets (the Robin source)
+                metal = fem.Constant(self.mesh, default_scalar_type(val))
+                L += forms.series_layer(metal, v, self._gate_layer[i], self.ds(TAGS3["gate0"] + i))
+                continue
+            g.x.array[dofs] = val
+            extra.append(dofs)
+        all_dofs = np.unique(np.concatenate([self._bc_dofs, *extra])).astype(np.int32)
+        bc = fem.dirichletbc(g, all_dofs)
         prob = LinearProblem(
             a,
             L,
@@ -454,8 +479,31 @@ class LayoutSolver:
                 return d
         raise InputError(f"no gate '{name}'", source=self.layout.source)
 
+    def gate_dielectric(self, name: str) -> tuple[float, float]:
+        """The dielectric under gate ``name``: (thickness m, relative permittivity); (0, 1) for
+        metal on the semiconductor."""
+        g = self.layout.gate(name)
+        return _layer_of(g, self.section)
+
     def write_fields(self, path) -> None:
         """Write the mesh, phi (V) and the permittivity to XDMF (lengths in nm)."""
         from qhdesign.fem.backend import write_fields
 
         write_fields(path, self.comm, self.mesh, self.phi, self.eps)
+
+
+def _layer_of(gate, section) -> tuple[float, float]:
+    """(t, eps_d) under a gate: the layout's own values, else the stack's."""
+    t = gate.dielectric_thickness_m
+    eps = gate.dielectric_permittivity
+    if t is None:
+        t = float(section.gate_dielectric_thickness_m)
+        eps = float(section.gate_dielectric_permittivity) if eps is None else eps
+    return (float(t), float(eps)) if t > 0 else (0.0, 1.0)
+
+
+def _layer_capacitance(gate, section):
+    """eps_0 eps_d / t of a gate's dielectric in the form's units (C_EPS eps_d / (t / nm)), or
+    None for metal on the semiconductor (a Dirichlet gate)."""
+    t, eps = _layer_of(gate, section)
+    return C_EPS * eps / (t / NM) if t > 0 else None

@@ -8,7 +8,8 @@ Checks:
   1/C = t_d/(eps_0 eps_d) + integral_0^z_s dz/(eps_0 eps(z)) + 1/(e^2 D) within 1 % (analytic:
   series capacitors of a charge-free dielectric, the layers above the sheet and the Thomas–Fermi
   sheet's quantum capacitance), with and without the dielectric;
-- the island stage still refuses a gate dielectric with one line naming the key.
+- the split-gap conductor island still refuses a gate dielectric with one line naming the key
+  (the operating-point island models it: test_island_gate_dielectric.py).
 """
 
 from __future__ import annotations
@@ -104,8 +105,8 @@ def test_geometric_capacitance_in_series(which, coated, record_check):
     assert c2d == pytest.approx(c, rel=0.01)
 
 
-def test_island_still_refuses_a_gate_dielectric():
-    from qhdesign.pipeline import refuse_gate_dielectric
+def test_conductor_island_still_refuses_a_gate_dielectric():
+    from qhdesign.pipeline import island_column_from_stack
 
     with pytest.raises(InputError, match="dielectric_thickness"):
-        refuse_gate_dielectric(COATED, "the island model")
+        island_column_from_stack(COATED)
