@@ -101,13 +101,31 @@ def exposed_surface_model(stack, section=None, requested: str | None = None) -> 
     return section.surface_mode if section is not None else "frozen"
 
 
-def section_from_stack(stack, *, gate_barrier_J: float | None = None):
+def section_from_stack(
+    stack,
+    *,
+    gate_barrier_J: float | None = None,
+    sheet_xc: str = "none",
+    compressibility_floor: float | None = None,
+):
     """Run the 1D stage on a stack and build the cross-section (donors frozen at their 1D state).
 
     Same as ``cross_section_from_sheet_model(sheet_model_from_stack(stack))``; a gate barrier
     outside 0 to 3 eV is refused (key ``gate_barrier_J``) before the 1D solve.
+
+    ``sheet_xc`` (:data:`qhdesign.sheetxc.SHEET_XC_MODELS`): ``"none"`` keeps the closed-form
+    Thomas–Fermi sheets; ``"exchange"`` or ``"exchange+correlation"`` gives every sheet the law
+    of :func:`qhdesign.sheetxc.with_sheet_xc` (its own in-plane exchange, optionally
+    correlation, with dmu/dn floored at ``compressibility_floor`` times pi hbar^2/m*; default
+    :data:`qhdesign.sheetxc.DEFAULT_COMPRESSIBILITY_FLOOR`). Both are checked before the 1D solve.
     """
     from qhdesign.section.model import cross_section_from_sheet_model
+    from qhdesign.sheetxc import DEFAULT_COMPRESSIBILITY_FLOOR, check_sheet_xc, with_sheet_xc
+
+    floor = (
+        DEFAULT_COMPRESSIBILITY_FLOOR if compressibility_floor is None else compressibility_floor
+    )
+    check_sheet_xc(sheet_xc, floor)
 
     lo, hi = GATE_BARRIER_RANGE_J
     if gate_barrier_J is not None and not lo < gate_barrier_J < hi:
@@ -117,9 +135,10 @@ def section_from_stack(stack, *, gate_barrier_J: float | None = None):
             key="gate_barrier_J",
         )
 
-    return cross_section_from_sheet_model(
+    section = cross_section_from_sheet_model(
         sheet_model_from_stack(stack), gate_barrier_J=gate_barrier_J
     )
+    return with_sheet_xc(section, sheet_xc, compressibility_floor=floor)
 
 
 def _require_primary(stack) -> None:

@@ -69,6 +69,7 @@ __all__ = [
     "DEFAULT_COMPRESSIBILITY_FLOOR",
     "SHEET_XC_MODELS",
     "SHEET_XC_REFERENCES",
+    "check_sheet_xc",
     "correlation_dmu_dn",
     "correlation_energy_per_particle",
     "correlation_potential",
@@ -176,6 +177,13 @@ def correlation_dmu_dn(n_m2, mass_ratio: float, eps_r: float):
 def exchange_potential(n_m2, eps_r: float):
     """mu_x = d(n eps_x)/dn = (3/2) eps_x (J), unpolarized 2D Hartree–Fock exchange."""
     return 1.5 * exchange_energy_per_particle(n_m2, eps_r)
+
+
+def check_sheet_xc(sheet_xc: str, compressibility_floor: float) -> None:
+    """Refuse an unknown model (key ``sheet_xc``) or a floor outside (0, 1]
+    (key ``compressibility_floor``) before any solve."""
+    _check_model(sheet_xc)
+    _check_floor(compressibility_floor)
 
 
 def _check_model(sheet_xc: str) -> None:

@@ -28,7 +28,13 @@ from .common import (
 )
 
 
-def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | None):
+def _load_section(
+    stack_file: Path,
+    surface: str | None,
+    gate_barrier: str | None,
+    sheet_xc: str = "none",
+    compressibility_floor: float | None = None,
+):
     from qhdesign.pipeline import exposed_surface_model, section_from_stack
     from qhdesign.stack import load_stack
 
@@ -36,8 +42,46 @@ def _load_section(stack_file: Path, surface: str | None, gate_barrier: str | Non
     barrier = option_quantity(gate_barrier, "energy", "--gate-barrier")
     if surface is not None:  # refuse a bad choice before the 1D solve
         exposed_surface_model(stack, None, surface)
-    section = section_from_stack(stack, gate_barrier_J=barrier)
+    section = section_from_stack(
+        stack,
+        gate_barrier_J=barrier,
+        sheet_xc=sheet_xc,
+        compressibility_floor=compressibility_floor,
+    )
     return stack, section, exposed_surface_model(stack, section, surface)
+
+
+def _sheet_xc_report(section, sheet_xc: str, compressibility_floor: float | None) -> dict:
+    """The ``sheet_xc`` block of the JSON: model, reference, floor, each sheet's law."""
+    from qhdesign.sheetxc import DEFAULT_COMPRESSIBILITY_FLOOR, describe_sheet_xc
+
+    floor = (
+        DEFAULT_COMPRESSIBILITY_FLOOR if compressibility_floor is None else compressibility_floor
+    )
+    return describe_sheet_xc(section, sheet_xc, compressibility_floor=floor)
+
+
+def _echo_sheet_xc(xc: dict) -> None:
+    if xc["model"] == "none":
+        return
+    for name, s in xc["sheets"].items():
+        ratio = s["dmu_dn_over_bare_at_density"]
+        typer.echo(
+            f"  {name}: {s['law']}; dmu/dn = {ratio:.3f} x pi hbar^2/m* at its 1D density"
+            if ratio is not None
+            else f"  {name}: {s['law']}"
+        )
+
+
+#: The sheets' own exchange-correlation options, shared by ``edge`` and ``pinchoff``.
+SHEET_XC_HELP = (
+    "The sheets' own in-plane exchange-correlation: none (Thomas-Fermi), exchange (2D "
+    "Hartree-Fock), exchange+correlation (plus the Attaccalite et al. 2002 fit)."
+)
+FLOOR_HELP = (
+    "With --sheet-xc: floor on each sheet's dmu/dn as a fraction of pi hbar^2/m* "
+    "(0 < f <= 1, default 0.1), where exchange makes it negative."
+)
 
 
 #: Argument names of the 2D physics (error keys) -> options of ``edge`` and ``pinchoff``.
@@ -55,6 +99,8 @@ EDGE_OPTIONS = {
     "spin_gap_J": "--spin-gap",
     "g_effective": "--g-effective",
     "strip_min_width_lB": "--strip-min-lb",
+    "sheet_xc": "--sheet-xc",
+    "compressibility_floor": "--compressibility-floor",
 }
 PINCHOFF_OPTIONS = {
     "v_start": "--from",
@@ -64,6 +110,8 @@ PINCHOFF_OPTIONS = {
     "gate_barrier_J": "--gate-barrier",
     "surface": "--surface",
     "refine": "--refine",
+    "sheet_xc": "--sheet-xc",
+    "compressibility_floor": "--compressibility-floor",
 }
 
 
@@ -238,6 +286,10 @@ def register(app: typer.Typer) -> None:
         strip_min_lb: float = typer.Option(
             1.0, "--strip-min-lb", help="Flag strips narrower than this many magnetic lengths."
         ),
+        sheet_xc: str = typer.Option("none", "--sheet-xc", help=SHEET_XC_HELP),
+        compressibility_floor: float | None = typer.Option(
+            None, "--compressibility-floor", help=FLOOR_HELP
+        ),
         surface: Surface = None,
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
@@ -273,11 +325,14 @@ def register(app: typer.Typer) -> None:
             spin_gap_J=gap_J,
             strip_min_width_lB=strip_min_lb,
         )
-        stack, section, surf = _load_section(stack_file, surface, gate_barrier)
+        stack, section, surf = _load_section(
+            stack_file, surface, gate_barrier, sheet_xc, compressibility_floor
+        )
+        xc = _sheet_xc_report(section, sheet_xc, compressibility_floor)
         mesh = MeshOptions(refine=refine)
         opts = SolverOptions(exposed=surf)
         if w is not None:
-            _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields)
+            _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields, xc)
             return
         from qhdesign.section import solve_edge
 
@@ -288,10 +343,11 @@ def register(app: typer.Typer) -> None:
         root = _is_root()
         if root:
             _print_edge(res, stack.name)
+            _echo_sheet_xc(xc)
         if root and json_out is not None:
             from qhdesign.io import atomic_write_json
 
-            data = {"stack": str(stack_file), "surface": surf, **res.to_dict()}
+            data = {"stack": str(stack_file), "surface": surf, "sheet_xc": xc, **res.to_dict()}
             atomic_write_json(json_out, data)
         if root and csv_out is not None:
             from qhdesign.io import atomic_write_text
@@ -320,6 +376,10 @@ def register(app: typer.Typer) -> None:
         v_start: str = typer.Option("0", "--from", help="First gate voltage of the sweep (V)."),
         v_stop: str = typer.Option("-5", "--to", help="Last gate voltage of the sweep (V)."),
         v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
+        sheet_xc: str = typer.Option("none", "--sheet-xc", help=SHEET_XC_HELP),
+        compressibility_floor: float | None = typer.Option(
+            None, "--compressibility-floor", help=FLOOR_HELP
+        ),
         surface: Surface = None,
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
@@ -353,7 +413,10 @@ def register(app: typer.Typer) -> None:
                 related=("v_start",),
             )
         check_refine(refine)
-        stack, section, surf = _load_section(stack_file, surface, gate_barrier)
+        stack, section, surf = _load_section(
+            stack_file, surface, gate_barrier, sheet_xc, compressibility_floor
+        )
+        xc = _sheet_xc_report(section, sheet_xc, compressibility_floor)
         res = solve_pinchoff(
             section,
             w,
@@ -388,7 +451,8 @@ def register(app: typer.Typer) -> None:
             from qhdesign.io import atomic_write_json
 
             atomic_write_json(
-                json_out, {"stack": str(stack_file), "surface": surf, **res.to_dict()}
+                json_out,
+                {"stack": str(stack_file), "surface": surf, "sheet_xc": xc, **res.to_dict()},
             )
         if csv_out is not None:
             from qhdesign.io import atomic_write_text
@@ -406,7 +470,7 @@ def register(app: typer.Typer) -> None:
                 typer.echo(f"wrote {p}")
 
 
-def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields):
+def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields, xc):
     from qhdesign.section import solve_constriction
 
     res = solve_constriction(section, w, v, mesh, opts)
@@ -430,7 +494,7 @@ def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot,
     if json_out is not None:
         from qhdesign.io import atomic_write_json
 
-        atomic_write_json(json_out, {"stack": str(stack.source), **res.to_dict()})
+        atomic_write_json(json_out, {"stack": str(stack.source), "sheet_xc": xc, **res.to_dict()})
     if csv_out is not None:
         from qhdesign.io import atomic_write_text
 
