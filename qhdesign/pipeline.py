@@ -25,10 +25,13 @@ from __future__ import annotations
 
 from typing import Any
 
+import numpy as np
+
 from qhdesign.errors import InputError
 
 __all__ = [
     "GATE_BARRIER_RANGE_J",
+    "check_sheet_xc_choice",
     "exposed_surface_model",
     "island_column_from_stack",
     "refuse_gate_dielectric",
@@ -80,6 +83,21 @@ def _bands_to_sheets(stack):
 GATE_BARRIER_RANGE_J = (0.0, 3.0 * 1.602176634e-19)
 SURFACE_MODELS = ("frozen", "pinned")
 
+#: Sheet models of the FEM stages: the closed-form Thomas–Fermi sheet with the 1D stage's
+#: density of states and frozen tails, or laws tabulated from gated 1D solves (tails deplete
+#: with their well; docs/models.md, "Sheets that follow the gate").
+SHEET_MODELS = ("1d-tables", "constant-dos")
+DEFAULT_SHEET_MODEL = "1d-tables"
+#: Gate-voltage step (V) and lowest voltage of the tabulating 1D solves.
+TABLE_STEP_V = 0.01
+TABLE_LOWEST_V = -4.0
+#: Largest departure from monotone (fraction of the well's largest density) a table may have
+#: in its sheet potential; smaller departures are smoothed by isotonic regression.
+TABLE_MONOTONE_TOL = 0.005
+
+_TABLE_CACHE: dict = {}
+_LAST_TABLE_INFO: dict = {}
+
 
 def exposed_surface_model(stack, section=None, requested: str | None = None) -> str:
     """The exposed-surface model of a 2D solve of ``stack``.
@@ -105,27 +123,33 @@ def section_from_stack(
     stack,
     *,
     gate_barrier_J: float | None = None,
+    sheets: str = DEFAULT_SHEET_MODEL,
     sheet_xc: str = "none",
     compressibility_floor: float | None = None,
 ):
     """Run the 1D stage on a stack and build the cross-section (donors frozen at their 1D state).
 
-    Same as ``cross_section_from_sheet_model(sheet_model_from_stack(stack))``; a gate barrier
-    outside 0 to 3 eV is refused (key ``gate_barrier_J``) before the 1D solve.
+    ``sheets="constant-dos"``: the same as
+    ``cross_section_from_sheet_model(sheet_model_from_stack(stack))`` (closed-form sheets, tails
+    frozen); ``"1d-tables"``: every sheet follows its table from gated 1D solves
+    (:func:`tabulated_section`). A gate barrier outside 0 to 3 eV is refused (key
+    ``gate_barrier_J``) before the 1D solve, an unknown sheet model (key ``sheets``) too.
 
-    ``sheet_xc`` (:data:`qhdesign.sheetxc.SHEET_XC_MODELS`): ``"none"`` keeps the closed-form
-    Thomas–Fermi sheets; ``"exchange"`` or ``"exchange+correlation"`` gives every sheet the law
-    of :func:`qhdesign.sheetxc.with_sheet_xc` (its own in-plane exchange, optionally
-    correlation, with dmu/dn floored at ``compressibility_floor`` times pi hbar^2/m*; default
-    :data:`qhdesign.sheetxc.DEFAULT_COMPRESSIBILITY_FLOOR`). Both are checked before the 1D solve.
+    ``sheet_xc`` (:data:`qhdesign.sheetxc.SHEET_XC_MODELS`) adds each constant-DOS sheet's own
+    in-plane exchange (``"exchange"``) or exchange and correlation (``"exchange+correlation"``)
+    to its mu(n) (:func:`qhdesign.sheetxc.with_sheet_xc`), with dmu/dn floored at
+    ``compressibility_floor`` times pi hbar^2/m* (default
+    :data:`qhdesign.sheetxc.DEFAULT_COMPRESSIBILITY_FLOOR`). It needs ``sheets="constant-dos"``:
+    1D-table sheets carry the 1D stage's own exchange-correlation (``models.exchange_correlation``)
+    and are refused with it (key ``sheet_xc``), before the 1D solve.
     """
     from qhdesign.section.model import cross_section_from_sheet_model
-    from qhdesign.sheetxc import DEFAULT_COMPRESSIBILITY_FLOOR, check_sheet_xc, with_sheet_xc
+    from qhdesign.sheetxc import with_sheet_xc
+    from qhdesign.sp1d import solve_bands
+    from qhdesign.sp1d.sheets import sheet_model
 
-    floor = (
-        DEFAULT_COMPRESSIBILITY_FLOOR if compressibility_floor is None else compressibility_floor
-    )
-    check_sheet_xc(sheet_xc, floor)
+    check_sheet_model(sheets)
+    floor = check_sheet_xc_choice(sheets, sheet_xc, compressibility_floor)
 
     lo, hi = GATE_BARRIER_RANGE_J
     if gate_barrier_J is not None and not lo < gate_barrier_J < hi:
@@ -135,10 +159,223 @@ def section_from_stack(
             key="gate_barrier_J",
         )
 
+    bands = solve_bands(stack)
     section = cross_section_from_sheet_model(
-        sheet_model_from_stack(stack), gate_barrier_J=gate_barrier_J
+        sheet_model(stack, bands), gate_barrier_J=gate_barrier_J
     )
+    if sheets == "1d-tables":
+        section = tabulated_section(section, stack, bands)
     return with_sheet_xc(section, sheet_xc, compressibility_floor=floor)
+
+
+def check_sheet_xc_choice(
+    sheets: str, sheet_xc: str, compressibility_floor: float | None = None
+) -> float:
+    """Check the sheets' own exchange-correlation against the sheet model (before any solve);
+    returns the floor to use. Errors are keyed ``sheet_xc`` / ``compressibility_floor``."""
+    from qhdesign.sheetxc import DEFAULT_COMPRESSIBILITY_FLOOR, check_sheet_xc
+
+    floor = (
+        DEFAULT_COMPRESSIBILITY_FLOOR if compressibility_floor is None else compressibility_floor
+    )
+    check_sheet_xc(sheet_xc, floor)
+    if sheet_xc != "none" and sheets != "constant-dos":
+        raise InputError(
+            f"the sheets' own exchange-correlation '{sheet_xc}' is a constant-DOS sheet model "
+            "(sheets constant-dos); 1D-table sheets take theirs from the 1D stage "
+            "(models.exchange_correlation)",
+            key="sheet_xc",
+        )
+    return floor
+
+
+def check_sheet_model(sheets: str) -> str:
+    """The sheet-model name, or a one-line InputError keyed ``sheets``."""
+    if sheets not in SHEET_MODELS:
+        raise InputError(
+            f"'{sheets}' is not a sheet model; allowed: {', '.join(SHEET_MODELS)}", key="sheets"
+        )
+    return sheets
+
+
+def stack_tables(stack, *, step_V: float = TABLE_STEP_V):
+    """Sheet tables of a stack (:func:`qhdesign.sp1d.sheet_tables.sheet_tables`), from 0 V down
+    until every well is empty (at most to :data:`TABLE_LOWEST_V` or the stack's gate limit),
+    cached in this process by the stack's content and the step."""
+    from qhdesign.limits import MIN_GATE_VOLTAGE_V
+    from qhdesign.sp1d.sheet_tables import sheet_tables
+
+    import time
+
+    key = (_stack_key(stack), float(step_V))
+    if key not in _TABLE_CACHE:
+        lowest = max(TABLE_LOWEST_V, MIN_GATE_VOLTAGE_V)
+        _TABLE_CACHE.clear()  # one stack at a time: tables are small but sweeps vary the stack
+        t0 = time.perf_counter()
+        tab = sheet_tables(stack, 0.0, lowest, step_V)
+        _LAST_TABLE_INFO.update(
+            step_V=float(step_V),
+            solves=int(tab.gate_voltage_V.size),
+            build_s=time.perf_counter() - t0,
+        )
+        _TABLE_CACHE[key] = tab
+    return _TABLE_CACHE[key]
+
+
+def _stack_key(stack) -> str:
+    import hashlib
+    import pickle
+
+    try:
+        return hashlib.sha256(pickle.dumps(stack)).hexdigest()
+    except Exception:  # an unpicklable stack (a test double): no caching
+        return f"id-{id(stack)}"
+
+
+def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
+    """Replace every sheet of ``section`` (built from ``bands``) by a law from 1D gated solves.
+
+    Each sheet carries the electrons of its well's own subbands, tails in the barriers included,
+    and reports those inside its layer; the frozen residual keeps only the electrons of no well
+    (classical electrons, subbands of doping layers). The law of a well is its electrons against
+    the potential its sheet has in the column of each gated 1D solve rebuilt the way the FEM
+    stages hold it (sheets at their depths with the solve's electrons, the frozen charge, the
+    solve's own surface potential): the far field under a gate then reproduces the 1D gated
+    solves (docs/models.md, "Sheets that follow the gate")."""
+    from dataclasses import replace
+
+    from qhdesign.sheetlaw import SheetLaw
+    from qhdesign.sp1d.sheets import owned_subband_charge
+
+    tables = stack_tables(stack, step_V=step_V)
+    owned, residual = owned_subband_charge(bands)
+    rho = np.asarray(section.charge_C_m3, dtype=float)
+    if residual is not None and rho.size == residual.size:
+        base = _residual_of(section, bands)
+        rho = rho - (0.0 if base is None else base) + residual
+    section = replace(
+        section,
+        sheets=tuple(replace(s, charge_density_m2=owned[s.name]) for s in section.sheets),
+        charge_C_m3=rho,
+    )
+    # every sheet at its well's upper interface (docs/models.md, "Sheets that follow the gate")
+    tops = {str(w.name): float(w.z_top_m) for w in bands.wells}
+    section = replace(
+        section, sheets=tuple(replace(s, z_m=tops.get(s.name, s.z_m)) for s in section.sheets)
+    )
+    phi_col = _column_potentials(section, tables)
+    sheets = []
+    for k, s in enumerate(section.sheets):
+        order = np.argsort(phi_col[:, k], kind="stable")
+        x = phi_col[order, k]
+        n = tables.electrons_m2[order, k]
+        layer = tables.layer_electrons_m2[order, k]
+        keep = np.concatenate(([True], np.diff(x) > 0))  # drop repeated knots of an empty well
+        x, n, layer = x[keep], np.maximum(n[keep], 0.0), layer[keep]
+        mono = _isotonic(n)
+        worst = float(np.max(np.abs(mono - n))) / max(float(n.max()), 1.0)
+        if worst > TABLE_MONOTONE_TOL:
+            raise InputError(
+                f"the 1D table of well '{s.name}' is not monotone in its sheet potential "
+                f"(off by {worst:.2%} of its largest density; allowed {TABLE_MONOTONE_TOL:.1%})",
+                key="sheets",
+            )
+        n = mono
+        law = SheetLaw(x, n, absolute=True, label="1D table", reported_m2=np.maximum(layer, 0.0))
+        sheets.append(replace(s, law=law))
+    return replace(section, sheets=tuple(sheets))
+
+
+def sheet_model_info(section) -> dict:
+    """What the sheets of ``section`` are, for a JSON report: the model name and, per law sheet,
+    its label, depth and knot count; for 1D tables the step and the cost of the last build."""
+    laws = [s for s in section.sheets if getattr(s, "law", None) is not None]
+    if not laws:
+        return {"model": "constant-dos"}
+    labels = sorted({s.law.label for s in laws})
+    out = {
+        "model": "1d-tables" if labels == ["1D table"] else "+".join(labels),
+        "wells": {
+            s.name: {
+                "law": s.law.label,
+                "sheet_depth_m": float(s.z_m),
+                "knots": int(s.law.x_V.size),
+                "far_charge_m2": float(s.far_charge_m2),
+            }
+            for s in laws
+        },
+    }
+    if "1D table" in labels:
+        out["table_step_V"] = _LAST_TABLE_INFO.get("step_V")
+        out["table_solves"] = _LAST_TABLE_INFO.get("solves")
+        out["table_build_s"] = _LAST_TABLE_INFO.get("build_s")
+    return out
+
+
+def _isotonic(y: np.ndarray) -> np.ndarray:
+    """The non-decreasing sequence closest to ``y`` in least squares (pool adjacent violators;
+    Barlow, Bartholomew, Bremner, Brunk, Statistical Inference under Order Restrictions, 1972)."""
+    vals: list[float] = []
+    counts: list[int] = []
+    for v in np.asarray(y, dtype=float):
+        vals.append(float(v))
+        counts.append(1)
+        while len(vals) > 1 and vals[-2] > vals[-1]:
+            c = counts[-2] + counts[-1]
+            vals[-2] = (vals[-2] * counts[-2] + vals[-1] * counts[-1]) / c
+            counts[-2] = c
+            vals.pop()
+            counts.pop()
+    return np.repeat(vals, counts)
+
+
+def _column_potentials(section, tables) -> np.ndarray:
+    """phi (V) at every sheet depth in the column of each tabulated 1D solve, rebuilt as the FEM
+    stages hold it: sheets with the solve's electrons, the section's frozen charge lumped on the
+    1D nodes, phi at the surface from the solve, the section's bottom. Shape (M, W)."""
+    from qhdesign.section.model import lump_volume_charge, solve_column
+
+    z_sheet = np.array([s.z_m for s in section.sheets])
+    edges = np.asarray(section.charge_edges_m, dtype=float)
+    layer_z = np.asarray(section.layer_z_m, dtype=float)
+    levels = np.unique(np.concatenate((edges, z_sheet, layer_z)))
+    levels = levels[(levels >= layer_z[0]) & (levels <= layer_z[-1])]
+    mid = 0.5 * (levels[1:] + levels[:-1])
+    layer = np.clip(np.searchsorted(layer_z, mid) - 1, 0, layer_z.size - 2)
+    eps = np.asarray(section.layer_permittivity, dtype=float)[layer]
+    q_fixed = lump_volume_charge(
+        levels,
+        section.charge_z_m,
+        section.charge_C_m3,
+        float(levels[0]),
+        float(levels[-1]),
+        edges if edges.size else None,
+    )
+    at = np.array([int(np.argmin(np.abs(levels - z))) for z in z_sheet])
+    out = np.zeros((tables.gate_voltage_V.size, z_sheet.size))
+    from scipy import constants as sc
+
+    for m in range(tables.gate_voltage_V.size):
+        q = q_fixed.copy()
+        np.add.at(q, at, -sc.e * tables.electrons_m2[m])
+        phi = solve_column(
+            levels,
+            eps,
+            q,
+            top="dirichlet",
+            top_potential_V=float(tables.surface_potential_V[m]),
+            bottom=section.bottom,
+            bottom_potential_V=section.bottom_potential_V,
+        )
+        out[m] = phi[at]
+    return out
+
+
+def _residual_of(section, bands):
+    """The residual electron charge the constant-DOS sheet model put into the frozen charge."""
+    from qhdesign.sp1d.sheets import layer_residual_charge
+
+    return layer_residual_charge(bands)
 
 
 def _require_primary(stack) -> None:
@@ -179,14 +416,17 @@ def solve_island(source, geometry=None, settings=None, *, comm=None, **kwargs: A
     return solve(source, geometry, settings, comm=comm, **kwargs)
 
 
-def solve_island_operating(source, device, settings=None, **kwargs: Any):
+def solve_island_operating(
+    source, device, settings=None, *, sheets: str = DEFAULT_SHEET_MODEL, **kwargs: Any
+):
     """The island at its operating point (:func:`qhdesign.island.stage.solve_island_operating`)
     for a stack as well.
 
     For a :class:`~qhdesign.stack.Stack` the 1D stage runs once: its sheet model gives the
     cross-section, and its disorder estimate (:func:`qhdesign.sp1d.scattering`, default options)
     gives each well's quantum lifetime for the Landau-level widths, unless ``settings`` gives a
-    width or one lifetime. A :class:`~qhdesign.section.model.CrossSection` passes through.
+    width or one lifetime; ``sheets`` picks the sheet model as in :func:`section_from_stack`. A
+    :class:`~qhdesign.section.model.CrossSection` passes through.
     """
     from qhdesign.island.stage import OperatingSettings
     from qhdesign.island.stage import solve_island_operating as solve
@@ -201,8 +441,12 @@ def solve_island_operating(source, device, settings=None, **kwargs: Any):
         from qhdesign.sp1d import solve_bands
         from qhdesign.sp1d.sheets import sheet_model
 
+        check_sheet_model(sheets)
+        check_sheet_xc_choice(sheets, st.sheet_xc, st.compressibility_floor)
         bands = solve_bands(stack)
         section = cross_section_from_sheet_model(sheet_model(stack, bands))
+        if sheets == "1d-tables":
+            section = tabulated_section(section, stack, bands)
         if st.level_width_J is None and st.quantum_lifetime_s is None:
             from qhdesign.sp1d.scattering import scattering
 

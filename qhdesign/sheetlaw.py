@@ -47,12 +47,17 @@ class SheetLaw:
         True if x is the potential in the 1D convention (offset 0 for an empty well).
     label
         What the law is (for reports): e.g. ``"1D table"``, ``"TF + HF exchange"``.
+    reported_m2
+        Optional density to report at the knots (m^-2) when it differs from the sheet's charge:
+        a 1D table's sheet carries the electrons of the well's subbands, tails included, and
+        reports those inside the well layer. None: report ``density_m2``.
     """
 
     x_V: np.ndarray
     density_m2: np.ndarray
     absolute: bool = False
     label: str = "tabulated"
+    reported_m2: np.ndarray | None = None
     _pchip: object = field(init=False, repr=False)
 
     def __post_init__(self):
@@ -69,6 +74,26 @@ class SheetLaw:
         object.__setattr__(self, "x_V", x)
         object.__setattr__(self, "density_m2", n)
         object.__setattr__(self, "_pchip", PchipInterpolator(x, n, extrapolate=False))
+        if self.reported_m2 is not None:
+            r = np.asarray(self.reported_m2, dtype=float)
+            if r.shape != x.shape or not np.all(np.isfinite(r)):
+                raise InputError("one reported density per knot", key="reported_m2")
+            object.__setattr__(self, "reported_m2", r)
+
+    def reported(self, x) -> np.ndarray:
+        """The density to report at x (m^-2): ``reported_m2`` scaled by the charge the law
+        holds there (the ratio interpolated), else the density itself."""
+        n = self.density(x)
+        if self.reported_m2 is None:
+            return n
+        # the ratio where the charge is well defined (above 1e-4 of its largest value), held
+        # at its first such value below (an emptying well keeps the shape it had)
+        top = self.density_m2 > 1e-4 * float(self.density_m2.max())
+        ratio = np.ones_like(self.x_V)
+        ratio[top] = self.reported_m2[top] / self.density_m2[top]
+        if np.any(top):
+            ratio[~top] = ratio[top][0]
+        return n * np.interp(np.asarray(x, dtype=float), self.x_V, ratio)
 
     @property
     def top_slope(self) -> float:
@@ -105,3 +130,24 @@ class SheetLaw:
         i = int(np.searchsorted(self.density_m2, n, side="left"))
         a, b = self.x_V[max(i - 1, 0)], self.x_V[i]
         return float(brentq(lambda x: float(self.density(x)) - n, a, b, xtol=1e-15, rtol=1e-14))
+
+    def inverse_reported(self, n_m2: float) -> float:
+        """The x (V) at which the law reports ``n_m2`` (> 0); the reported density rises with x
+        wherever the charge does."""
+        from scipy.optimize import brentq
+
+        if self.reported_m2 is None:
+            return self.inverse(n_m2)
+        n = float(n_m2)
+        if not n > 0:
+            raise InputError("a sheet law cannot place a reported density <= 0", key="n_m2")
+        lo = float(self.x_V[0])
+        hi = float(self.x_V[-1])
+        step = max(hi - lo, 1e-3)
+        while float(self.reported(hi)) < n:
+            if self.top_slope <= 0:
+                raise InputError("the sheet law ends flat below this density", key="n_m2")
+            hi += step
+        if float(self.reported(lo)) >= n:
+            return lo
+        return float(brentq(lambda x: float(self.reported(x)) - n, lo, hi, xtol=1e-15, rtol=1e-14))

@@ -387,6 +387,13 @@ def with_sheet_xc(
     _check_floor(compressibility_floor)
     if sheet_xc == "none":
         return section
+    if any(getattr(getattr(s, "law", None), "absolute", False) for s in section.sheets):
+        raise InputError(
+            "the sheets already follow tables from gated 1D solves, which carry the 1D stage's "
+            "own exchange-correlation; the sheets' own exchange-correlation needs constant-DOS "
+            "sheets",
+            key="sheet_xc",
+        )
     top = _table_top(section)
     sheets = []
     for s in section.sheets:

@@ -326,6 +326,14 @@ Surface = Annotated[
     str | None,
     typer.Option("--surface", help="Exposed surface: frozen (charge) or pinned (Fermi level)."),
 ]
+Sheets = Annotated[
+    str,
+    typer.Option(
+        "--sheets",
+        help="Sheet model of the wells: 1d-tables (density and tails follow the gate, from "
+        "gated 1D solves; default) or constant-dos (closed-form sheets, tails frozen).",
+    ),
+]
 GateBarrier = Annotated[
     str | None,
     typer.Option(

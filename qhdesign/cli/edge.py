@@ -18,6 +18,7 @@ from .common import (
     GateBarrier,
     JsonOut,
     Refine,
+    Sheets,
     StackFile,
     Surface,
     guarded,
@@ -32,19 +33,28 @@ def _load_section(
     stack_file: Path,
     surface: str | None,
     gate_barrier: str | None,
+    sheets: str = "1d-tables",
     sheet_xc: str = "none",
     compressibility_floor: float | None = None,
 ):
-    from qhdesign.pipeline import exposed_surface_model, section_from_stack
+    from qhdesign.pipeline import (
+        check_sheet_model,
+        check_sheet_xc_choice,
+        exposed_surface_model,
+        section_from_stack,
+    )
     from qhdesign.stack import load_stack
 
+    check_sheet_model(sheets)  # refuse a bad choice before the 1D solve
+    check_sheet_xc_choice(sheets, sheet_xc, compressibility_floor)
     stack = load_stack(stack_file)
     barrier = option_quantity(gate_barrier, "energy", "--gate-barrier")
-    if surface is not None:  # refuse a bad choice before the 1D solve
+    if surface is not None:
         exposed_surface_model(stack, None, surface)
     section = section_from_stack(
         stack,
         gate_barrier_J=barrier,
+        sheets=sheets,
         sheet_xc=sheet_xc,
         compressibility_floor=compressibility_floor,
     )
@@ -52,7 +62,7 @@ def _load_section(
 
 
 def _sheet_xc_report(section, sheet_xc: str, compressibility_floor: float | None) -> dict:
-    """The ``sheet_xc`` block of the JSON: model, reference, floor, each sheet's law."""
+    """The ``sheet_xc`` block of the JSON: model, reference, floor, what it does to each sheet."""
     from qhdesign.sheetxc import DEFAULT_COMPRESSIBILITY_FLOOR, describe_sheet_xc
 
     floor = (
@@ -75,13 +85,19 @@ def _echo_sheet_xc(xc: dict) -> None:
 
 #: The sheets' own exchange-correlation options, shared by ``edge`` and ``pinchoff``.
 SHEET_XC_HELP = (
-    "The sheets' own in-plane exchange-correlation: none (Thomas-Fermi), exchange (2D "
-    "Hartree-Fock), exchange+correlation (plus the Attaccalite et al. 2002 fit)."
+    "With --sheets constant-dos: the sheets' own in-plane exchange-correlation: none, exchange "
+    "(2D Hartree-Fock), exchange+correlation (plus the Attaccalite et al. 2002 fit)."
 )
 FLOOR_HELP = (
     "With --sheet-xc: floor on each sheet's dmu/dn as a fraction of pi hbar^2/m* "
     "(0 < f <= 1, default 0.1), where exchange makes it negative."
 )
+
+
+def _sheet_info(section) -> dict:
+    from qhdesign.pipeline import sheet_model_info
+
+    return sheet_model_info(section)
 
 
 #: Argument names of the 2D physics (error keys) -> options of ``edge`` and ``pinchoff``.
@@ -99,6 +115,7 @@ EDGE_OPTIONS = {
     "spin_gap_J": "--spin-gap",
     "g_effective": "--g-effective",
     "strip_min_width_lB": "--strip-min-lb",
+    "sheets": "--sheets",
     "sheet_xc": "--sheet-xc",
     "compressibility_floor": "--compressibility-floor",
 }
@@ -110,6 +127,7 @@ PINCHOFF_OPTIONS = {
     "gate_barrier_J": "--gate-barrier",
     "surface": "--surface",
     "refine": "--refine",
+    "sheets": "--sheets",
     "sheet_xc": "--sheet-xc",
     "compressibility_floor": "--compressibility-floor",
 }
@@ -286,11 +304,12 @@ def register(app: typer.Typer) -> None:
         strip_min_lb: float = typer.Option(
             1.0, "--strip-min-lb", help="Flag strips narrower than this many magnetic lengths."
         ),
+        surface: Surface = None,
+        sheets: Sheets = "1d-tables",
         sheet_xc: str = typer.Option("none", "--sheet-xc", help=SHEET_XC_HELP),
         compressibility_floor: float | None = typer.Option(
             None, "--compressibility-floor", help=FLOOR_HELP
         ),
-        surface: Surface = None,
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
         json_out: JsonOut = None,
@@ -326,7 +345,7 @@ def register(app: typer.Typer) -> None:
             strip_min_width_lB=strip_min_lb,
         )
         stack, section, surf = _load_section(
-            stack_file, surface, gate_barrier, sheet_xc, compressibility_floor
+            stack_file, surface, gate_barrier, sheets, sheet_xc, compressibility_floor
         )
         xc = _sheet_xc_report(section, sheet_xc, compressibility_floor)
         mesh = MeshOptions(refine=refine)
@@ -347,7 +366,13 @@ def register(app: typer.Typer) -> None:
         if root and json_out is not None:
             from qhdesign.io import atomic_write_json
 
-            data = {"stack": str(stack_file), "surface": surf, "sheet_xc": xc, **res.to_dict()}
+            data = {
+                "stack": str(stack_file),
+                "surface": surf,
+                "sheets": _sheet_info(section),
+                "sheet_xc": xc,
+                **res.to_dict(),
+            }
             atomic_write_json(json_out, data)
         if root and csv_out is not None:
             from qhdesign.io import atomic_write_text
@@ -376,11 +401,12 @@ def register(app: typer.Typer) -> None:
         v_start: str = typer.Option("0", "--from", help="First gate voltage of the sweep (V)."),
         v_stop: str = typer.Option("-5", "--to", help="Last gate voltage of the sweep (V)."),
         v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
+        surface: Surface = None,
+        sheets: Sheets = "1d-tables",
         sheet_xc: str = typer.Option("none", "--sheet-xc", help=SHEET_XC_HELP),
         compressibility_floor: float | None = typer.Option(
             None, "--compressibility-floor", help=FLOOR_HELP
         ),
-        surface: Surface = None,
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
         json_out: JsonOut = None,
@@ -414,7 +440,7 @@ def register(app: typer.Typer) -> None:
             )
         check_refine(refine)
         stack, section, surf = _load_section(
-            stack_file, surface, gate_barrier, sheet_xc, compressibility_floor
+            stack_file, surface, gate_barrier, sheets, sheet_xc, compressibility_floor
         )
         xc = _sheet_xc_report(section, sheet_xc, compressibility_floor)
         res = solve_pinchoff(
@@ -452,7 +478,13 @@ def register(app: typer.Typer) -> None:
 
             atomic_write_json(
                 json_out,
-                {"stack": str(stack_file), "surface": surf, "sheet_xc": xc, **res.to_dict()},
+                {
+                    "stack": str(stack_file),
+                    "surface": surf,
+                    "sheets": _sheet_info(section),
+                    "sheet_xc": xc,
+                    **res.to_dict(),
+                },
             )
         if csv_out is not None:
             from qhdesign.io import atomic_write_text
@@ -494,7 +526,15 @@ def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot,
     if json_out is not None:
         from qhdesign.io import atomic_write_json
 
-        atomic_write_json(json_out, {"stack": str(stack.source), "sheet_xc": xc, **res.to_dict()})
+        atomic_write_json(
+            json_out,
+            {
+                "stack": str(stack.source),
+                "sheets": _sheet_info(section),
+                "sheet_xc": xc,
+                **res.to_dict(),
+            },
+        )
     if csv_out is not None:
         from qhdesign.io import atomic_write_text
 

@@ -104,8 +104,10 @@ def run(stack_file: Path, o: dict) -> None:
 
     check_refine(refine, source="option --refine")
     stack = load_stack(stack_file)
+    # the sheets' own exchange-correlation is a constant-DOS sheet model (docs/island.md, §1)
+    sheets = {"sheets": "constant-dos"} if settings.sheet_xc != "none" else {}
     res = solve_island_operating(
-        stack, device, settings, fields_T=fields, mesh_options=MeshOptions(refine=refine)
+        stack, device, settings, fields_T=fields, mesh_options=MeshOptions(refine=refine), **sheets
     )
     MPI, _ = load()
     if MPI.COMM_WORLD.rank != 0:

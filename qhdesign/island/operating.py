@@ -31,7 +31,7 @@ from scipy import constants as sc
 from qhdesign.errors import InputError
 from qhdesign.section.edge import VOLTAGE_STEP_V, _check_gate_voltage, _permittivity_at, _primary
 from qhdesign.section.geometry import GateLayout, MeshOptions
-from qhdesign.section.model import CrossSection, _inverse_tf
+from qhdesign.section.model import CrossSection, sheet_level_V
 from qhdesign.section.profile import EDGE_FRACTION, crossing_from_bulk, strip_width
 from qhdesign.section.solver import CrossSectionSolver, FieldSolution, SolverOptions
 
@@ -211,8 +211,8 @@ def edge_strip(
     eps_r
         Relative permittivity at the primary well.
     potential
-        Optional ``(phi_V, energy_eV, dos_J_m2, kT_J)``: the sheet potential on the same nodes and
-        its Thomas–Fermi parameters. Density levels are then located on the potential, which is
+        Optional ``(phi_V, energy_eV, sheet, kT_J)``: the sheet potential on the same nodes, its
+        calibrated energy, the sheet (a SheetSpec, or its DOS for a closed-form sheet) and k_B T. Density levels are then located on the potential, which is
         piecewise linear on the mesh, instead of on n(r), which has a kink at the edge: the
         crossing is the discrete solution's own and moves smoothly with the gate voltage (as the
         edge stage does).
@@ -235,8 +235,8 @@ def edge_strip(
     def at(level: float) -> float | None:
         if potential is None:
             return _from_centre(r, n, level)
-        phi, energy_eV, dos, kT = potential
-        return _from_centre(r, phi, energy_eV + _inverse_tf(level, dos, kT) / sc.e)
+        phi, energy_eV, sheet, kT = potential
+        return _from_centre(r, phi, sheet_level_V(sheet, energy_eV, level, kT))
 
     r_edge = at(EDGE_FRACTION * bulk_density_m2)
     if r_edge is None:
@@ -304,7 +304,7 @@ class OperatingPoint:
         ip = self.primary_index
         p = self.section.sheets[ip]
         kT = sc.k * self.section.temperature_K
-        return (phi, float(self.solution.sheet_energy_eV[ip]), p.dos_J_m2, kT)
+        return (phi, float(self.solution.sheet_energy_eV[ip]), p, kT)
 
     def strip(self, field_T: float, filling: float, strip_gap_J: float) -> EdgeStrip:
         """The interfering edge at a field (pure post-processing of the solve)."""
@@ -353,12 +353,8 @@ def _sheet_states(sol: FieldSolution, section: CrossSection, gate: tuple[float, 
         rc = None
         if cut and s.density_m2 > 0:
             # located on the sheet potential (piecewise linear), as the edge stage does
-            level = (
-                sol.sheet_energy_eV[i]
-                + _inverse_tf(
-                    EDGE_FRACTION * s.density_m2, s.dos_J_m2, sc.k * section.temperature_K
-                )
-                / sc.e
+            level = sheet_level_V(
+                s, sol.sheet_energy_eV[i], EDGE_FRACTION * s.density_m2, sc.k * section.temperature_K
             )
             rc = _from_centre(r, sol.sheet_potential(i), level)
         out.append(

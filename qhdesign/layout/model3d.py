@@ -110,6 +110,12 @@ class LayoutSolver:
         from qhdesign.fem.backend import load
 
         MPI, _ = load()
+        if any(getattr(s, "law", None) is not None for s in section.sheets):
+            raise InputError(
+                "the 3D stage models closed-form Thomas–Fermi sheets; build its cross-section "
+                "with the constant-dos sheet model",
+                key="sheets",
+            )
         self.section = section
         self.layout = layout
         self.options = options or Layout3DOptions()

@@ -252,7 +252,7 @@ def solve_layout(
     else:
         from qhdesign.pipeline import section_from_stack
 
-        section = section_from_stack(source)
+        section = section_from_stack(source, sheets="constant-dos")  # closed-form sheets in 3D
     t_1d = time.perf_counter() - t0
     solver = LayoutSolver(section, layout, options, comm=comm)
     its = solver.solve()

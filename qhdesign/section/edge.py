@@ -22,7 +22,7 @@ from qhdesign.limits import MIN_GATE_VOLTAGE_V, check_field, check_gate_voltage 
 from qhdesign.results import Table, flatten
 
 from .geometry import GateLayout, MeshOptions
-from .model import CrossSection, _inverse_tf
+from .model import CrossSection, sheet_level_V
 from .profile import (
     EDGE_FRACTION,
     STRIP_MIN_WIDTH_LB,
@@ -296,7 +296,7 @@ def analyse_edge(sol: FieldSolution, section: CrossSection, edge_m: float = 0.0)
 
         def x_at(level_m2: float, sign: float = 1.0, energy=energy, s=s, phi=phi):
             # sign -1: an accumulation edge, where n falls from the gate towards the bulk
-            target = energy + _inverse_tf(level_m2, s.dos_J_m2, kT) / sc.e
+            target = sheet_level_V(s, energy, level_m2, kT)
             return crossing_from_bulk(sol.x_m, sign * phi, sign * target)
 
         edge = x_at(EDGE_FRACTION * bulk) if cut and bulk > 0 else None

@@ -39,6 +39,7 @@ __all__ = [
     "SheetSpec",
     "cross_section_from_sheet_model",
     "lump_volume_charge",
+    "sheet_level_V",
     "solve_column",
     "thomas_fermi_density",
 ]
@@ -61,6 +62,13 @@ class SheetSpec:
     subband_energy_J
         Lowest subband energy relative to the Fermi level in the 1D solve (J); used to place an
         empty well (density 0), whose energy a density cannot fix.
+    law
+        A :class:`qhdesign.sheetlaw.SheetLaw` n(phi - E) replacing the closed-form Thomas–Fermi
+        sheet (constant DOS), or None. The offset E is calibrated like E_w; an absolute law (a
+        table from gated 1D solves) keeps E = 0 for an empty well.
+    charge_density_m2
+        The far-field electrons of the sheet's charge (m^-2) if they differ from the reported
+        ``density_m2`` (a law sheet with a reported column); None: the same.
     """
 
     name: str
@@ -69,6 +77,15 @@ class SheetSpec:
     dos_J_m2: float
     density_m2: float
     subband_energy_J: float = float("nan")
+    law: object | None = None
+    charge_density_m2: float | None = None
+
+    @property
+    def far_charge_m2(self) -> float:
+        """Electrons the sheet carries in the far field (m^-2): ``charge_density_m2`` when the
+        sheet's charge differs from the density it reports (a 1D table sheet carries its
+        subbands' tails as well), else ``density_m2``."""
+        return self.density_m2 if self.charge_density_m2 is None else self.charge_density_m2
 
 
 @dataclass(frozen=True, eq=False)
@@ -233,6 +250,35 @@ def _inverse_tf(n_m2: float, dos_J_m2: float, kT_J: float) -> float:
     return kT_J * np.log(np.expm1(y))
 
 
+def _law_offset(s: SheetSpec, phi_V: float) -> float:
+    """Offset E (V) of a sheet law: the law holds the 1D density at the far-field potential.
+
+    An empty (or nearly empty, below 1e-3 of the law's largest tabulated density) well keeps an
+    absolute law's own potential (E = 0) and places a relative law by its subband energy."""
+    law = s.law
+    floor = float(law.density_m2[0]) + 1e-3 * float(law.density_m2[-1] - law.density_m2[0])
+    if s.far_charge_m2 > floor:
+        return float(phi_V - law.inverse(s.far_charge_m2))
+    if law.absolute:
+        return 0.0
+    if np.isfinite(s.subband_energy_J):
+        return float(phi_V + s.subband_energy_J / sc.e)
+    raise InputError(
+        f"well '{s.name}' is empty in the 1D solve and has no subband energy to place it"
+    )
+
+
+def sheet_level_V(sheet, energy_eV: float, n_m2: float, kT_J: float) -> float:
+    """The sheet potential (V) at which ``sheet`` reports the density ``n_m2`` (> 0), given its
+    calibrated energy/offset (V): for a closed-form sheet E_w + mu_TF(n)/e, for a law sheet
+    E + the law's inverse of its reported density. ``sheet`` may be a bare DOS (J^-1 m^-2)."""
+    law = getattr(sheet, "law", None)
+    if law is not None:
+        return float(energy_eV + law.inverse_reported(n_m2))
+    dos = float(getattr(sheet, "dos_J_m2", sheet))
+    return float(energy_eV + _inverse_tf(n_m2, dos, kT_J) / sc.e)
+
+
 def lump_volume_charge(
     levels_m: np.ndarray,
     cell_centres_m: np.ndarray,
@@ -375,7 +421,7 @@ def calibrate(
         idx.append(k)
     q = q_fixed.copy()
     for s, k in zip(section.sheets, idx, strict=True):
-        q[k] -= sc.e * s.density_m2
+        q[k] -= sc.e * s.far_charge_m2
     sigma = section.surface_charge_C_m2 if exposed == "frozen" else 0.0
     correction = 0.0
     if exposed == "frozen" and section.bottom == "zero_field":
@@ -420,6 +466,9 @@ def calibrate(
     )
     energy = []
     for s, k in zip(section.sheets, idx, strict=True):
+        if s.law is not None:
+            energy.append(_law_offset(s, phi[k]))
+            continue
         if s.density_m2 > 1e-6 * s.dos_J_m2 * kT:
             mu = _inverse_tf(s.density_m2, s.dos_J_m2, kT)
         elif np.isfinite(s.subband_energy_J):

@@ -318,13 +318,32 @@ class CrossSectionSolver:
             F += c_d * (u - self.v_gate) * v * (1.0 if wr is None else wr) * ds(TAGS["gate"])
         self.E = []
         self.D = []
+        # sheets with a tabulated law: nodal density and slope (vertex quadrature), refreshed
+        # from phi before every residual and Jacobian assembly; the Jacobian gets their slope
+        dS_n = forms.sheet_measure(msh, ft, 0)
+        du = ufl.TrialFunction(self.V)
+        J_laws = []
+        self._laws: list[tuple[int, np.ndarray, object, object]] = []
         for i, s in enumerate(self.section.sheets):
             E = fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
             D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
-            density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
-            F += forms.sheet(density, v, dS_v(sheet_tags[i]), r=wr)
             self.E.append(E)
             self.D.append(D)
+            if s.law is not None:
+                n_fun = fem.Function(self.V)
+                dn_fun = fem.Function(self.V)
+                dofs = fem.locate_dofs_topological(self.V, 1, ft.find(sheet_tags[i]))
+                self._laws.append((i, dofs, n_fun, dn_fun))
+                F += forms.sheet(n_fun("+"), v, dS_n(sheet_tags[i]), r=wr)
+                J_laws.append(forms.sheet(dn_fun("+") * du("+"), v, dS_n(sheet_tags[i]), r=wr))
+                continue
+            density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
+            F += forms.sheet(density, v, dS_v(sheet_tags[i]), r=wr)
+        J = None
+        if J_laws:
+            J = ufl.derivative(F, u, du)
+            for term in J_laws:
+                J = J + term
         use_lu = self.options.linear_solver == "lu" or (
             self.options.linear_solver == "auto" and self.num_dofs <= self.options.direct_max_dofs
         )
@@ -335,12 +354,51 @@ class CrossSectionSolver:
             F,
             u,
             bcs=[self.bc],
+            J=J,
             petsc_options_prefix=petsc.options_prefix("section"),
             petsc_options=opts,
         )
         snes = self.problem.solver
+        if self._laws:
+            self._hook_laws(snes)
         self._history: list[float] = []
         snes.setMonitor(lambda _snes, _it, norm: self._history.append(float(norm)))
+
+    def _update_laws(self) -> None:
+        """Nodal density (nm^-2) and slope (nm^-2/V) of every law sheet from the current phi
+        (owned and ghost dofs: phi's ghosts are current, so no scatter is needed)."""
+        phi = self.phi.x.array
+        for i, dofs, n_fun, dn_fun in self._laws:
+            law = self.section.sheets[i].law
+            x = phi[dofs] - float(self.E[i].value)
+            n_fun.x.array[dofs] = law.density(x) * AREA_SCALE
+            dn_fun.x.array[dofs] = law.slope(x) * AREA_SCALE
+
+    def _hook_laws(self, snes) -> None:
+        """Refresh the law sheets before DOLFINx assembles the residual or the Jacobian at x."""
+        from dolfinx.fem.petsc import assign
+        from dolfinx.la.petsc import _ghost_update
+        from petsc4py import PETSc
+
+        b, (f_func, f_args, f_kw) = snes.getFunction()
+        A, P, (j_func, j_args, j_kw) = snes.getJacobian()
+
+        def load(x):
+            _ghost_update(x, PETSc.InsertMode.INSERT, PETSc.ScatterMode.FORWARD)
+            assign(x, self.phi)
+            self.phi.x.scatter_forward()
+            self._update_laws()
+
+        def residual(snes_, x, b_, *a, **kw):
+            load(x)
+            return f_func(snes_, x, b_, *a, **kw)
+
+        def jacobian(snes_, x, A_, P_, *a, **kw):
+            load(x)
+            return j_func(snes_, x, A_, P_, *a, **kw)
+
+        snes.setFunction(residual, b, args=f_args, kargs=f_kw)
+        snes.setJacobian(jacobian, A, P, args=j_args, kargs=j_kw)
 
     def radial_weight(self):
         """The weight of every integrand: r / r_max (UFL) if axisymmetric, else None."""
@@ -470,6 +528,9 @@ class CrossSectionSolver:
         dens = []
         for i, s in enumerate(self.section.sheets):
             row = grid_phi[self.grid.sheet_level[i]]
+            if s.law is not None:
+                dens.append(s.law.reported(row - self.calibration["energy_eV"][i]))
+                continue
             e_rel = (row - self.calibration["energy_eV"][i]) * sc.e
             dens.append(thomas_fermi_density(e_rel, s.dos_J_m2, kT))
         return FieldSolution(

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import constants as sc
 
-from .analysis import subband_wells
+from .analysis import cell_electrons, per_layer, subband_wells
 from .charge import subband_dos
 from .options import BandsOptions
 from .solve import _check_temperature, check_gate_voltage, freeze_out, solve_at
@@ -41,6 +41,15 @@ class SheetTable:
         Electrons of the well's subbands (m^-2), shape (M,).
     centroid_m
         Their charge centroid (m); for an empty well the lowest subband's centroid, shape (M,).
+    sheet_potential_V
+        The potential at ``reference_z_m`` that a column holding the well's electrons as one
+        sheet at that depth (everything else unchanged) would have under the gate (V), shape (M,):
+        ``potential_V`` - (e/eps_0) sum over the electrons above the depth of
+        their distance to it in units of dz/eps_r (docs/models.md, "Sheets that follow the
+        gate"). A 2D stage that puts the well's charge on one sheet reads this potential.
+    layer_density_m2
+        Electrons inside the well layer (m^-2), the 1D stage's per-well density (tails of its
+        subbands in the barriers excluded, other electrons in the layer included), shape (M,).
     """
 
     name: str
@@ -49,6 +58,13 @@ class SheetTable:
     potential_V: np.ndarray
     density_m2: np.ndarray
     centroid_m: np.ndarray
+    layer_density_m2: np.ndarray | None = None
+    sheet_potential_V: np.ndarray | None = None
+
+    @property
+    def sheet_law_potential_V(self) -> np.ndarray:
+        """The potential a sheet model should read (V): ``sheet_potential_V`` if tabulated."""
+        return self.potential_V if self.sheet_potential_V is None else self.sheet_potential_V
 
     def density(self, phi_V):
         """Sheet density (m^-2) at potential ``phi_V`` (linear interpolation; clamped at the
@@ -62,11 +78,19 @@ class SheetTable:
 
 @dataclass(frozen=True)
 class SheetTables:
-    """Tables of all wells and the gate voltages of the 1D solves they come from."""
+    """Tables of all wells and the gate voltages of the 1D solves they come from.
+
+    ``surface_potential_V`` (shape (M,)) is phi at the semiconductor surface of each solve and
+    ``electrons_m2`` (shape (M, W)) the electrons of every well's subbands (``layer_electrons_m2``:
+    those inside each well layer), all in the order of
+    ``gate_voltage_V`` (the sweep order), for a model that rebuilds the column of each solve."""
 
     gate_voltage_V: np.ndarray
     wells: tuple[SheetTable, ...]
     temperature_K: float
+    surface_potential_V: np.ndarray | None = None
+    electrons_m2: np.ndarray | None = None
+    layer_electrons_m2: np.ndarray | None = None
 
     def well(self, name: str) -> SheetTable:
         return next(w for w in self.wells if w.name == name)
@@ -82,6 +106,12 @@ class SheetTables:
                     "potential_V": w.potential_V.tolist(),
                     "density_m2": w.density_m2.tolist(),
                     "centroid_m": w.centroid_m.tolist(),
+                    "sheet_potential_V": None
+                    if w.sheet_potential_V is None
+                    else w.sheet_potential_V.tolist(),
+                    "layer_density_m2": None
+                    if w.layer_density_m2 is None
+                    else w.layer_density_m2.tolist(),
                 }
                 for w in self.wells
             },
@@ -114,6 +144,34 @@ def _well_charges(layout, st, wells):
             lowest = mine[np.argmin(st.energies_J[mine])]
             cen[k] = float(cell[lowest] @ zc)
     return dens, cen
+
+
+def _sheet_offsets(layout, st, wells, z_ref):
+    """Potential change (V) at each well's reference depth when its own electrons are moved onto
+    one sheet there, the gate above holding its potential and no field below the column:
+    -(e/eps_0) sum_i n_i R(z_i -> z_ref) over the cells above z_ref, n_i the electrons of the
+    well's subbands in cell i (m^-2) and R the path integral of dz/eps_r."""
+    dev = layout.device
+    kT = sc.k * st.temperature_K
+    occ = subband_dos(st.subband_mass) * kT * np.logaddexp(0.0, -st.energies_J / kT)
+    weights = subband_wells(layout, st.psi)[:, list(wells)]
+    owner = np.argmax(weights, axis=1)
+    h = dev.h
+    zc = dev.centres
+    p2 = st.psi**2
+    cell = 0.5 * (p2[:, :-1] + p2[:, 1:]) * h
+    r_nodes = np.concatenate(([0.0], np.cumsum(h / dev.eps)))  # int dz/eps_r from the top node
+    r_centre = r_nodes[:-1] + 0.5 * h / dev.eps
+    out = np.zeros(len(wells))
+    for k in range(len(wells)):
+        mine = np.nonzero(owner == k)[0]
+        if mine.size == 0:
+            continue
+        n_cell = occ[mine] @ cell[mine]
+        above = zc < z_ref[k]
+        r_ref = float(np.interp(z_ref[k], dev.z, r_nodes))
+        out[k] = -sc.e / sc.epsilon_0 * float(n_cell[above] @ (r_ref - r_centre[above]))
+    return out
 
 
 def sheet_tables(
@@ -162,7 +220,8 @@ def sheet_tables(
     layout = frozen.layout
     wells = layout.well_layers
     z = layout.device.z
-    rows_phi, rows_n, rows_c, used = [], [], [], []
+    rows_phi, rows_n, rows_c, rows_l, rows_s, used = [], [], [], [], [], []
+    rows_top: list[float] = []
     prev: list[np.ndarray] = []
     last = None
     z_ref = None
@@ -189,14 +248,19 @@ def sheet_tables(
                 0.5 * (layout.layer_z[np.array(wells)] + layout.layer_z[np.array(wells) + 1]),
             )
         rows_phi.append(np.interp(z_ref, z, st.phi_V))
+        rows_s.append(rows_phi[-1] + _sheet_offsets(layout, st, wells, z_ref))
         rows_n.append(dens)
         rows_c.append(cen)
+        rows_top.append(float(np.interp(0.0, z, st.phi_V)))
+        rows_l.append(per_layer(layout, cell_electrons(layout, st))[list(wells)])
         used.append(float(v))
         if np.all(dens < 1e8):  # every well empty (below 1e4 cm^-2)
             break
     phi = np.array(rows_phi)
     dens = np.array(rows_n)
     cen = np.array(rows_c)
+    lay = np.array(rows_l)
+    sheet_phi = np.array(rows_s)
     out = []
     for k, li in enumerate(wells):
         order = np.argsort(phi[:, k])
@@ -210,6 +274,15 @@ def sheet_tables(
                 potential_V=phi[order, k],
                 density_m2=dens[order, k],
                 centroid_m=c,
+                layer_density_m2=lay[order, k],
+                sheet_potential_V=sheet_phi[order, k],
             )
         )
-    return SheetTables(gate_voltage_V=np.array(used), wells=tuple(out), temperature_K=t)
+    return SheetTables(
+        gate_voltage_V=np.array(used),
+        wells=tuple(out),
+        temperature_K=t,
+        surface_potential_V=np.array(rows_top),
+        electrons_m2=dens.copy(),
+        layer_electrons_m2=lay.copy(),
+    )

@@ -19,7 +19,13 @@ from qhdesign.sheets import SheetModel, WellSheet
 if TYPE_CHECKING:  # pragma: no cover
     from .results import BandsResult
 
-__all__ = ["SheetModel", "WellSheet", "sheet_model"]
+__all__ = [
+    "SheetModel",
+    "WellSheet",
+    "layer_residual_charge",
+    "owned_subband_charge",
+    "sheet_model",
+]
 
 
 def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
@@ -76,14 +82,7 @@ def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
     surface_potential = float(-u[int(np.argmin(np.abs(z)))] / sc.e)
     # Electrons outside the well layers (wavefunction tails, classical electrons) are in no
     # sheet: they are passed on where the 1D solution has them, so the column carries every charge.
-    residual = None
-    n_node = np.asarray(getattr(r, "electron_density_m3", np.zeros(0)), dtype=float)
-    zc = np.asarray(r.cell_centres_m, dtype=float)
-    if n_node.size == z.size and z.size == zc.size + 1:
-        n_cell = 0.5 * (n_node[1:] + n_node[:-1])
-        for w in r.wells:
-            n_cell[(zc >= w.z_top_m) & (zc <= w.z_bottom_m)] = 0.0
-        residual = -(sc.e * n_cell)
+    residual = _layer_residual_all_cells(r)
     # A back gate or a pinned substrate fixes the potential at the bottom of the last layer.
     sub = stack.substrate
     bottom = {"bottom_kind": "zero_field", "bottom_potential_V": 0.0}
@@ -127,3 +126,57 @@ def sheet_model(stack, bands_result: BandsResult) -> SheetModel:
         **bottom,
         **dielectric,
     )
+
+
+def _layer_residual_all_cells(r) -> np.ndarray | None:
+    """Charge density (C/m^3) of the electrons outside the well layers on every 1D cell."""
+    z = np.asarray(r.z_m)
+    n_node = np.asarray(getattr(r, "electron_density_m3", np.zeros(0)), dtype=float)
+    zc = np.asarray(r.cell_centres_m, dtype=float)
+    if not (n_node.size == z.size and z.size == zc.size + 1):
+        return None
+    n_cell = 0.5 * (n_node[1:] + n_node[:-1])
+    for w in r.wells:
+        n_cell[(zc >= w.z_top_m) & (zc <= w.z_bottom_m)] = 0.0
+    return -(sc.e * n_cell)
+
+
+def layer_residual_charge(bands_result: BandsResult) -> np.ndarray | None:
+    """The residual charge of :func:`sheet_model`: electrons outside the well layers (C/m^3) on
+    the semiconductor's cells (the sheet model's ``residual_charge_C_m3``)."""
+    res = _layer_residual_all_cells(bands_result)
+    if res is None:
+        return None
+    return res[np.asarray(bands_result.cell_centres_m, dtype=float) > 0.0]
+
+
+def owned_subband_charge(bands_result: BandsResult) -> tuple[dict, np.ndarray | None]:
+    """Electrons of each well's own subbands, and the charge of every other electron.
+
+    A subband belongs to the well holding most of its probability (the 1D stage's rule); its
+    electrons, tails in the barriers included, are the well's (m^-2, by well name). What is left
+    of the electron density (classical electrons, subbands of no well) is returned as a charge
+    density (C/m^3) on the semiconductor's cells, like :func:`layer_residual_charge`.
+    """
+    r = bands_result
+    owned = {w.name: 0.0 for w in r.wells}
+    z = np.asarray(r.z_m, dtype=float)
+    h = np.diff(z)
+    n_node = np.asarray(getattr(r, "electron_density_m3", np.zeros(0)), dtype=float)
+    psi = np.asarray(getattr(r, "psi", np.zeros((0, 0))), dtype=float)
+    zc = np.asarray(r.cell_centres_m, dtype=float)
+    residual = None
+    fits = n_node.size == z.size and psi.ndim == 2 and psi.shape[1] == z.size
+    n_cell = 0.5 * (n_node[1:] + n_node[:-1]) if fits else None
+    for k, sb in enumerate(r.subbands):
+        if sb.well not in owned:
+            continue
+        owned[sb.well] += float(sb.sheet_density_m2)
+        if fits and k < psi.shape[0]:
+            p2 = psi[k] ** 2
+            cell = 0.5 * (p2[:-1] + p2[1:])
+            cell = cell / max(float(np.sum(cell * h)), 1e-300)
+            n_cell = n_cell - sb.sheet_density_m2 * cell
+    if fits:
+        residual = -(sc.e * n_cell)[zc > 0.0]
+    return owned, residual

@@ -14,6 +14,14 @@ def test_edge_refuses_an_unknown_model(cli_runner, app, screened_path):
     assert_one_line_error(r, "--sheet-xc", "exchange+correlation")
 
 
+def test_edge_refuses_sheet_xc_on_1d_table_sheets(cli_runner, app, screened_path):
+    # the 1D-table sheets (default) carry the 1D stage's own exchange-correlation: no double count
+    r = cli_runner.invoke(
+        app, ["edge", str(screened_path), "--gate-voltage", "-1.0", "--sheet-xc", "exchange"]
+    )
+    assert_one_line_error(r, "--sheet-xc", "constant-dos")
+
+
 def test_pinchoff_refuses_a_floor_out_of_range(cli_runner, app, screened_path):
     r = cli_runner.invoke(
         app,
@@ -22,6 +30,8 @@ def test_pinchoff_refuses_a_floor_out_of_range(cli_runner, app, screened_path):
             str(screened_path),
             "--gate-gap",
             "300 nm",
+            "--sheets",
+            "constant-dos",
             "--sheet-xc",
             "exchange",
             "--compressibility-floor",

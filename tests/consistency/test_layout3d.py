@@ -33,7 +33,7 @@ def solved():
 
     stack = load_stack(ROOT / "stacks" / "ql2417_screened.toml")
     lay = load_layout(CIRCLE, stack)
-    sol = LayoutSolver(section_from_stack(stack), lay, Layout3DOptions(refine=SMALL))
+    sol = LayoutSolver(section_from_stack(stack, sheets="constant-dos"), lay, Layout3DOptions(refine=SMALL))
     sol.solve()
     return sol
 

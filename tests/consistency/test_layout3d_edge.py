@@ -53,7 +53,7 @@ def test_long_edge_depletion_width_matches_2d():
     from qhdesign.section.profile import EDGE_FRACTION, crossing_from_bulk
 
     stack = load_stack(ROOT / "stacks" / "ql2417_screened.toml")
-    section = section_from_stack(stack)
+    section = section_from_stack(stack, sheets="constant-dos")
     lay = loads_layout(
         edge_layout(), source="edge.toml", base=ROOT / "stacks" / "layouts", stack=stack
     )

@@ -54,7 +54,9 @@ path = [["-600 nm", "0 nm"], ["600 nm", "0 nm"]]
 def section():
     from qhdesign.pipeline import section_from_stack
 
-    return section_from_stack(load_stack(ROOT / "stacks" / "ql2417_screened.toml"))
+    return section_from_stack(
+        load_stack(ROOT / "stacks" / "ql2417_screened.toml"), sheets="constant-dos"
+    )
 
 
 def _pinch_3d(section, gap_nm: float) -> float:
