@@ -168,6 +168,7 @@ def pytest_sessionfinish(session, exitstatus):
 # ``make test-fast`` runs ``-m "not slow and not mpi"``; ``make test`` (and CI) runs everything.
 # Where DOLFINx is not installed the FEM tests are skipped, with the reason shown.
 FEM_MODULES = (
+    "test_tf2d_sheet_xc.py",
     "test_tf2d_bare_potential.py",
     "test_tf2d_consistency.py",
     "test_tf2d_csg.py",
@@ -196,6 +197,7 @@ FEM_MODULES = (
 #: solves (seconds to tens of seconds each on the shared 2-core machine, fixtures included).
 #: Single slow tests elsewhere carry ``@pytest.mark.slow`` themselves.
 SLOW_MODULES = (
+    "test_tf2d_sheet_xc.py",
     "test_tf2d_bare_potential.py",
     "test_tf2d_consistency.py",
     "test_tf2d_csg.py",
