@@ -31,6 +31,7 @@ from qhdesign.errors import InputError
 
 __all__ = [
     "GATE_BARRIER_RANGE_J",
+    "check_sheet_xc_choice",
     "exposed_surface_model",
     "island_column_from_stack",
     "refuse_gate_dielectric",
@@ -100,7 +101,6 @@ _TABLE_CACHE: dict = {}
 _LAST_TABLE_INFO: dict = {}
 
 
-
 def exposed_surface_model(stack, section=None, requested: str | None = None) -> str:
     """The exposed-surface model of a 2D solve of ``stack``.
 
@@ -122,7 +122,12 @@ def exposed_surface_model(stack, section=None, requested: str | None = None) -> 
 
 
 def section_from_stack(
-    stack, *, gate_barrier_J: float | None = None, sheets: str = DEFAULT_SHEET_MODEL
+    stack,
+    *,
+    gate_barrier_J: float | None = None,
+    sheets: str = DEFAULT_SHEET_MODEL,
+    sheet_xc: str = "none",
+    compressibility_floor: float | None = None,
 ):
     """Run the 1D stage on a stack and build the cross-section (donors frozen at their 1D state).
 
@@ -131,12 +136,22 @@ def section_from_stack(
     frozen); ``"1d-tables"``: every sheet follows its table from gated 1D solves
     (:func:`tabulated_section`). A gate barrier outside 0 to 3 eV is refused (key
     ``gate_barrier_J``) before the 1D solve, an unknown sheet model (key ``sheets``) too.
+
+    ``sheet_xc`` (:data:`qhdesign.sheetxc.SHEET_XC_MODELS`) adds each constant-DOS sheet's own
+    in-plane exchange (``"exchange"``) or exchange and correlation (``"exchange+correlation"``)
+    to its mu(n) (:func:`qhdesign.sheetxc.with_sheet_xc`), with dmu/dn floored at
+    ``compressibility_floor`` times pi hbar^2/m* (default
+    :data:`qhdesign.sheetxc.DEFAULT_COMPRESSIBILITY_FLOOR`). It needs ``sheets="constant-dos"``:
+    1D-table sheets carry the 1D stage's own exchange-correlation (``models.exchange_correlation``)
+    and are refused with it (key ``sheet_xc``), before the 1D solve.
     """
     from qhdesign.section.model import cross_section_from_sheet_model
+    from qhdesign.sheetxc import with_sheet_xc
     from qhdesign.sp1d import solve_bands
     from qhdesign.sp1d.sheets import sheet_model
 
     check_sheet_model(sheets)
+    floor = check_sheet_xc_choice(sheets, sheet_xc, compressibility_floor)
 
     lo, hi = GATE_BARRIER_RANGE_J
     if gate_barrier_J is not None and not lo < gate_barrier_J < hi:
@@ -152,8 +167,28 @@ def section_from_stack(
     )
     if sheets == "1d-tables":
         section = tabulated_section(section, stack, bands)
-    return section
+    return with_sheet_xc(section, sheet_xc, compressibility_floor=floor)
 
+
+def check_sheet_xc_choice(
+    sheets: str, sheet_xc: str, compressibility_floor: float | None = None
+) -> float:
+    """Check the sheets' own exchange-correlation against the sheet model (before any solve);
+    returns the floor to use. Errors are keyed ``sheet_xc`` / ``compressibility_floor``."""
+    from qhdesign.sheetxc import DEFAULT_COMPRESSIBILITY_FLOOR, check_sheet_xc
+
+    floor = (
+        DEFAULT_COMPRESSIBILITY_FLOOR if compressibility_floor is None else compressibility_floor
+    )
+    check_sheet_xc(sheet_xc, floor)
+    if sheet_xc != "none" and sheets != "constant-dos":
+        raise InputError(
+            f"the sheets' own exchange-correlation '{sheet_xc}' is a constant-DOS sheet model "
+            "(sheets constant-dos); 1D-table sheets take theirs from the 1D stage "
+            "(models.exchange_correlation)",
+            key="sheet_xc",
+        )
+    return floor
 
 
 def check_sheet_model(sheets: str) -> str:
@@ -473,6 +508,7 @@ def solve_island_operating(
         from qhdesign.sp1d.sheets import sheet_model
 
         check_sheet_model(sheets)
+        check_sheet_xc_choice(sheets, st.sheet_xc, st.compressibility_floor)
         bands = solve_bands(stack)
         section = cross_section_from_sheet_model(sheet_model(stack, bands))
         if sheets == "1d-tables":

@@ -169,6 +169,7 @@ def pytest_sessionfinish(session, exitstatus):
 # Where DOLFINx is not installed the FEM tests are skipped, with the reason shown.
 FEM_MODULES = (
     "test_sheet_laws_far_field.py",
+    "test_tf2d_sheet_xc.py",
     "test_tf2d_bare_potential.py",
     "test_tf2d_consistency.py",
     "test_tf2d_csg.py",
@@ -200,6 +201,7 @@ FEM_MODULES = (
 #: Single slow tests elsewhere carry ``@pytest.mark.slow`` themselves.
 SLOW_MODULES = (
     "test_sheet_laws_far_field.py",
+    "test_tf2d_sheet_xc.py",
     "test_tf2d_bare_potential.py",
     "test_tf2d_consistency.py",
     "test_tf2d_csg.py",

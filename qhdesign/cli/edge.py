@@ -30,18 +30,68 @@ from .common import (
 
 
 def _load_section(
-    stack_file: Path, surface: str | None, gate_barrier: str | None, sheets: str = "1d-tables"
+    stack_file: Path,
+    surface: str | None,
+    gate_barrier: str | None,
+    sheets: str = "1d-tables",
+    sheet_xc: str = "none",
+    compressibility_floor: float | None = None,
 ):
-    from qhdesign.pipeline import check_sheet_model, exposed_surface_model, section_from_stack
+    from qhdesign.pipeline import (
+        check_sheet_model,
+        check_sheet_xc_choice,
+        exposed_surface_model,
+        section_from_stack,
+    )
     from qhdesign.stack import load_stack
 
     check_sheet_model(sheets)  # refuse a bad choice before the 1D solve
+    check_sheet_xc_choice(sheets, sheet_xc, compressibility_floor)
     stack = load_stack(stack_file)
     barrier = option_quantity(gate_barrier, "energy", "--gate-barrier")
     if surface is not None:
         exposed_surface_model(stack, None, surface)
-    section = section_from_stack(stack, gate_barrier_J=barrier, sheets=sheets)
+    section = section_from_stack(
+        stack,
+        gate_barrier_J=barrier,
+        sheets=sheets,
+        sheet_xc=sheet_xc,
+        compressibility_floor=compressibility_floor,
+    )
     return stack, section, exposed_surface_model(stack, section, surface)
+
+
+def _sheet_xc_report(section, sheet_xc: str, compressibility_floor: float | None) -> dict:
+    """The ``sheet_xc`` block of the JSON: model, reference, floor, what it does to each sheet."""
+    from qhdesign.sheetxc import DEFAULT_COMPRESSIBILITY_FLOOR, describe_sheet_xc
+
+    floor = (
+        DEFAULT_COMPRESSIBILITY_FLOOR if compressibility_floor is None else compressibility_floor
+    )
+    return describe_sheet_xc(section, sheet_xc, compressibility_floor=floor)
+
+
+def _echo_sheet_xc(xc: dict) -> None:
+    if xc["model"] == "none":
+        return
+    for name, s in xc["sheets"].items():
+        ratio = s["dmu_dn_over_bare_at_density"]
+        typer.echo(
+            f"  {name}: {s['law']}; dmu/dn = {ratio:.3f} x pi hbar^2/m* at its 1D density"
+            if ratio is not None
+            else f"  {name}: {s['law']}"
+        )
+
+
+#: The sheets' own exchange-correlation options, shared by ``edge`` and ``pinchoff``.
+SHEET_XC_HELP = (
+    "With --sheets constant-dos: the sheets' own in-plane exchange-correlation: none, exchange "
+    "(2D Hartree-Fock), exchange+correlation (plus the Attaccalite et al. 2002 fit)."
+)
+FLOOR_HELP = (
+    "With --sheet-xc: floor on each sheet's dmu/dn as a fraction of pi hbar^2/m* "
+    "(0 < f <= 1, default 0.1), where exchange makes it negative."
+)
 
 
 def _sheet_info(section) -> dict:
@@ -66,6 +116,8 @@ EDGE_OPTIONS = {
     "g_effective": "--g-effective",
     "strip_min_width_lB": "--strip-min-lb",
     "sheets": "--sheets",
+    "sheet_xc": "--sheet-xc",
+    "compressibility_floor": "--compressibility-floor",
 }
 PINCHOFF_OPTIONS = {
     "v_start": "--from",
@@ -76,6 +128,8 @@ PINCHOFF_OPTIONS = {
     "surface": "--surface",
     "refine": "--refine",
     "sheets": "--sheets",
+    "sheet_xc": "--sheet-xc",
+    "compressibility_floor": "--compressibility-floor",
 }
 
 
@@ -252,6 +306,10 @@ def register(app: typer.Typer) -> None:
         ),
         surface: Surface = None,
         sheets: Sheets = "1d-tables",
+        sheet_xc: str = typer.Option("none", "--sheet-xc", help=SHEET_XC_HELP),
+        compressibility_floor: float | None = typer.Option(
+            None, "--compressibility-floor", help=FLOOR_HELP
+        ),
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
         json_out: JsonOut = None,
@@ -286,11 +344,14 @@ def register(app: typer.Typer) -> None:
             spin_gap_J=gap_J,
             strip_min_width_lB=strip_min_lb,
         )
-        stack, section, surf = _load_section(stack_file, surface, gate_barrier, sheets)
+        stack, section, surf = _load_section(
+            stack_file, surface, gate_barrier, sheets, sheet_xc, compressibility_floor
+        )
+        xc = _sheet_xc_report(section, sheet_xc, compressibility_floor)
         mesh = MeshOptions(refine=refine)
         opts = SolverOptions(exposed=surf)
         if w is not None:
-            _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields)
+            _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields, xc)
             return
         from qhdesign.section import solve_edge
 
@@ -301,6 +362,7 @@ def register(app: typer.Typer) -> None:
         root = _is_root()
         if root:
             _print_edge(res, stack.name)
+            _echo_sheet_xc(xc)
         if root and json_out is not None:
             from qhdesign.io import atomic_write_json
 
@@ -308,6 +370,7 @@ def register(app: typer.Typer) -> None:
                 "stack": str(stack_file),
                 "surface": surf,
                 "sheets": _sheet_info(section),
+                "sheet_xc": xc,
                 **res.to_dict(),
             }
             atomic_write_json(json_out, data)
@@ -340,6 +403,10 @@ def register(app: typer.Typer) -> None:
         v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
         surface: Surface = None,
         sheets: Sheets = "1d-tables",
+        sheet_xc: str = typer.Option("none", "--sheet-xc", help=SHEET_XC_HELP),
+        compressibility_floor: float | None = typer.Option(
+            None, "--compressibility-floor", help=FLOOR_HELP
+        ),
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
         json_out: JsonOut = None,
@@ -372,7 +439,10 @@ def register(app: typer.Typer) -> None:
                 related=("v_start",),
             )
         check_refine(refine)
-        stack, section, surf = _load_section(stack_file, surface, gate_barrier, sheets)
+        stack, section, surf = _load_section(
+            stack_file, surface, gate_barrier, sheets, sheet_xc, compressibility_floor
+        )
+        xc = _sheet_xc_report(section, sheet_xc, compressibility_floor)
         res = solve_pinchoff(
             section,
             w,
@@ -407,12 +477,14 @@ def register(app: typer.Typer) -> None:
             from qhdesign.io import atomic_write_json
 
             atomic_write_json(
-                json_out, {
-                "stack": str(stack_file),
-                "surface": surf,
-                "sheets": _sheet_info(section),
-                **res.to_dict(),
-            }
+                json_out,
+                {
+                    "stack": str(stack_file),
+                    "surface": surf,
+                    "sheets": _sheet_info(section),
+                    "sheet_xc": xc,
+                    **res.to_dict(),
+                },
             )
         if csv_out is not None:
             from qhdesign.io import atomic_write_text
@@ -430,7 +502,7 @@ def register(app: typer.Typer) -> None:
                 typer.echo(f"wrote {p}")
 
 
-def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields):
+def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot, fields, xc):
     from qhdesign.section import solve_constriction
 
     res = solve_constriction(section, w, v, mesh, opts)
@@ -456,7 +528,12 @@ def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot,
 
         atomic_write_json(
             json_out,
-            {"stack": str(stack.source), "sheets": _sheet_info(section), **res.to_dict()},
+            {
+                "stack": str(stack.source),
+                "sheets": _sheet_info(section),
+                "sheet_xc": xc,
+                **res.to_dict(),
+            },
         )
     if csv_out is not None:
         from qhdesign.io import atomic_write_text

@@ -96,6 +96,8 @@ ISLAND_OPTIONS = {
     "g_factor": "--g-factor",
     "r_threshold": "--r-threshold",
     "sheets": "--sheets",
+    "sheet_xc": "--sheet-xc",
+    "compressibility_floor": "--compressibility-floor",
     # the interferometer figures (qhdesign.island_figures)
     "electron_temperature_K": "--electron-temperature",
     "edge_velocity_m_s": "--edge-velocity",
@@ -149,7 +151,20 @@ def register(app: typer.Typer) -> None:
         ),
         g_factor: float | None = typer.Option(None, "--g-factor", help="|g*| (default 0.44)."),
         exchange: bool = typer.Option(
-            True, "--exchange/--no-exchange", help="Hartree-Fock exchange in the sheets' dmu/dn."
+            True,
+            "--exchange/--no-exchange",
+            help="Hartree-Fock exchange in the sheets' dmu/dn of the linear response (at B).",
+        ),
+        sheet_xc: str = typer.Option(
+            "none",
+            "--sheet-xc",
+            help="The sheets' own exchange-correlation in the operating-point solve: none, "
+            "exchange (2D Hartree-Fock), exchange+correlation (plus Attaccalite et al. 2002).",
+        ),
+        compressibility_floor: float | None = typer.Option(
+            None,
+            "--compressibility-floor",
+            help="With --sheet-xc: floor on dmu/dn as a fraction of pi hbar^2/m* (default 0.1).",
         ),
         sheets: str = typer.Option(
             "1d-tables",
@@ -225,6 +240,14 @@ def register(app: typer.Typer) -> None:
             from .island_op import run
 
             return run(stack_file, dict(locals()))
+        if sheet_xc != "none" or compressibility_floor is not None:
+            from qhdesign.errors import InputError
+
+            raise InputError(
+                "the sheets' own exchange-correlation applies to the operating-point island "
+                "(give --gate-radius or --electronic-radius instead of --radius)",
+                key="sheet_xc",
+            )
         from dataclasses import replace
 
         from qhdesign.fem.backend import load

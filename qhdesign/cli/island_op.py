@@ -81,6 +81,7 @@ def run(stack_file: Path, o: dict) -> None:
         "temperature_K": option_quantity(o["temperature"], "temperature", "--temperature"),
         "level_width_J": option_quantity(o["level_width"], "energy", "--level-width"),
         "exchange": o["exchange"],
+        "sheet_xc": o.get("sheet_xc") or "none",
         "bulk_shape": o["bulk_charge"],
         "r_threshold": o["r_threshold"],
     }
@@ -90,6 +91,8 @@ def run(stack_file: Path, o: dict) -> None:
         )
     if o["g_factor"] is not None:
         kw["g_factor"] = o["g_factor"]
+    if o.get("compressibility_floor") is not None:
+        kw["compressibility_floor"] = o["compressibility_floor"]
     settings = OperatingSettings(**kw)
     fields = parse_field_range(o["field_range"]) if o["field_range"] else ()
     if o["csv_out"] is not None and not fields:
@@ -104,6 +107,10 @@ def run(stack_file: Path, o: dict) -> None:
 
     sheets = check_sheet_model(o.get("sheets") or "1d-tables")
     stack = load_stack(stack_file)
+    # the sheets' own exchange-correlation is a constant-DOS sheet model (docs/island.md, §1):
+    # with --sheet-xc and the default --sheets the constant-DOS sheets are taken
+    if settings.sheet_xc != "none" and o.get("sheets") in (None, "1d-tables"):
+        sheets = "constant-dos"
     res = solve_island_operating(
         stack,
         device,

@@ -25,6 +25,7 @@ from scipy import constants as sc
 from qhdesign.errors import InputError
 from qhdesign.landau import G_FACTOR_GAAS, LandauSheet, level_width_from_lifetime, zero_field_dos
 from qhdesign.results import Table, flatten
+from qhdesign.sheetxc import DEFAULT_COMPRESSIBILITY_FLOOR, check_sheet_xc
 
 from .operating import EdgeStrip, IslandDevice, OperatingPoint, solve_operating_point
 
@@ -70,7 +71,13 @@ class OperatingSettings:
     g_factor
         |g*| for the spin splitting (GaAs 0.44).
     exchange
-        Add the Hartree–Fock exchange term to the sheets' dmu/dn.
+        Add the Hartree–Fock exchange term to the sheets' dmu/dn in the linear response (the
+        Landau-level DOS at the field).
+    sheet_xc, compressibility_floor
+        The sheets' own exchange(-correlation) in the nonlinear operating-point solve (zero
+        field): ``"none"`` (closed-form Thomas–Fermi sheets), ``"exchange"`` or
+        ``"exchange+correlation"`` (:func:`qhdesign.sheetxc.with_sheet_xc`), with dmu/dn floored
+        at ``compressibility_floor`` times pi hbar^2/m*.
     bulk_shape
         Shape of the bulk's added charge over A_L: ``"uniform"`` or ``"parabolic"``.
     r_threshold
@@ -88,6 +95,8 @@ class OperatingSettings:
     exchange: bool = True
     bulk_shape: str = "uniform"
     r_threshold: float = 0.5
+    sheet_xc: str = "none"
+    compressibility_floor: float = DEFAULT_COMPRESSIBILITY_FLOOR
 
     def __post_init__(self):
         nu = float(self.filling)
@@ -116,6 +125,7 @@ class OperatingSettings:
             raise InputError("|g*| must lie in 0 .. 10", key="g_factor")
         if not (0 < self.r_threshold < 1):
             raise InputError("r threshold must lie in (0, 1)", key="r_threshold")
+        check_sheet_xc(self.sheet_xc, self.compressibility_floor)
 
     @property
     def charge_ratio(self) -> float:
@@ -237,6 +247,7 @@ class IslandOperatingResult:
     temperature_K: float
     level_width_J: dict
     info: dict = field(default_factory=dict)
+    sheet_xc: dict = field(default_factory=dict)
 
     def flagged_fields_T(self) -> list[float]:
         """Fields where K_IL/K_I exceeds the threshold."""
@@ -265,6 +276,7 @@ class IslandOperatingResult:
             "strip_gap_J": st.strip_gap_J,
             "bulk_charge_shape": st.bulk_shape,
             "exchange": st.exchange,
+            "sheet_xc": dict(self.sheet_xc) or {"model": st.sheet_xc},
             **{k: v for k, v in p.flat().items() if not k.startswith("screening_wells.")},
             "r_reciprocity": p.r_reciprocity,
             "r_direct": p.r_direct,
@@ -455,7 +467,10 @@ def solve_island_operating(
     import time
 
     st = settings or OperatingSettings()
-    section = source
+    from qhdesign.sheetxc import describe_sheet_xc, with_sheet_xc
+
+    xc = describe_sheet_xc(source, st.sheet_xc, compressibility_floor=st.compressibility_floor)
+    section = with_sheet_xc(source, st.sheet_xc, compressibility_floor=st.compressibility_floor)
     tau, width_source = _lifetimes(section, lifetimes_s, st)
     B0 = st.field_T if st.field_T is not None else operating_field(section, st)
     T = st.temperature_K if st.temperature_K is not None else section.temperature_K
@@ -492,6 +507,7 @@ def solve_island_operating(
         temperature_K=T,
         level_width_J=widths,
         info=info,
+        sheet_xc=xc,
     )
 
 

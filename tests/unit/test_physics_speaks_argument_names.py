@@ -27,6 +27,8 @@ PHYSICS = [
     "interpretation.py",
     "sizing.py",
     "landau.py",
+    "sheetxc.py",
+    "sheetlaw.py",
     "limits.py",
     "stack.py",
     "stackfile.py",
