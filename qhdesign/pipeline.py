@@ -91,11 +91,16 @@ DEFAULT_SHEET_MODEL = "1d-tables"
 #: Gate-voltage step (V) and lowest voltage of the tabulating 1D solves.
 TABLE_STEP_V = 0.01
 TABLE_LOWEST_V = -4.0
+#: The sweep starts at this gate voltage (V).
+TABLE_HIGHEST_V = 0.0
 #: Largest departure from monotone (fraction of the well's largest density) a table may have
 #: in its sheet potential; smaller departures are smoothed by isotonic regression.
 TABLE_MONOTONE_TOL = 0.005
 #: A law ends at the first knot within this fraction of the well's largest tabulated density.
 TABLE_TOP_FRACTION = 0.01
+#: A well whose table centroid moves by more than this (m) puts its charge at the moving
+#: centroid (split between two levels); below it the charge stays on one level.
+CENTROID_SPAN_MIN_M = 0.05e-9
 
 _TABLE_CACHE: dict = {}
 _LAST_TABLE_INFO: dict = {}
@@ -214,7 +219,7 @@ def stack_tables(stack, *, step_V: float = TABLE_STEP_V):
         lowest = max(TABLE_LOWEST_V, MIN_GATE_VOLTAGE_V)
         _TABLE_CACHE.clear()  # one stack at a time: tables are small but sweeps vary the stack
         t0 = time.perf_counter()
-        tab = sheet_tables(stack, 0.0, lowest, step_V)
+        tab = sheet_tables(stack, TABLE_HIGHEST_V, lowest, step_V)
         _LAST_TABLE_INFO.update(
             step_V=float(step_V),
             solves=int(tab.gate_voltage_V.size),
@@ -260,21 +265,35 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
         sheets=tuple(replace(s, charge_density_m2=owned[s.name]) for s in section.sheets),
         charge_C_m3=rho,
     )
-    # every sheet at its well's upper interface (docs/models.md, "Sheets that follow the gate")
+    # every sheet reads the potential at its well's upper interface and puts its charge at its
+    # centroid, which moves with the density between the shallowest and the deepest centroid
+    # of the table (docs/models.md, "Sheets that follow the gate")
     tops = {str(w.name): float(w.z_top_m) for w in bands.wells}
-    section = replace(
-        section, sheets=tuple(replace(s, z_m=tops.get(s.name, s.z_m)) for s in section.sheets)
-    )
+    moved = []
+    for k, s in enumerate(section.sheets):
+        if s.name not in tops or not tops[s.name] < s.z_m:
+            moved.append(s)
+            continue
+        n_k = tables.electrons_m2[:, k]
+        full = n_k > 1e-3 * max(float(n_k.max()), 1.0)
+        c = tables.centroids_m[full, k] if np.any(full) else np.array([s.z_m])
+        c_lo, c_hi = float(c.min()), float(c.max())
+        deep = c_hi if c_hi - c_lo > CENTROID_SPAN_MIN_M else None
+        moved.append(
+            replace(s, z_m=c_lo if deep is not None else s.z_m, read_z_m=tops[s.name],
+                    charge_z_max_m=deep)
+        )
+    section = replace(section, sheets=tuple(moved))
     phi_col = _column_potentials(section, tables)
-    x_far = _far_column_potentials(section)
     sheets = []
     for k, s in enumerate(section.sheets):
         order = np.argsort(phi_col[:, k], kind="stable")
         x = phi_col[order, k]
         n = tables.electrons_m2[order, k]
         layer = tables.layer_electrons_m2[order, k]
+        cen = np.clip(tables.centroids_m[order, k], s.z_m, s.charge_z_max_m or s.z_m)
         keep = np.concatenate(([True], np.diff(x) > 0))  # drop repeated knots of an empty well
-        x, n, layer = x[keep], np.maximum(n[keep], 0.0), layer[keep]
+        x, n, layer, cen = x[keep], np.maximum(n[keep], 0.0), layer[keep], cen[keep]
         mono = _isotonic(n)
         worst = float(np.max(np.abs(mono - n))) / max(float(n.max()), 1.0)
         if worst > TABLE_MONOTONE_TOL:
@@ -284,8 +303,18 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
                 key="sheets",
             )
         n = mono
-        x, n, layer = _law_top(x, n, layer, float(x_far[k]), float(s.far_charge_m2))
-        law = SheetLaw(x, n, absolute=True, label="1D table", reported_m2=np.maximum(layer, 0.0))
+        top = int(np.argmax(n >= n[-1]))  # a flat run at the top keeps its first knot only
+        x, n, layer, cen = x[: top + 1], n[: top + 1], layer[: top + 1], cen[: top + 1]
+        x, n, layer = _law_top(x, n, layer)
+        cen = np.append(cen, [cen[-1]] * (x.size - cen.size))
+        law = SheetLaw(
+            x,
+            n,
+            absolute=True,
+            label="1D table",
+            reported_m2=np.maximum(layer, 0.0),
+            centroid_m=cen if s.charge_z_max_m is not None else None,
+        )
         sheets.append(replace(s, law=law))
     return replace(section, sheets=tuple(sheets))
 
@@ -316,64 +345,41 @@ def sheet_model_info(section) -> dict:
     return out
 
 
-def _law_top(x, n, layer, x_far: float, n_far: float):
-    """The top of a well's law, where the table says nothing about sideways screening.
+def _law_top(x, n, layer):
+    """Continue a law above its table with the slope the well has while it empties.
 
-    A well screened from the gate by a filled well above it keeps its density while the gate
-    empties the wells above, and its sheet potential wanders meanwhile (the wells above are
-    sheets, not their real charge distributions): the top of its table is nearly flat over
-    several mV, a slope that would make the well useless as a screen beside the gate. The law
-    therefore keeps the table up to its first knot within TABLE_TOP_FRACTION of the largest
-    density (the part where the well itself empties), rises from there with the slope s_c the
-    table has just below it to n_flat (the median density of the dropped knots, what the well
-    holds while it is screened), stays at n_flat, and reaches the far-field state (x_far, n_far) of
-    the ungated column along a line of slope s_c, which it follows above.
-    docs/models.md, "Sheets that follow the gate".
+    The top of a table can be nearly flat: a well screened from the gate by a filled well above
+    it keeps its density while the gate empties the wells above (QL-2417's lower screening well
+    changes by 1e-3 over 0.5 V), and the isotonic fit pools that stretch. Its slope there says
+    nothing about how the well screens beside a gate, where the law is read around the far-field
+    state just above the table. If the law's end slope is below a tenth of the table's secant
+    slope between 90 % and 99 % of its largest density (the well emptying itself), one knot
+    1 mV above the top continues the law with that secant slope.
     """
-    if not (n_far > 0 and n[-1] > 0) or n.size < 3:
+    if n.size < 3 or not n[-1] > 0:
         return x, n, layer
-    cut = max(int(np.argmax(n >= (1.0 - TABLE_TOP_FRACTION) * n[-1])), 1)
-    if cut >= n.size - 1 or x_far <= x[cut]:
+    i90 = int(np.argmax(n >= 0.90 * n[-1]))
+    i99 = int(np.argmax(n >= 0.99 * n[-1]))
+    if i99 <= i90:
+        i90 = max(i99 - 1, 0)
+    if i99 == i90 or not x[i99] > x[i90]:
         return x, n, layer
-    s_c = (n[cut] - n[cut - 1]) / (x[cut] - x[cut - 1])
-    if not s_c > 0:
+    s_c = (n[i99] - n[i90]) / (x[i99] - x[i90])
+    end = (n[-1] - n[-2]) / (x[-1] - x[-2])
+    if not s_c > 0 or end >= 0.1 * s_c:
         return x, n, layer
-    ratio = layer[cut] / n[cut] if n[cut] > 0 else 1.0
-    n_flat = min(max(float(np.median(n[cut + 1 :])), float(n[cut])), n_far)
-    xs, ns = list(x[: cut + 1]), list(n[: cut + 1])
-    x_up = x[cut] + (n_flat - n[cut]) / s_c  # end of the rise to n_flat
-    x_start = x_far - (n_far - n_flat) / s_c  # start of the rise to the far field
-    if x_start <= x_up + 1e-7:  # no room for a flat stretch: straight on to the far field
-        xs += [x_far, x_far + 1e-3]
-        ns += [n_far, n_far + s_c * 1e-3]
-    else:
-        if n_flat > n[cut]:
-            xs.append(x_up)
-            ns.append(n_flat)
-        xs.append(x_start)
-        ns.append(n_flat)
-        if n_far > n_flat:
-            xs.append(x_far)
-            ns.append(n_far)
-        xs.append(xs[-1] + 1e-3)
-        ns.append(ns[-1] + s_c * 1e-3)
-    lay = list(layer[: cut + 1]) + [ratio * v for v in ns[cut + 1 :]]
-    keep = np.concatenate(([True], np.diff(xs) > 0))
-    return np.array(xs)[keep], np.array(ns)[keep], np.array(lay)[keep]
+    ratio = layer[-1] / n[-1]
+    x2 = np.append(x, x[-1] + 1e-3)
+    n2 = np.append(n, n[-1] + s_c * 1e-3)
+    return x2, n2, np.append(layer, ratio * n2[-1])
 
 
-def _far_column_potentials(section) -> np.ndarray:
-    """phi (V) at every sheet depth in the ungated far-field column (the FEM stages'
-    calibration on the 1D nodes), shape (W,)."""
-    from qhdesign.section.model import calibrate
-
-    levels, eps = _column_levels(section)
-    cal = calibrate(section, levels, eps, exposed=section.surface_mode)
-    return np.asarray(cal["phi_V"])[cal["sheet_level"]]
+def _read_z(sheet) -> float:
+    return sheet.z_m if sheet.read_z_m is None else float(sheet.read_z_m)
 
 
 def _column_levels(section):
-    z_sheet = np.array([s.z_m for s in section.sheets])
+    z_sheet = np.array([s.z_m for s in section.sheets] + [_read_z(s) for s in section.sheets])
     edges = np.asarray(section.charge_edges_m, dtype=float)
     layer_z = np.asarray(section.layer_z_m, dtype=float)
     levels = np.unique(np.concatenate((edges, z_sheet, layer_z)))
@@ -419,12 +425,23 @@ def _column_potentials(section, tables) -> np.ndarray:
         edges if edges.size else None,
     )
     at = np.array([int(np.argmin(np.abs(levels - z))) for z in z_sheet])
+    read = np.array([int(np.argmin(np.abs(levels - _read_z(s)))) for s in section.sheets])
     out = np.zeros((tables.gate_voltage_V.size, z_sheet.size))
     from scipy import constants as sc
 
     for m in range(tables.gate_voltage_V.size):
         q = q_fixed.copy()
-        np.add.at(q, at, -sc.e * tables.electrons_m2[m])
+        for k, s in enumerate(section.sheets):
+            charge = -sc.e * tables.electrons_m2[m, k]
+            if s.charge_z_max_m is None:
+                q[at[k]] += charge
+                continue
+            # the charge at its centroid, split between the neighbouring levels (first moment)
+            c = float(np.clip(tables.centroids_m[m, k], s.z_m, s.charge_z_max_m))
+            j = int(np.clip(np.searchsorted(levels, c) - 1, 0, levels.size - 2))
+            w = (c - levels[j]) / (levels[j + 1] - levels[j])
+            q[j] += charge * (1.0 - w)
+            q[j + 1] += charge * w
         phi = solve_column(
             levels,
             eps,
@@ -434,7 +451,7 @@ def _column_potentials(section, tables) -> np.ndarray:
             bottom=section.bottom,
             bottom_potential_V=section.bottom_potential_V,
         )
-        out[m] = phi[at]
+        out[m] = phi[read]
     return out
 
 

@@ -51,6 +51,9 @@ class SheetLaw:
         Optional density to report at the knots (m^-2) when it differs from the sheet's charge:
         a 1D table's sheet carries the electrons of the well's subbands, tails included, and
         reports those inside the well layer. None: report ``density_m2``.
+    centroid_m
+        Optional charge centroid at the knots (m), read by linear interpolation (held beyond
+        the ends): where a sheet whose charge moves with its density puts it. None: fixed.
     """
 
     x_V: np.ndarray
@@ -58,6 +61,7 @@ class SheetLaw:
     absolute: bool = False
     label: str = "tabulated"
     reported_m2: np.ndarray | None = None
+    centroid_m: np.ndarray | None = None
     _pchip: object = field(init=False, repr=False)
 
     def __post_init__(self):
@@ -74,6 +78,11 @@ class SheetLaw:
         object.__setattr__(self, "x_V", x)
         object.__setattr__(self, "density_m2", n)
         object.__setattr__(self, "_pchip", PchipInterpolator(x, n, extrapolate=False))
+        if self.centroid_m is not None:
+            c = np.asarray(self.centroid_m, dtype=float)
+            if c.shape != x.shape or not np.all(np.isfinite(c)):
+                raise InputError("one centroid per knot", key="centroid_m")
+            object.__setattr__(self, "centroid_m", c)
         if self.reported_m2 is not None:
             r = np.asarray(self.reported_m2, dtype=float)
             if r.shape != x.shape or not np.all(np.isfinite(r)):
@@ -151,3 +160,19 @@ class SheetLaw:
         if float(self.reported(lo)) >= n:
             return lo
         return float(brentq(lambda x: float(self.reported(x)) - n, lo, hi, xtol=1e-15, rtol=1e-14))
+
+    def centroid(self, x) -> np.ndarray:
+        """Charge centroid (m) at x (linear interpolation, held beyond the knots)."""
+        if self.centroid_m is None:
+            raise InputError("this sheet law has no centroid column", key="centroid_m")
+        return np.interp(np.asarray(x, dtype=float), self.x_V, self.centroid_m)
+
+    def centroid_slope(self, x) -> np.ndarray:
+        """dc/dx (m/V) of :meth:`centroid` (piecewise constant; 0 beyond the knots)."""
+        if self.centroid_m is None:
+            raise InputError("this sheet law has no centroid column", key="centroid_m")
+        x = np.asarray(x, dtype=float)
+        seg = np.diff(self.centroid_m) / np.diff(self.x_V)
+        i = np.clip(np.searchsorted(self.x_V, x, side="right") - 1, 0, seg.size - 1)
+        inside = (x >= self.x_V[0]) & (x < self.x_V[-1])
+        return np.where(inside, seg[i], 0.0)

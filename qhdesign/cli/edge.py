@@ -369,7 +369,7 @@ def register(app: typer.Typer) -> None:
             data = {
                 "stack": str(stack_file),
                 "surface": surf,
-                "sheets": _sheet_info(section),
+                "sheet_model": _sheet_info(section),
                 "sheet_xc": xc,
                 **res.to_dict(),
             }
@@ -481,7 +481,7 @@ def register(app: typer.Typer) -> None:
                 {
                     "stack": str(stack_file),
                     "surface": surf,
-                    "sheets": _sheet_info(section),
+                    "sheet_model": _sheet_info(section),
                     "sheet_xc": xc,
                     **res.to_dict(),
                 },
@@ -530,7 +530,7 @@ def _run_constriction(section, w, v, mesh, opts, stack, json_out, csv_out, plot,
             json_out,
             {
                 "stack": str(stack.source),
-                "sheets": _sheet_info(section),
+                "sheet_model": _sheet_info(section),
                 "sheet_xc": xc,
                 **res.to_dict(),
             },

@@ -129,7 +129,7 @@ def run(stack_file: Path, o: dict) -> None:
     if o["json_out"] is not None:
         d = {
             "stack_file": str(stack_file),
-            "sheets": sheet_model_info(res.operating.section),
+            "sheet_model": sheet_model_info(res.operating.section),
             **res.to_dict(),
         }
         d.update(_interferometer(res, settings, o))

@@ -101,6 +101,8 @@ class StructuredGrid:
     layer_of_interval: np.ndarray  # (nz-1,) layer index of each z-interval
     sheet_level: np.ndarray  # (S,) level index of each sheet
     layout: GateLayout
+    read_level: np.ndarray | None = None  # (S,) level where each sheet's law reads phi
+    deep_level: np.ndarray | None = None  # (S,) deepest charge level of a moving-charge sheet
 
     @property
     def num_vertices(self) -> int:
@@ -150,8 +152,15 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     )
     z_layers = np.asarray(section.layer_z_m, dtype=float)
     sheet_z = [s.z_m for s in section.sheets]
-    fixed = [*z_layers.tolist(), *sheet_z, *section.extra_levels_m]
-    z_attr = [(float(z_layers[0]), h_edge)] + [(zs, h_sheet) for zs in sheet_z]
+    read_z = [
+        z
+        for s in section.sheets
+        if getattr(s, "law", None) is not None
+        for z in (getattr(s, "read_z_m", None), getattr(s, "charge_z_max_m", None))
+        if z is not None
+    ]
+    fixed = [*z_layers.tolist(), *sheet_z, *read_z, *section.extra_levels_m]
+    z_attr = [(float(z_layers[0]), h_edge)] + [(zs, h_sheet) for zs in (*sheet_z, *read_z)]
     z_attr += [(float(zl), 4 * h_sheet) for zl in z_layers[1:-1]]
     z_attr += [(float(zp), h_sheet) for zp in section.extra_levels_m]
     z = graded_nodes(fixed, z_attr, growth, opts.h_max_z_m / r, min_cells=1)
@@ -160,7 +169,20 @@ def build_grid(section: CrossSection, layout: GateLayout, opts: MeshOptions) -> 
     sheet_level = np.array([int(np.argmin(np.abs(z - zs))) for zs in sheet_z], dtype=int)
     for k, zs in zip(sheet_level, sheet_z, strict=True):
         z[k] = zs  # exact sheet depth (graded_nodes keeps breakpoints; this only removes fp noise)
-    return StructuredGrid(x, z, layer, sheet_level, layout)
+    read_level = sheet_level.copy()
+    deep_level = sheet_level.copy()
+    for i, s in enumerate(section.sheets):
+        if getattr(s, "law", None) is None:
+            continue
+        zr = getattr(s, "read_z_m", None)
+        if zr is not None:
+            read_level[i] = int(np.argmin(np.abs(z - zr)))
+            z[read_level[i]] = zr
+        zb = getattr(s, "charge_z_max_m", None)
+        if zb is not None:
+            deep_level[i] = int(np.argmin(np.abs(z - zb)))
+            z[deep_level[i]] = zb
+    return StructuredGrid(x, z, layer, sheet_level, layout, read_level, deep_level)
 
 
 def _facet_groups(grid: StructuredGrid, charged_levels=None) -> list:

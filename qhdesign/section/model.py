@@ -69,6 +69,13 @@ class SheetSpec:
     charge_density_m2
         The far-field electrons of the sheet's charge (m^-2) if they differ from the reported
         ``density_m2`` (a law sheet with a reported column); None: the same.
+    read_z_m
+        A law sheet only: the depth (m) where its law reads the potential when it is not the
+        sheet's own depth (the charge stays at ``z_m``); None: ``z_m``.
+    charge_z_max_m
+        A law sheet read above its charge, with a centroid column: the deepest centroid (m). Its
+        charge is then split between ``z_m`` (the shallowest) and this depth so that it sits at
+        the law's centroid (first moment kept); None: all at ``z_m``.
     """
 
     name: str
@@ -79,6 +86,16 @@ class SheetSpec:
     subband_energy_J: float = float("nan")
     law: object | None = None
     charge_density_m2: float | None = None
+    read_z_m: float | None = None
+    charge_z_max_m: float | None = None
+
+    @property
+    def read_depth_m(self) -> float:
+        """Depth (m) where the sheet's law reads the potential: ``read_z_m`` if set (a law
+        sheet read above its charge, at its well's upper interface), else the sheet's own."""
+        if self.read_z_m is None or self.law is None:
+            return self.z_m
+        return float(self.read_z_m)
 
     @property
     def far_charge_m2(self) -> float:
@@ -169,6 +186,10 @@ class CrossSection:
         for s in self.sheets:
             if not z[0] < s.z_m < z[-1]:
                 raise InputError(f"sheet '{s.name}' at {s.z_m} m lies outside the layers")
+            if s.read_z_m is not None and not z[0] < s.read_z_m < z[-1]:
+                raise InputError(f"sheet '{s.name}': its read depth lies outside the layers")
+            if s.charge_z_max_m is not None and not s.z_m < s.charge_z_max_m < z[-1]:
+                raise InputError(f"sheet '{s.name}': its deepest centroid lies outside")
             if s.dos_J_m2 <= 0 or s.density_m2 < 0:
                 raise InputError(f"sheet '{s.name}' needs DOS > 0 and density >= 0")
 
@@ -465,9 +486,16 @@ def calibrate(
         bottom_potential_V=section.bottom_potential_V,
     )
     energy = []
+    read_idx = []
     for s, k in zip(section.sheets, idx, strict=True):
+        kr = k
+        if s.law is not None and s.read_depth_m != s.z_m:
+            kr = int(np.argmin(np.abs(z - s.read_depth_m)))
+            if abs(z[kr] - s.read_depth_m) > 1e-13:
+                raise RuntimeError(f"read depth of {s.name} is not on a mesh level")  # a bug
+        read_idx.append(kr)
         if s.law is not None:
-            energy.append(_law_offset(s, phi[k]))
+            energy.append(_law_offset(s, phi[kr]))
             continue
         if s.density_m2 > 1e-6 * s.dos_J_m2 * kT:
             mu = _inverse_tf(s.density_m2, s.dos_J_m2, kT)
@@ -486,4 +514,5 @@ def calibrate(
         "surface_charge_correction_C_m2": surface_correction,
         "phi_V": phi,
         "sheet_level": np.array(idx, dtype=int),
+        "read_level": np.array(read_idx, dtype=int),
     }

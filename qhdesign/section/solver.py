@@ -114,10 +114,13 @@ class FieldSolution:
     iterations: int
     residuals: tuple[float, ...]
     timings_s: dict = field(default_factory=dict)
+    read_level: np.ndarray | None = None
 
     def sheet_potential(self, i: int) -> np.ndarray:
-        """phi along sheet i (V), shape (nx,)."""
-        return self.phi_V[self.sheet_level[i]]
+        """phi that sheet i's density follows (V), shape (nx,): on the sheet's level, or on its
+        read level for a law sheet read above its charge."""
+        level = self.sheet_level if self.read_level is None else self.read_level
+        return self.phi_V[level[i]]
 
     def in_plane_field(self, i: int) -> np.ndarray:
         """E_x = -dphi/dx along sheet i (V/m), shape (nx,)."""
@@ -324,6 +327,7 @@ class CrossSectionSolver:
         du = ufl.TrialFunction(self.V)
         J_laws = []
         self._laws: list[tuple[int, np.ndarray, object, object]] = []
+        self._remote: dict[int, dict] = {}
         for i, s in enumerate(self.section.sheets):
             E = fem.Constant(msh, default_scalar_type(cal["energy_eV"][i]))
             D = fem.Constant(msh, default_scalar_type(s.dos_J_m2 * DOS_SCALE))
@@ -334,6 +338,10 @@ class CrossSectionSolver:
                 dn_fun = fem.Function(self.V)
                 dofs = fem.locate_dofs_topological(self.V, 1, ft.find(sheet_tags[i]))
                 self._laws.append((i, dofs, n_fun, dn_fun))
+                if self.grid.read_level[i] != self.grid.sheet_level[i]:
+                    # read above its charge: residual and Jacobian entries are added by hand
+                    self._setup_remote_read(i)
+                    continue
                 r_lump = None if wr is None else self._lumped_radius(sheet_tags[i], dofs)
                 F += forms.sheet(n_fun("+"), v, dS_n(sheet_tags[i]), r=r_lump)
                 J_laws.append(
@@ -347,7 +355,7 @@ class CrossSectionSolver:
                 r_sheet = self._lumped_radius(sheet_tags[i], dofs)
             F += forms.sheet(density, v, dS_v(sheet_tags[i]), r=r_sheet)
         J = None
-        if J_laws:
+        if self._laws:
             J = ufl.derivative(F, u, du)
             for term in J_laws:
                 J = J + term
@@ -357,6 +365,8 @@ class CrossSectionSolver:
         self.linear_solver = "lu" if use_lu else "gamg"
         opts = petsc.newton(self.options.rtol, self.options.atol, self.options.max_it)
         opts |= petsc.LU_MUMPS if use_lu else petsc.CG_GAMG
+        if self._remote and not use_lu:
+            opts["ksp_type"] = "gmres"  # a law read above its charge makes J non-symmetric
         self.problem = NonlinearProblem(
             F,
             u,
@@ -398,15 +408,132 @@ class CrossSectionSolver:
         out.x.array[dofs] = num[dofs] / np.where(den[dofs] > 0, den[dofs], 1.0)
         return out
 
+    def _node_weights(self) -> np.ndarray:
+        """int(hat_i) along a level for every x-node (nm), times r/r_max if axisymmetric: the
+        lumped weight of a sheet node, the vertex rule's own (exact in r)."""
+        x = self.grid.x_m / NM
+        w = np.zeros(x.size)
+        h = np.diff(x)
+        if not self.axisymmetric:
+            w[:-1] += 0.5 * h
+            w[1:] += 0.5 * h
+            return w
+        a, b = x[:-1], x[1:]
+        w[1:] += h * (2.0 * b + a) / 6.0  # rising hat on [a, b], node b
+        w[:-1] += h * (2.0 * a + b) / 6.0  # falling hat on [a, b], node a
+        return w / x[-1]
+
+    def _setup_remote_read(self, i: int) -> None:
+        """A law sheet that reads phi on another level (its well's upper interface) and puts its
+        charge at the law's centroid, split between its shallowest and deepest centroid levels.
+        Maps every owned node of those levels to the read node of the same x (gathered over the
+        ranks) and keeps the lumped weights for residual and Jacobian."""
+        imap = self.V.dofmap.index_map
+        n_own = imap.size_local
+        own = np.arange(n_own)
+        kr = int(self.grid.read_level[i])
+        read_own = own[self._dof_iz[:n_own] == kr]
+        glob = imap.local_to_global(read_own.astype(np.int32))
+        parts = self.comm.allgather((self._dof_ix[read_own].copy(), glob.copy()))
+        read_global = np.full(self.grid.x_m.size, -1, dtype=np.int64)
+        for ix, g in parts:
+            read_global[ix] = g
+        weights = self._node_weights()
+        ka = int(self.grid.sheet_level[i])
+        kb = int(self.grid.deep_level[i]) if self.grid.deep_level is not None else ka
+        levels = {}
+        for name, k in (("a", ka), ("b", kb)):
+            if name == "b" and k == ka:
+                continue
+            rows = own[self._dof_iz[:n_own] == k]
+            rows = rows[~np.isin(rows, self._bc_dofs)]
+            ix = self._dof_ix[rows]
+            levels[name] = {
+                "rows_local": rows,
+                "rows_global": imap.local_to_global(rows.astype(np.int32)).astype(np.int64),
+                "ix": ix,
+                "cols_global": read_global[ix],
+                "weight": weights[ix],
+            }
+        s = self.section.sheets[i]
+        z_a = float(self.grid.z_m[ka])
+        z_b = float(self.grid.z_m[kb])
+        self._remote[i] = {"read_own": read_own, "levels": levels, "z_a": z_a, "z_b": z_b}
+        if s.law.centroid_m is None or kb == ka:
+            self._remote[i]["z_b"] = z_a  # all charge on the sheet's own level
+
+    def _remote_terms(self, i: int):
+        """Per deposit level: (level dict, charge n w (nm^-2), d(n w)/dphi_read (nm^-2/V))."""
+        r = self._remote[i]
+        law = self.section.sheets[i].law
+        phi_r = self._read_potential(i)
+        out = []
+        span = r["z_b"] - r["z_a"]
+        for name, lev in r["levels"].items():
+            x = phi_r[lev["ix"]] - float(self.E[i].value)
+            n = law.density(x) * AREA_SCALE
+            dn = law.slope(x) * AREA_SCALE
+            if span > 0.0:
+                wb = np.clip((law.centroid(x) - r["z_a"]) / span, 0.0, 1.0)
+                dwb = law.centroid_slope(x) / span
+                inside = (law.centroid(x) > r["z_a"]) & (law.centroid(x) < r["z_b"])
+                dwb = np.where(inside, dwb, 0.0)
+            else:
+                wb = np.zeros_like(x)
+                dwb = np.zeros_like(x)
+            if name == "a":
+                w, dw = 1.0 - wb, -dwb
+            else:
+                w, dw = wb, dwb
+            out.append((lev, n * w, dn * w + n * dw))
+        return out
+
+    def _add_remote_residual(self, b) -> None:
+        """Add the charge n_i w_i l_i of every law sheet read above its charge to b."""
+        if not self._remote:
+            return
+        with b.localForm() as loc:
+            arr = loc.array
+            for i in self._remote:
+                for lev, charge, _ in self._remote_terms(i):
+                    np.add.at(arr, lev["rows_local"], charge * lev["weight"])
+
+    def _read_potential(self, i: int) -> np.ndarray:
+        """phi on the read line of law sheet i at every x-node (gathered from all ranks)."""
+        r = self._remote[i]
+        ro = r["read_own"]
+        parts = self.comm.allgather((self._dof_ix[ro].copy(), self.phi.x.array[ro].copy()))
+        out = np.full(self.grid.x_m.size, np.nan)
+        for ix, val in parts:
+            out[ix] = val
+        return out
+
     def _update_laws(self) -> None:
         """Nodal density (nm^-2) and slope (nm^-2/V) of every law sheet from the current phi
-        (owned and ghost dofs: phi's ghosts are current, so no scatter is needed)."""
+        (owned and ghost dofs: phi's ghosts are current, so no scatter is needed); a sheet that
+        reads above its charge takes phi from its read line at the same x."""
         phi = self.phi.x.array
         for i, dofs, n_fun, dn_fun in self._laws:
             law = self.section.sheets[i].law
+            if i in self._remote:
+                continue  # added to the residual and the Jacobian by hand
             x = phi[dofs] - float(self.E[i].value)
             n_fun.x.array[dofs] = law.density(x) * AREA_SCALE
             dn_fun.x.array[dofs] = law.slope(x) * AREA_SCALE
+
+    def _add_remote_jacobian(self, A) -> None:
+        """Add d(n_i w_i l_i)/d(phi_read) of every law sheet read above its charge to A (owned,
+        non-Dirichlet rows) and reassemble A."""
+        from petsc4py import PETSc
+
+        if not self._remote:
+            return
+        for i in self._remote:
+            for lev, _, slope in self._remote_terms(i):
+                vals = slope * lev["weight"]
+                for row, col, val in zip(lev["rows_global"], lev["cols_global"], vals, strict=True):
+                    A.setValue(int(row), int(col), float(val), addv=PETSc.InsertMode.ADD)
+        A.assemble()
 
     def _hook_laws(self, snes) -> None:
         """Refresh the law sheets before DOLFINx assembles the residual or the Jacobian at x."""
@@ -425,11 +552,18 @@ class CrossSectionSolver:
 
         def residual(snes_, x, b_, *a, **kw):
             load(x)
-            return f_func(snes_, x, b_, *a, **kw)
+            out = f_func(snes_, x, b_, *a, **kw)
+            self._add_remote_residual(b_)
+            return out
 
         def jacobian(snes_, x, A_, P_, *a, **kw):
             load(x)
-            return j_func(snes_, x, A_, P_, *a, **kw)
+            out = j_func(snes_, x, A_, P_, *a, **kw)
+            self._add_remote_jacobian(A_)
+            return out
+
+        if self._remote:
+            A.setOption(PETSc.Mat.Option.NEW_NONZERO_ALLOCATION_ERR, False)
 
         snes.setFunction(residual, b, args=f_args, kargs=f_kw)
         snes.setJacobian(jacobian, A, P, args=j_args, kargs=j_kw)
@@ -561,7 +695,7 @@ class CrossSectionSolver:
         kT = self.kT_target_eV * sc.e
         dens = []
         for i, s in enumerate(self.section.sheets):
-            row = grid_phi[self.grid.sheet_level[i]]
+            row = grid_phi[self.grid.read_level[i]]
             if s.law is not None:
                 dens.append(s.law.reported(row - self.calibration["energy_eV"][i]))
                 continue
@@ -573,6 +707,7 @@ class CrossSectionSolver:
             phi_V=grid_phi,
             sheet_names=tuple(s.name for s in self.section.sheets),
             sheet_level=self.grid.sheet_level.copy(),
+            read_level=self.grid.read_level.copy(),
             density_m2=np.array(dens).reshape(len(self.section.sheets), nx),
             bulk_density_m2=np.array([s.density_m2 for s in self.section.sheets]),
             sheet_energy_eV=np.asarray(self.calibration["energy_eV"], dtype=float).copy(),

@@ -82,7 +82,7 @@ class SheetTables:
 
     ``surface_potential_V`` (shape (M,)) is phi at the semiconductor surface of each solve and
     ``electrons_m2`` (shape (M, W)) the electrons of every well's subbands (``layer_electrons_m2``:
-    those inside each well layer), all in the order of
+    those inside each well layer; ``centroids_m`` their charge centroids), all in the order of
     ``gate_voltage_V`` (the sweep order), for a model that rebuilds the column of each solve."""
 
     gate_voltage_V: np.ndarray
@@ -91,6 +91,7 @@ class SheetTables:
     surface_potential_V: np.ndarray | None = None
     electrons_m2: np.ndarray | None = None
     layer_electrons_m2: np.ndarray | None = None
+    centroids_m: np.ndarray | None = None
 
     def well(self, name: str) -> SheetTable:
         return next(w for w in self.wells if w.name == name)
@@ -285,4 +286,5 @@ def sheet_tables(
         surface_potential_V=np.array(rows_top),
         electrons_m2=dens.copy(),
         layer_electrons_m2=lay.copy(),
+        centroids_m=np.where(np.isfinite(cen), cen, z_ref[None, :]),
     )
