@@ -25,18 +25,44 @@ ROOT = Path(__file__).resolve().parents[1]
 STACK = ROOT / "stacks" / "ql2417_screened.toml"
 
 
-def _section():
+def _section(sheets: str = "1d-tables"):
     from qhdesign.pipeline import section_from_stack
     from qhdesign.stack import load_stack
 
-    return section_from_stack(load_stack(STACK))
+    return section_from_stack(load_stack(STACK), sheets=sheets)
 
 
-def edge_run() -> dict:
+def tables_run() -> dict:
+    """Cold cost of the 1D-table sheets in a fresh process: the 1D stage, then the tables
+    (one freeze-out and the gated 1D solves), then the laws (column rebuilds), each timed."""
+    from qhdesign import pipeline
+    from qhdesign.section.model import cross_section_from_sheet_model
+    from qhdesign.sp1d import solve_bands
+    from qhdesign.sp1d.sheets import sheet_model
+    from qhdesign.stack import load_stack
+
+    stack = load_stack(STACK)
+    t0 = time.perf_counter()
+    bands = solve_bands(stack)
+    base = cross_section_from_sheet_model(sheet_model(stack, bands))
+    t1 = time.perf_counter()
+    tab = pipeline.stack_tables(stack)
+    t2 = time.perf_counter()
+    pipeline.tabulated_section(base, stack, bands)
+    t3 = time.perf_counter()
+    return {
+        "bands_s": t1 - t0,
+        "tables_s": t2 - t1,
+        "laws_s": t3 - t2,
+        "solves": int(tab.gate_voltage_V.size),
+    }
+
+
+def edge_run(sheets: str = "1d-tables") -> dict:
     import qhdesign.section.solver as solver_mod
     from qhdesign.section import EdgeSettings, solve_edge
 
-    section = _section()
+    section = _section(sheets)
     solve_edge(section, EdgeSettings(-1.0))  # warm-up: JIT forms into the cache
     mesh_t, solve_t, its = [], [], []
     orig_init, orig_solve = (
@@ -105,7 +131,10 @@ def _child(args: list[str]) -> dict:
 
 def main() -> None:
     if len(sys.argv) > 1 and sys.argv[1] == "--edge":
-        print(json.dumps(edge_run()))
+        print(json.dumps(edge_run(sys.argv[2] if len(sys.argv) > 2 else "1d-tables")))
+        return
+    if len(sys.argv) > 1 and sys.argv[1] == "--tables":
+        print(json.dumps(tables_run()))
         return
     if len(sys.argv) > 1 and sys.argv[1] == "--scale":
         print(json.dumps(scaling_run(float(sys.argv[2]), sys.argv[3])))
@@ -121,6 +150,14 @@ def main() -> None:
     print(f"| meshing | {e['mesh_s']:.2f} s ({100 * e['mesh_s'] / e['total_s']:.0f} %) |")
     print(f"| Newton solves | {e['solve_s']:.2f} s |")
     print(f"| Newton iterations per solve | {', '.join(map(str, e['newton_iterations']))} |")
+    c = _child(["--edge", "constant-dos"])
+    print(f"| total with constant-DOS sheets, same run | {c['total_s']:.2f} s ({c['dofs']} dofs) |")
+    t = _child(["--tables"])
+    print("\n| 1D-table sheets, cold, fresh process | value |\n|---|---|")
+    print(f"| 1D stage (zero bias) | {t['bands_s']:.2f} s |")
+    print(f"| sheet tables ({t['solves']} gated 1D solves, one freeze-out) | {t['tables_s']:.2f} s |")
+    print(f"| laws (column rebuilds, isotonic fit) | {t['laws_s']:.3f} s |")
+    print(f"| load average after | {os.getloadavg()[0]:.2f} |")
     print(
         "\n| refine | linear solver | dofs | mesh (s) | set-up (s) | cold solve (s) | Newton its "
         "| peak RSS (MB) |\n|---|---|---|---|---|---|---|---|"

@@ -294,6 +294,10 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
         cen = np.clip(tables.centroids_m[order, k], s.z_m, s.charge_z_max_m or s.z_m)
         keep = np.concatenate(([True], np.diff(x) > 0))  # drop repeated knots of an empty well
         x, n, layer, cen = x[keep], np.maximum(n[keep], 0.0), layer[keep], cen[keep]
+        if x.size < 2 or not n.max() > 0:
+            # a well that holds no electrons anywhere in the sweep keeps the closed form
+            sheets.append(replace(s, read_z_m=None, charge_z_max_m=None))
+            continue
         mono = _isotonic(n)
         worst = float(np.max(np.abs(mono - n))) / max(float(n.max()), 1.0)
         if worst > TABLE_MONOTONE_TOL:
@@ -315,7 +319,13 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
             reported_m2=np.maximum(layer, 0.0),
             centroid_m=cen if s.charge_z_max_m is not None else None,
         )
-        sheets.append(replace(s, law=law))
+        # the density the sheet reports in the far field is its law's own there (it differs
+        # from the 1D stage's per-layer density by the tail ratio's interpolation, 5e-5 on
+        # QL-2417); edge levels and tails are measured against it
+        reported_far = s.density_m2
+        if s.far_charge_m2 > law.density_m2[0] + 1e-6 * max(float(law.density_m2[-1]), 1.0):
+            reported_far = float(law.reported(law.inverse(s.far_charge_m2)))
+        sheets.append(replace(s, law=law, density_m2=reported_far))
     return replace(section, sheets=tuple(sheets))
 
 

@@ -22,7 +22,7 @@ from qhdesign.limits import MIN_GATE_VOLTAGE_V, check_field, check_gate_voltage 
 from qhdesign.results import Table, flatten
 
 from .geometry import GateLayout, MeshOptions
-from .model import CrossSection, sheet_level_V
+from .model import CrossSection, sheet_level_V, sheet_screening
 from .profile import (
     EDGE_FRACTION,
     STRIP_MIN_WIDTH_LB,
@@ -516,12 +516,13 @@ def tail_model(section: CrossSection, surface: str) -> dict:
     if not filled:
         return {}
     top = min(filled, key=lambda s: s.z_m)
+    depth, c_q = sheet_screening(top)
     lz = np.asarray(section.layer_z_m)
     eps = np.asarray(section.layer_permittivity)
     # thickness-weighted permittivity between the surface and the top sheet
-    edges = np.clip(lz, 0.0, top.z_m)
-    eps_above = float(np.sum(np.diff(edges) * eps) / top.z_m)
-    closed = top_mode_length(top.z_m, eps_above, top.dos_J_m2, surface)
+    edges = np.clip(lz, 0.0, depth)
+    eps_above = float(np.sum(np.diff(edges) * eps) / depth)
+    closed = top_mode_length(depth, eps_above, c_q / sc.e**2, surface)
     modes = tail_modes(section, surface, count=8)
     near = min(modes, key=lambda m: abs(m - closed)) if modes else None
     return {

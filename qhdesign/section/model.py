@@ -40,6 +40,7 @@ __all__ = [
     "cross_section_from_sheet_model",
     "lump_volume_charge",
     "sheet_level_V",
+    "sheet_screening",
     "solve_column",
     "thomas_fermi_density",
 ]
@@ -287,6 +288,18 @@ def _law_offset(s: SheetSpec, phi_V: float) -> float:
     raise InputError(
         f"well '{s.name}' is empty in the 1D solve and has no subband energy to place it"
     )
+
+
+def sheet_screening(sheet) -> tuple[float, float]:
+    """(depth m, C_q F/m^2) with which a sheet screens a small perturbation in the far field:
+    a closed-form sheet at its depth with e^2 D; a law sheet at the depth where it reads the
+    potential, with e dn/dphi of its law at its far-field charge (docs/derivations.md, "Edge
+    tails": to first order the tail depends on where the sheet reads, not where its charge is)."""
+    law = getattr(sheet, "law", None)
+    if law is None:
+        return float(sheet.z_m), sc.e**2 * float(sheet.dos_J_m2)
+    x = law.inverse(sheet.far_charge_m2)
+    return float(sheet.read_depth_m), sc.e * float(law.slope(x))
 
 
 def sheet_level_V(sheet, energy_eV: float, n_m2: float, kT_J: float) -> float:

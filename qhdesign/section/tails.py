@@ -82,9 +82,9 @@ def tail_modes(section, surface: str, count: int = 2) -> tuple[float, ...]:
     """
     layers = np.asarray(section.layer_z_m, dtype=float)
     eps = np.asarray(section.layer_permittivity, dtype=float)
-    sheets = sorted(
-        (float(s.z_m), sc.e**2 * float(s.dos_J_m2)) for s in section.sheets if s.density_m2 > 0
-    )
+    from .model import sheet_screening
+
+    sheets = sorted(sheet_screening(s) for s in section.sheets if s.density_m2 > 0)
     total = float(layers[-1] - layers[0])
     # ratio 1.0045 between neighbours: far finer than the spacing of the slow modes
     ks = np.geomspace(0.05 / total, 400.0 / total, 2000)

@@ -29,18 +29,16 @@ import numpy as np
 import pytest
 from scipy import constants as sc
 
-pytest.importorskip("dolfinx")
-
-from qhdesign.pipeline import section_from_stack  # noqa: E402
-from qhdesign.section import (  # noqa: E402
+from qhdesign.pipeline import section_from_stack
+from qhdesign.section import (
     CrossSectionSolver,
     GateLayout,
     MeshOptions,
     SolverOptions,
 )
-from qhdesign.sheetlaw import SheetLaw  # noqa: E402
-from qhdesign.sp1d import freeze_out, gate_response  # noqa: E402
-from qhdesign.stack import load_stack  # noqa: E402
+from qhdesign.sheetlaw import SheetLaw
+from qhdesign.sp1d import freeze_out, gate_response
+from qhdesign.stack import load_stack
 
 ROOT = Path(__file__).resolve().parents[2]
 STACKS = ("ql2417_screened", "ql2403_heterojunction", "ql2409_doped_well")

@@ -87,7 +87,7 @@ def test_geometric_capacitance_in_series(which, coated, record_check):
         sec, solver = coated
         v0 = -0.6
     else:
-        sec = section_from_stack(BARE)
+        sec = section_from_stack(BARE, sheets="constant-dos")  # the closed-form sheet's 1/(e^2 D)
         solver = CrossSectionSolver(sec, GateLayout.single_edge(), MeshOptions(), SolverOptions())
         v0 = 0.0
     dv = 0.1
