@@ -155,7 +155,9 @@ def main() -> None:
     t = _child(["--tables"])
     print("\n| 1D-table sheets, cold, fresh process | value |\n|---|---|")
     print(f"| 1D stage (zero bias) | {t['bands_s']:.2f} s |")
-    print(f"| sheet tables ({t['solves']} gated 1D solves, one freeze-out) | {t['tables_s']:.2f} s |")
+    print(
+        f"| sheet tables ({t['solves']} gated 1D solves, one freeze-out) | {t['tables_s']:.2f} s |"
+    )
     print(f"| laws (column rebuilds, isotonic fit) | {t['laws_s']:.3f} s |")
     print(f"| load average after | {os.getloadavg()[0]:.2f} |")
     print(

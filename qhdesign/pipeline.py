@@ -209,10 +209,10 @@ def stack_tables(stack, *, step_V: float = TABLE_STEP_V):
     """Sheet tables of a stack (:func:`qhdesign.sp1d.sheet_tables.sheet_tables`), from 0 V down
     until every well is empty (at most to :data:`TABLE_LOWEST_V` or the stack's gate limit),
     cached in this process by the stack's content and the step."""
+    import time
+
     from qhdesign.limits import MIN_GATE_VOLTAGE_V
     from qhdesign.sp1d.sheet_tables import sheet_tables
-
-    import time
 
     key = (_stack_key(stack), float(step_V))
     if key not in _TABLE_CACHE:
@@ -280,8 +280,12 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
         c_lo, c_hi = float(c.min()), float(c.max())
         deep = c_hi if c_hi - c_lo > CENTROID_SPAN_MIN_M else None
         moved.append(
-            replace(s, z_m=c_lo if deep is not None else s.z_m, read_z_m=tops[s.name],
-                    charge_z_max_m=deep)
+            replace(
+                s,
+                z_m=c_lo if deep is not None else s.z_m,
+                read_z_m=tops[s.name],
+                charge_z_max_m=deep,
+            )
         )
     section = replace(section, sheets=tuple(moved))
     phi_col = _column_potentials(section, tables)

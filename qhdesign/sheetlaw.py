@@ -74,7 +74,9 @@ class SheetLaw:
         if np.any(np.diff(x) <= 0) or not np.all(np.isfinite(x)):
             raise InputError("sheet-law knots must increase strictly", key="x_V")
         if np.any(n < 0) or np.any(np.diff(n) < 0) or not np.all(np.isfinite(n)):
-            raise InputError("sheet-law densities must be >= 0 and non-decreasing", key="density_m2")
+            raise InputError(
+                "sheet-law densities must be >= 0 and non-decreasing", key="density_m2"
+            )
         object.__setattr__(self, "x_V", x)
         object.__setattr__(self, "density_m2", n)
         object.__setattr__(self, "_pchip", PchipInterpolator(x, n, extrapolate=False))

@@ -212,10 +212,10 @@ def edge_strip(
         Relative permittivity at the primary well.
     potential
         Optional ``(phi_V, energy_eV, sheet, kT_J)``: the sheet potential on the same nodes, its
-        calibrated energy, the sheet (a SheetSpec, or its DOS for a closed-form sheet) and k_B T. Density levels are then located on the potential, which is
-        piecewise linear on the mesh, instead of on n(r), which has a kink at the edge: the
-        crossing is the discrete solution's own and moves smoothly with the gate voltage (as the
-        edge stage does).
+        calibrated energy, the sheet (a SheetSpec, or its DOS for a closed-form sheet) and k_B T.
+        Density levels are then located on the potential, which is piecewise linear on the mesh,
+        instead of on n(r), which has a kink at the edge: the crossing is the discrete solution's
+        own and moves smoothly with the gate voltage (as the edge stage does).
 
     Raises
     ------
@@ -353,9 +353,8 @@ def _sheet_states(sol: FieldSolution, section: CrossSection, gate: tuple[float, 
         rc = None
         if cut and s.density_m2 > 0:
             # located on the sheet potential (piecewise linear), as the edge stage does
-            level = sheet_level_V(
-                s, sol.sheet_energy_eV[i], EDGE_FRACTION * s.density_m2, sc.k * section.temperature_K
-            )
+            kT = sc.k * section.temperature_K
+            level = sheet_level_V(s, sol.sheet_energy_eV[i], EDGE_FRACTION * s.density_m2, kT)
             rc = _from_centre(r, sol.sheet_potential(i), level)
         out.append(
             SheetState(s.name, s.role, float(s.density_m2), float(n[0]), gated, bool(cut), rc)

@@ -344,9 +344,7 @@ class CrossSectionSolver:
                     continue
                 r_lump = None if wr is None else self._lumped_radius(sheet_tags[i], dofs)
                 F += forms.sheet(n_fun("+"), v, dS_n(sheet_tags[i]), r=r_lump)
-                J_laws.append(
-                    forms.sheet(dn_fun("+") * du("+"), v, dS_n(sheet_tags[i]), r=r_lump)
-                )
+                J_laws.append(forms.sheet(dn_fun("+") * du("+"), v, dS_n(sheet_tags[i]), r=r_lump))
                 continue
             density = forms.thomas_fermi_density(u("+"), E, D, self.kT)
             r_sheet = wr

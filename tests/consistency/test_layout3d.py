@@ -33,7 +33,8 @@ def solved():
 
     stack = load_stack(ROOT / "stacks" / "ql2417_screened.toml")
     lay = load_layout(CIRCLE, stack)
-    sol = LayoutSolver(section_from_stack(stack, sheets="constant-dos"), lay, Layout3DOptions(refine=SMALL))
+    section = section_from_stack(stack, sheets="constant-dos")
+    sol = LayoutSolver(section, lay, Layout3DOptions(refine=SMALL))
     sol.solve()
     return sol
 

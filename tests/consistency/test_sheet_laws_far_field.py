@@ -126,8 +126,9 @@ def test_tabulated_closed_form_reproduces_the_closed_form_solve(record_check):
     tabulated = replace(section, sheets=tuple(replace(s, law=law(s)) for s in section.sheets))
     opts = SolverOptions(sheet_quadrature_degree=0)
     sols = [
-        CrossSectionSolver(sec, GateLayout.single_edge(), MeshOptions(refine=0.5), opts,
-                           comm=MPI.COMM_SELF).solve(-0.6)
+        CrossSectionSolver(
+            sec, GateLayout.single_edge(), MeshOptions(refine=0.5), opts, comm=MPI.COMM_SELF
+        ).solve(-0.6)
         for sec in (section, tabulated)
     ]
     dphi = float(np.nanmax(np.abs(sols[0].phi_V - sols[1].phi_V)))
@@ -170,7 +171,11 @@ def test_axisymmetric_law_sheets_hold_the_bulk_on_the_axis(record_check):
     worst = 0.0
     for sec in (section, tab):
         sol = CrossSectionSolver(
-            sec, layout, mesh, SolverOptions(sheet_quadrature_degree=0), comm=MPI.COMM_SELF,
+            sec,
+            layout,
+            mesh,
+            SolverOptions(sheet_quadrature_degree=0),
+            comm=MPI.COMM_SELF,
             axisymmetric=True,
         ).solve(-1.0)
         for i, s in enumerate(sec.sheets):

@@ -75,7 +75,7 @@ def test_isotonic_matches_a_constrained_least_squares_solve():
         assert np.all(np.diff(got) >= -1e-12)
         cons = [{"type": "ineq", "fun": (lambda z, i=i: z[i + 1] - z[i])} for i in range(7)]
         ref = minimize(
-            lambda z: np.sum((z - y) ** 2),
+            lambda z, y=y: np.sum((z - y) ** 2),
             np.sort(y),
             constraints=cons,
             method="SLSQP",
