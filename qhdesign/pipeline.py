@@ -290,6 +290,7 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
     section = replace(section, sheets=tuple(moved))
     phi_col = _column_potentials(section, tables)
     sheets = []
+    fallback: dict[str, str] = {}
     for k, s in enumerate(section.sheets):
         order = np.argsort(phi_col[:, k], kind="stable")
         x = phi_col[order, k]
@@ -298,18 +299,28 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
         cen = np.clip(tables.centroids_m[order, k], s.z_m, s.charge_z_max_m or s.z_m)
         keep = np.concatenate(([True], np.diff(x) > 0))  # drop repeated knots of an empty well
         x, n, layer, cen = x[keep], np.maximum(n[keep], 0.0), layer[keep], cen[keep]
+        closed = replace(
+            s,
+            density_m2=s.far_charge_m2,
+            charge_density_m2=None,
+            read_z_m=None,
+            charge_z_max_m=None,
+        )
         if x.size < 2 or not n.max() > 0:
             # a well that holds no electrons anywhere in the sweep keeps the closed form
-            sheets.append(replace(s, read_z_m=None, charge_z_max_m=None))
+            sheets.append(closed)
             continue
         mono = _isotonic(n)
         worst = float(np.max(np.abs(mono - n))) / max(float(n.max()), 1.0)
         if worst > TABLE_MONOTONE_TOL:
-            raise InputError(
-                f"the 1D table of well '{s.name}' is not monotone in its sheet potential "
-                f"(off by {worst:.2%} of its largest density; allowed {TABLE_MONOTONE_TOL:.1%})",
-                key="sheets",
+            # no law for this well: it keeps the closed-form sheet (with its subbands' electrons,
+            # tails included, as its far-field charge), and the report says so
+            fallback[s.name] = (
+                f"its 1D table is not monotone in its sheet potential (off by {worst:.2%} of its "
+                f"largest density; allowed {TABLE_MONOTONE_TOL:.1%}): closed-form sheet"
             )
+            sheets.append(closed)
+            continue
         n = mono
         top = int(np.argmax(n >= n[-1]))  # a flat run at the top keeps its first knot only
         x, n, layer, cen = x[: top + 1], n[: top + 1], layer[: top + 1], cen[: top + 1]
@@ -328,8 +339,14 @@ def tabulated_section(section, stack, bands, *, step_V: float = TABLE_STEP_V):
         # QL-2417); edge levels and tails are measured against it
         reported_far = s.density_m2
         if s.far_charge_m2 > law.density_m2[0] + 1e-6 * max(float(law.density_m2[-1]), 1.0):
-            reported_far = float(law.reported(law.inverse(s.far_charge_m2)))
+            try:
+                reported_far = float(law.reported(law.inverse(s.far_charge_m2)))
+            except InputError as err:  # the law ends flat below the far-field charge
+                fallback[s.name] = f"{err.args[0] if err.args else err}: closed-form sheet"
+                sheets.append(closed)
+                continue
         sheets.append(replace(s, law=law, density_m2=reported_far))
+    _LAST_TABLE_INFO["fallback"] = dict(fallback)
     return replace(section, sheets=tuple(sheets))
 
 
@@ -352,6 +369,8 @@ def sheet_model_info(section) -> dict:
             for s in laws
         },
     }
+    if _LAST_TABLE_INFO.get("fallback"):
+        out["closed_form_wells"] = dict(_LAST_TABLE_INFO["fallback"])
     if "1D table" in labels:
         out["table_step_V"] = _LAST_TABLE_INFO.get("step_V")
         out["table_solves"] = _LAST_TABLE_INFO.get("solves")
@@ -368,7 +387,8 @@ def _law_top(x, n, layer):
     nothing about how the well screens beside a gate, where the law is read around the far-field
     state just above the table. If the law's end slope is below a tenth of the table's secant
     slope between 90 % and 99 % of its largest density (the well emptying itself), one knot
-    1 mV above the top continues the law with that secant slope.
+    1 mV above the top continues the law with that secant slope (the end slope is the monotone
+    cubic's own, which is zero where the last two segments disagree in steepness).
     """
     if n.size < 3 or not n[-1] > 0:
         return x, n, layer
@@ -378,8 +398,10 @@ def _law_top(x, n, layer):
         i90 = max(i99 - 1, 0)
     if i99 == i90 or not x[i99] > x[i90]:
         return x, n, layer
+    from scipy.interpolate import PchipInterpolator
+
     s_c = (n[i99] - n[i90]) / (x[i99] - x[i90])
-    end = (n[-1] - n[-2]) / (x[-1] - x[-2])
+    end = float(PchipInterpolator(x, n).derivative()(x[-1]))  # the law's own end slope
     if not s_c > 0 or end >= 0.1 * s_c:
         return x, n, layer
     ratio = layer[-1] / n[-1]

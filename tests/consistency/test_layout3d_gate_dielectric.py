@@ -71,7 +71,9 @@ def solved(tmp_path_factory):
     (d / "coated.toml").write_text(COATED_TXT)
     stack = loads_stack(COATED_TXT)
     lay = loads_layout(_layout(d), source="two.toml", base=d, stack=stack)
-    sol = LayoutSolver(section_from_stack(stack), lay, Layout3DOptions(refine=0.5))
+    sol = LayoutSolver(
+        section_from_stack(stack, sheets="constant-dos"), lay, Layout3DOptions(refine=0.5)
+    )
     sol.solve()
     return sol
 
