@@ -58,6 +58,8 @@ def _load_section(
         sheet_xc=sheet_xc,
         compressibility_floor=compressibility_floor,
     )
+    for name, why in _sheet_info(section).get("closed_form_wells", {}).items():
+        warn(f"well {name}: {why}")
     return stack, section, exposed_surface_model(stack, section, surface)
 
 
