@@ -363,13 +363,25 @@ class CrossSectionSolver:
         self.linear_solver = "lu" if use_lu else "gamg"
         opts = petsc.newton(self.options.rtol, self.options.atol, self.options.max_it)
         opts |= petsc.LU_MUMPS if use_lu else petsc.CG_GAMG
+        P = None
         if self._remote and not use_lu:
-            opts["ksp_type"] = "gmres"  # a law read above its charge makes J non-symmetric
+            # a law read above its charge makes J non-symmetric: GMRES, preconditioned by GAMG on
+            # the symmetric part with each such sheet's slope put on its own (shallow) level
+            opts["ksp_type"] = "gmres"
+            opts["ksp_gmres_restart"] = 100
+            P = J
+            for i in self._remote:
+                dn_pre = fem.Function(self.V)
+                self._remote[i]["precond"] = dn_pre
+                lev = self._remote[i]["levels"]["a"]
+                r_lump = None if wr is None else self._lumped_radius(sheet_tags[i], lev["dofs_all"])
+                P = P + forms.sheet(dn_pre("+") * du("+"), v, dS_n(sheet_tags[i]), r=r_lump)
         self.problem = NonlinearProblem(
             F,
             u,
             bcs=[self.bc],
             J=J,
+            P=P,
             petsc_options_prefix=petsc.options_prefix("section"),
             petsc_options=opts,
         )
@@ -443,6 +455,7 @@ class CrossSectionSolver:
         for name, k in (("a", ka), ("b", kb)):
             if name == "b" and k == ka:
                 continue
+            every = np.nonzero(self._dof_iz == k)[0].astype(np.int32)
             rows = own[self._dof_iz[:n_own] == k]
             rows = rows[~np.isin(rows, self._bc_dofs)]
             ix = self._dof_ix[rows]
@@ -452,6 +465,8 @@ class CrossSectionSolver:
                 "ix": ix,
                 "cols_global": read_global[ix],
                 "weight": weights[ix],
+                "dofs_all": every,
+                "ix_all": self._dof_ix[every],
             }
         s = self.section.sheets[i]
         z_a = float(self.grid.z_m[ka])
@@ -519,6 +534,17 @@ class CrossSectionSolver:
             n_fun.x.array[dofs] = law.density(x) * AREA_SCALE
             dn_fun.x.array[dofs] = law.slope(x) * AREA_SCALE
 
+    def _update_remote_precond(self) -> None:
+        """dn/dphi_read (nm^-2/V) of every law sheet read above its charge on all local dofs of
+        its shallow level: the preconditioner's local stand-in for the read coupling."""
+        for i, r in self._remote.items():
+            pre = r.get("precond")
+            if pre is None:
+                continue
+            lev = r["levels"]["a"]
+            x = self._read_potential(i)[lev["ix_all"]] - float(self.E[i].value)
+            pre.x.array[lev["dofs_all"]] = self.section.sheets[i].law.slope(x) * AREA_SCALE
+
     def _add_remote_jacobian(self, A) -> None:
         """Add d(n_i w_i l_i)/d(phi_read) of every law sheet read above its charge to A (owned,
         non-Dirichlet rows) and reassemble A."""
@@ -556,6 +582,7 @@ class CrossSectionSolver:
 
         def jacobian(snes_, x, A_, P_, *a, **kw):
             load(x)
+            self._update_remote_precond()
             out = j_func(snes_, x, A_, P_, *a, **kw)
             self._add_remote_jacobian(A_)
             return out
