@@ -41,12 +41,6 @@ class SheetTable:
         Electrons of the well's subbands (m^-2), shape (M,).
     centroid_m
         Their charge centroid (m); for an empty well the lowest subband's centroid, shape (M,).
-    sheet_potential_V
-        The potential at ``reference_z_m`` that a column holding the well's electrons as one
-        sheet at that depth (everything else unchanged) would have under the gate (V), shape (M,):
-        ``potential_V`` - (e/eps_0) sum over the electrons above the depth of
-        their distance to it in units of dz/eps_r (docs/models.md, "Sheets that follow the
-        gate"). A 2D stage that puts the well's charge on one sheet reads this potential.
     layer_density_m2
         Electrons inside the well layer (m^-2), the 1D stage's per-well density (tails of its
         subbands in the barriers excluded, other electrons in the layer included), shape (M,).
@@ -59,12 +53,6 @@ class SheetTable:
     density_m2: np.ndarray
     centroid_m: np.ndarray
     layer_density_m2: np.ndarray | None = None
-    sheet_potential_V: np.ndarray | None = None
-
-    @property
-    def sheet_law_potential_V(self) -> np.ndarray:
-        """The potential a sheet model should read (V): ``sheet_potential_V`` if tabulated."""
-        return self.potential_V if self.sheet_potential_V is None else self.sheet_potential_V
 
     def density(self, phi_V):
         """Sheet density (m^-2) at potential ``phi_V`` (linear interpolation; clamped at the
@@ -107,9 +95,6 @@ class SheetTables:
                     "potential_V": w.potential_V.tolist(),
                     "density_m2": w.density_m2.tolist(),
                     "centroid_m": w.centroid_m.tolist(),
-                    "sheet_potential_V": None
-                    if w.sheet_potential_V is None
-                    else w.sheet_potential_V.tolist(),
                     "layer_density_m2": None
                     if w.layer_density_m2 is None
                     else w.layer_density_m2.tolist(),
@@ -145,34 +130,6 @@ def _well_charges(layout, st, wells):
             lowest = mine[np.argmin(st.energies_J[mine])]
             cen[k] = float(cell[lowest] @ zc)
     return dens, cen
-
-
-def _sheet_offsets(layout, st, wells, z_ref):
-    """Potential change (V) at each well's reference depth when its own electrons are moved onto
-    one sheet there, the gate above holding its potential and no field below the column:
-    -(e/eps_0) sum_i n_i R(z_i -> z_ref) over the cells above z_ref, n_i the electrons of the
-    well's subbands in cell i (m^-2) and R the path integral of dz/eps_r."""
-    dev = layout.device
-    kT = sc.k * st.temperature_K
-    occ = subband_dos(st.subband_mass) * kT * np.logaddexp(0.0, -st.energies_J / kT)
-    weights = subband_wells(layout, st.psi)[:, list(wells)]
-    owner = np.argmax(weights, axis=1)
-    h = dev.h
-    zc = dev.centres
-    p2 = st.psi**2
-    cell = 0.5 * (p2[:, :-1] + p2[:, 1:]) * h
-    r_nodes = np.concatenate(([0.0], np.cumsum(h / dev.eps)))  # int dz/eps_r from the top node
-    r_centre = r_nodes[:-1] + 0.5 * h / dev.eps
-    out = np.zeros(len(wells))
-    for k in range(len(wells)):
-        mine = np.nonzero(owner == k)[0]
-        if mine.size == 0:
-            continue
-        n_cell = occ[mine] @ cell[mine]
-        above = zc < z_ref[k]
-        r_ref = float(np.interp(z_ref[k], dev.z, r_nodes))
-        out[k] = -sc.e / sc.epsilon_0 * float(n_cell[above] @ (r_ref - r_centre[above]))
-    return out
 
 
 def sheet_tables(
@@ -221,7 +178,7 @@ def sheet_tables(
     layout = frozen.layout
     wells = layout.well_layers
     z = layout.device.z
-    rows_phi, rows_n, rows_c, rows_l, rows_s, used = [], [], [], [], [], []
+    rows_phi, rows_n, rows_c, rows_l, used = [], [], [], [], []
     rows_top: list[float] = []
     prev: list[np.ndarray] = []
     last = None
@@ -249,7 +206,6 @@ def sheet_tables(
                 0.5 * (layout.layer_z[np.array(wells)] + layout.layer_z[np.array(wells) + 1]),
             )
         rows_phi.append(np.interp(z_ref, z, st.phi_V))
-        rows_s.append(rows_phi[-1] + _sheet_offsets(layout, st, wells, z_ref))
         rows_n.append(dens)
         rows_c.append(cen)
         rows_top.append(float(np.interp(0.0, z, st.phi_V)))
@@ -261,7 +217,6 @@ def sheet_tables(
     dens = np.array(rows_n)
     cen = np.array(rows_c)
     lay = np.array(rows_l)
-    sheet_phi = np.array(rows_s)
     out = []
     for k, li in enumerate(wells):
         order = np.argsort(phi[:, k])
@@ -276,7 +231,6 @@ def sheet_tables(
                 density_m2=dens[order, k],
                 centroid_m=c,
                 layer_density_m2=lay[order, k],
-                sheet_potential_V=sheet_phi[order, k],
             )
         )
     return SheetTables(
