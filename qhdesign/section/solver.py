@@ -588,10 +588,51 @@ class CrossSectionSolver:
             return out
 
         if self._remote:
+            same = P is None or P.handle == A.handle
+            A = self._with_remote_pattern(A)
+            self.problem._A = A  # the matrix SNES assembles into (see NonlinearProblem.A)
+            if same:
+                P = A
             A.setOption(PETSc.Mat.Option.NEW_NONZERO_ALLOCATION_ERR, False)
 
         snes.setFunction(residual, b, args=f_args, kargs=f_kw)
         snes.setJacobian(jacobian, A, P, args=j_args, kargs=j_kw)
+
+    def _with_remote_pattern(self, A0):
+        """A copy of DOLFINx's Jacobian matrix whose preallocated pattern also holds the entries
+        that couple a law sheet's charge levels to its read level (inserting them into A0 would
+        make PETSc reallocate the matrix for each new entry on the first assembly)."""
+        from dolfinx.fem.petsc import assemble_matrix
+        from petsc4py import PETSc
+
+        if not A0.assembled:  # the pattern DOLFINx preallocated: assemble once to read it
+            assemble_matrix(A0, self.problem.J, bcs=[self.bc])
+            A0.assemble()
+        ai, aj, _ = A0.getValuesCSR()
+        r0, _r1 = A0.getOwnershipRange()
+        n = ai.size - 1
+        extra_rows, extra_cols = [], []
+        for r in self._remote.values():
+            for lev in r["levels"].values():
+                extra_rows.append(lev["rows_global"] - r0)
+                extra_cols.append(lev["cols_global"])
+        rows = np.concatenate([np.repeat(np.arange(n), np.diff(ai)), *extra_rows])
+        cols = np.concatenate([aj.astype(np.int64), *extra_cols])
+        key = np.unique(rows.astype(np.int64) * (A0.getSize()[1] + 1) + cols)
+        rows = key // (A0.getSize()[1] + 1)
+        cols = key % (A0.getSize()[1] + 1)
+        ptr = np.zeros(n + 1, dtype=PETSc.IntType)
+        np.add.at(ptr, rows + 1, 1)
+        ptr = np.cumsum(ptr).astype(PETSc.IntType)
+        A = PETSc.Mat().createAIJ(
+            A0.getSizes(),
+            csr=(ptr, cols.astype(PETSc.IntType), np.zeros(cols.size, dtype=PETSc.ScalarType)),
+            comm=A0.getComm(),
+        )
+        A.setLGMap(*A0.getLGMap())
+        A.setOptionsPrefix(A0.getOptionsPrefix())
+        A.assemble()
+        return A
 
     def radial_weight(self):
         """The weight of every integrand: r / r_max (UFL) if axisymmetric, else None."""
