@@ -26,6 +26,7 @@ STAGES = [  # (prefix of the test file name, heading)
     ("tests/reference/test_tf2d_island", "Island capacitances"),
     ("tests/reference/test_island_operating", "Island at the operating point"),
     ("tests/reference/test_landau", "Landau levels and exchange"),
+    ("tests/reference/test_sheetxc", "Sheets' own exchange and correlation"),
     ("tests/reference/test_tf2d_", "2D Thomas–Fermi"),
     ("tests/reference/test_scattering", "Disorder estimate"),
     ("tests/reference/test_interferometer", "Interferometer figures"),
