@@ -402,7 +402,10 @@ def build_review(stack_file: str | Path, settings: ReportSettings | None = None)
             MeshOptions(),
             SolverOptions(exposed=surf),
         )
+        from .pipeline import sheet_model_info
+
         data["edge"] = edge.to_dict()
+        data["edge"]["sheet_model"] = sheet_model_info(section)
         results["edge"] = edge
     if s.island_radius_m is not None:
         from .island_options import island_inputs
@@ -489,6 +492,9 @@ def render_html(review: Review) -> str:
             for k in ("surface", "edge_fraction_of_bulk")
             if k in data["edge"]
         } or "2D Thomas–Fermi, defaults"
+        sheet = data["edge"].get("sheet_model", {}).get("model")
+        if sheet and isinstance(models["edge"], dict):
+            models["edge"]["sheets"] = sheet
     models = {k: _plain(v) for k, v in models.items()}
     return tpl.render(
         r=review,
