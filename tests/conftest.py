@@ -189,6 +189,7 @@ FEM_MODULES = (
     "test_island_operating_reference.py",
     "test_layout3d.py",
     "test_layout3d_pinchoff.py",
+    "test_layout3d_island.py",
 )
 
 
@@ -219,6 +220,7 @@ SLOW_MODULES = (
     "test_island_operating_reference.py",
     "test_layout3d.py",
     "test_layout3d_pinchoff.py",
+    "test_layout3d_island.py",
 )
 #: Single slow tests in otherwise quick modules (node id without the parameter part): 10-80 s
 #: each in a `make test-fast` run on the shared machine (``--durations``, 2026-12-02).
