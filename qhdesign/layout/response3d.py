@@ -32,10 +32,10 @@ axisymmetric stage applies to its radii, on a triangle mesh.
 
 Resolution: the strip boundaries move by a few nm within a plane cell of the layout mesh
 (40-80 nm), which moves K_IL/K_I by far more than 2 %. So by default a second mesh embeds rows of
-nodes parallel to the strip's boundaries (offsets 0, +-1, +-2, +-4, +-8, +-16 nm of the inner
-boundary and of the edge, found on the first solve), the nonlinear problem is solved again on it,
-and the strip and the response are taken from that solve, as the axisymmetric stage's second mesh
-does with its radii.
+nodes parallel to the strip's boundaries (graded offsets from 1 nm to 60 nm on both sides of
+the inner boundary and of the edge, found on the first solve), the nonlinear problem is solved
+again on it, and the strip and the response are taken from that solve, as the axisymmetric
+stage's second mesh does with its radii.
 
 References
 ----------
@@ -62,8 +62,9 @@ from .analysis import _area, _clip_island, _cut_planes, constriction_profile
 
 __all__ = ["StripGeometry", "island_response", "strip_geometry"]
 
-#: Offsets (m) of the node rows embedded along each strip boundary on the second mesh.
-ROW_OFFSETS_M = tuple(1e-9 * k for k in (0, 1, -1, 2, -2, 4, -4, 8, -8, 16, -16))
+#: Node rows of the second mesh: offsets from each strip boundary grow from ROW_FIRST_M by the
+#: factor ROW_GROWTH up to ROW_REACH_M on both sides (a graded radial grid, as the island stage's).
+ROW_FIRST_M, ROW_GROWTH, ROW_REACH_M = 1e-9, 1.3, 60e-9
 
 
 @dataclass(frozen=True, eq=False)
@@ -413,18 +414,50 @@ def strip_geometry(
     return geom, {"I": I, "L": L, "island": island, "L_tri": L_tri}
 
 
-def _strip_rows(geom: StripGeometry, spacing: float) -> list[np.ndarray]:
-    """Closed node rows parallel to the strip's inner boundary and electronic edge (m)."""
+def _row_offsets() -> list[float]:
+    out, d, step = [0.0], 0.0, ROW_FIRST_M
+    while d + step <= ROW_REACH_M:
+        d += step
+        out += [d, -d]
+        step *= ROW_GROWTH
+    return out
+
+
+def _strip_rows(geom: StripGeometry, spacing: float, gates, min_gap: float) -> list[np.ndarray]:
+    """Closed node rows parallel to the strip's inner boundary and electronic edge (m).
+
+    Rows are offsets of the centre line (resampled ``spacing`` apart): graded offsets around the
+    inner boundary (a/2 outside the centre line) and around the edge (a further mean strip width
+    out). Rows nearer than 0.5 nm to a kept row, reaching inward past half the centre line's
+    equivalent radius, or nearer than ``min_gap`` to a gate are left out.
+    """
+    from .mesh3d import points_in_polygon
+
     base = _resample_closed(geom.centre_loops[0], spacing)
     d_in = 0.5 * geom.incompressible_width_m
-    offsets = sorted({round(d_in + o, 12) for o in ROW_OFFSETS_M})
-    offsets += sorted({round(d_in + geom.width_m + o, 12) for o in ROW_OFFSETS_M})
-    offsets = sorted(set(offsets))
-    keep = [offsets[0]]
-    for o in offsets[1:]:
-        if o - keep[-1] >= 0.5e-9:  # rows closer than 0.5 nm: one of them
+    anchors = (d_in, d_in + geom.width_m)
+    floor = -0.5 * math.sqrt(geom.centre_area_m2 / math.pi)
+    cand = sorted({round(a + o, 12) for a in anchors for o in _row_offsets()})
+    keep: list[float] = []
+    for o in sorted(cand, key=lambda o: min(abs(o - a) for a in anchors)):  # boundaries first
+        if o > floor and all(abs(o - k) >= 0.5e-9 for k in keep):
             keep.append(o)
-    return [_offset_closed(base, o) for o in keep]
+    rows = []
+    for o in sorted(keep):
+        row = _offset_closed(base, o)
+        ok = True
+        for g in gates:
+            poly = np.asarray(g.vertices_m)
+            segs = np.stack([poly, np.roll(poly, -1, axis=0)], axis=1)
+            if (
+                np.any(points_in_polygon(row, poly))
+                or np.min(_distance_to_segments(row, segs)) < min_gap
+            ):
+                ok = False
+                break
+        if ok:
+            rows.append(row)
+    return rows
 
 
 # ---------------------------------------------------------------------------- the response
@@ -610,7 +643,7 @@ def island_response(
     work = solver
     if resolve_strip and geom.closed:
         spacing = layout.gate_edge_m / solver.options.refine
-        rows = _strip_rows(geom, spacing)
+        rows = _strip_rows(geom, spacing, layout.gates, 0.5 * spacing)
         work = LayoutSolver(sec, layout, solver.options, comm=solver.comm, curves=rows)
         work.solve()
         first = geom
