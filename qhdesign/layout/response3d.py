@@ -139,21 +139,35 @@ class StripGeometry:
 
 # ---------------------------------------------------------------------------- plane geometry
 def _level_set(xy, tri, f, component, cuts):
-    """Area of f >= 0 over ``component`` (clipped by the cuts), its segments and their triangles."""
-    area = 0.0
-    segs, seg_tri = [], []
-    for t in component:
+    """Area of f >= 0 over ``component`` (clipped by the cuts), its segments, their triangles and
+    the mesh edge each segment end lies on (node pairs, shape (M, 2, 2)).
+
+    A node exactly on the level counts as just above it.
+    """
+    f = np.where(f == 0.0, 1e-300, f)
+    comp = np.asarray(component, dtype=int)
+    fv_all = f[tri[comp]]
+    inside = np.ones(comp.size, dtype=bool)  # every node on the island side of every cut
+    for mid, d in cuts:
+        inside &= np.all(((xy[tri[comp]] - mid) @ d) <= 0, axis=1)
+    whole = (fv_all.min(axis=1) >= 0) & inside
+    p3 = xy[tri[comp[whole]]]
+    e1, e2 = p3[:, 1] - p3[:, 0], p3[:, 2] - p3[:, 0]
+    area = 0.5 * float(np.sum(np.abs(e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0])))
+    segs, seg_tri, seg_edge = [], [], []
+    for t in comp[~whole & (fv_all.max(axis=1) >= 0)]:
         nodes = tri[t]
         poly = xy[nodes]
         fv = f[nodes]
         area += _area(_clip_island(poly, fv, cuts))
         if fv.min() < 0 <= fv.max():
-            pts = []
+            pts, eds = [], []
             for i in range(3):
                 a, b = fv[i], fv[(i + 1) % 3]
                 if (a >= 0) != (b >= 0):
                     s = a / (a - b)
                     pts.append(poly[i] + s * (poly[(i + 1) % 3] - poly[i]))
+                    eds.append(sorted((int(nodes[i]), int(nodes[(i + 1) % 3]))))
             if len(pts) == 2:
                 p = np.array(pts)
                 keep = True
@@ -163,16 +177,18 @@ def _level_set(xy, tri, f, component, cuts):
                 if keep:
                     segs.append(p)
                     seg_tri.append(t)
+                    seg_edge.append(eds)
     segs = np.array(segs) if segs else np.zeros((0, 2, 2))
-    return float(area), segs, np.array(seg_tri, dtype=int)
+    edges = np.array(seg_edge, dtype=np.int64) if seg_edge else np.zeros((0, 2, 2), np.int64)
+    return float(area), segs, np.array(seg_tri, dtype=int), edges
 
 
-def _chains(segs: np.ndarray) -> list[tuple[np.ndarray, bool]]:
-    """Join level-set segments into polylines: [(points (K, 2), closed)]."""
+def _chains(segs: np.ndarray, edges: np.ndarray) -> list[tuple[np.ndarray, bool]]:
+    """Join level-set segments into polylines: [(points (K, 2), closed)]; two segment ends meet
+    where they lie on the same mesh edge."""
     if len(segs) == 0:
         return []
-    q = 1e-12  # m: endpoints computed from the same mesh edge agree to round-off
-    key = [tuple(np.round(p / q).astype(np.int64)) for p in segs.reshape(-1, 2)]
+    key = [tuple(e) for e in edges.reshape(-1, 2)]
     ends: dict = {}
     for i, k in enumerate(key):
         ends.setdefault(k, []).append(i)
@@ -331,12 +347,12 @@ def strip_geometry(
     comp = island_shape(xy, tri, f_edge + 0.5, 1.0, seed_m, constrictions).triangles
     if comp.size == 0:
         raise InputError("the primary well has no island around the seed", key="gate_voltage_V")
-    A_edge, segs_edge, _ = _level_set(xy, tri, f_edge, comp, cuts)
+    A_edge, segs_edge, _, edges_edge = _level_set(xy, tri, f_edge, comp, cuts)
     n_nu = filling * sc.e * field_T / sc.h
     pinned = n_nu >= FALL_FRACTION * n0
     target = FALL_FRACTION * n0 if pinned else n_nu
     f_c = phi - level(target)
-    A_c, segs_c, tri_c = _level_set(xy, tri, f_c, comp, cuts)
+    A_c, segs_c, tri_c, edges_c = _level_set(xy, tri, f_c, comp, cuts)
     if len(segs_c) == 0:
         raise InputError("the primary's density does not fall at the operating filling")
     # |grad n| of the P1 density on the triangles the centre line crosses, length-weighted
@@ -352,8 +368,8 @@ def strip_geometry(
     g = float(np.sum(np.hypot(gx, gy) * seg_len) / L_c)
     a = strip_width(eps_r, strip_gap_J, g)
     d_in = 0.5 * a
-    chains_c = _chains(segs_c)
-    chains_e = _chains(segs_edge)
+    chains_c = _chains(segs_c, edges_c)
+    chains_e = _chains(segs_edge, edges_edge)
     theta = float(sum(abs(_turning(c, closed)) for c, closed in chains_c))
     A_L = A_c + L_c * d_in + 0.5 * theta * d_in**2
     L_in = L_c + theta * d_in
