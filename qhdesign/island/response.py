@@ -287,10 +287,10 @@ def floating_edge_energies(V, forms, ground_dofs, edge_dofs, *, scale, comm, sol
 
     def rhs(with_charge: bool):
         b = fpetsc.assemble_vector(b_form)
-        if not with_charge:
-            b.set(0.0)
-        else:
-            b.scale(1.0 / total)
+        # on the local form: the ghost entries hold contributions not yet added to their owners
+        # (a plain b.set / b.scale would leave them, and the reverse scatter would add them)
+        with b.localForm() as loc:
+            loc.scale(1.0 / total if with_charge else 0.0)
         fpetsc.apply_lifting(b, [a_form], bcs=[[bc]])
         b.ghostUpdate(addv=PETSc.InsertMode.ADD, mode=PETSc.ScatterMode.REVERSE)
         fpetsc.set_bc(b, [bc])
