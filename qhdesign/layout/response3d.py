@@ -60,7 +60,7 @@ from qhdesign.section.profile import EDGE_FRACTION
 
 from .analysis import _area, _clip_island, _cut_planes, constriction_profile
 
-__all__ = ["StripGeometry", "island_response", "strip_geometry"]
+__all__ = ["StripGeometry", "check_settings", "island_response", "strip_geometry"]
 
 #: Node rows of the second mesh: offsets from each strip boundary grow from ROW_FIRST_M by the
 #: factor ROW_GROWTH up to ROW_REACH_M on both sides (a graded radial grid, as the island stage's).
@@ -603,6 +603,17 @@ class IslandResponse3D:
         return out
 
 
+def check_settings(settings) -> None:
+    """Refuse settings the 3D response cannot use (before any solve)."""
+    from qhdesign.island.response import BULK_SHAPES
+
+    if settings.bulk_shape not in BULK_SHAPES:
+        raise InputError(
+            f"bulk charge shape '{settings.bulk_shape}'; allowed: {', '.join(BULK_SHAPES)}",
+            key="bulk_shape",
+        )
+
+
 def island_response(
     solver,
     settings,
@@ -646,6 +657,7 @@ def island_response(
 
     from .model3d import LayoutSolver
 
+    check_settings(settings)
     t0 = time.perf_counter()
     st = settings
     sec = solver.section

@@ -261,6 +261,10 @@ def solve_layout(
 
     if field_T is not None and not (0 < field_T <= 50):
         raise InputError(f"field {field_T:g} T out of range; allowed (0, 50] T", key="field")
+    if response is not None:
+        from .response3d import check_settings
+
+        check_settings(response)
     t0 = time.perf_counter()
     lifetimes = None
     if isinstance(source, CrossSection):
