@@ -503,11 +503,12 @@ def _response(solver, masks, dos_by_sheet, ip: int, bulk_shape: str, seed_m, A_L
     tdim = msh.topology.dim
     imap = msh.topology.index_map(tdim)
     ncell = imap.size_local + imap.num_ghosts
-    geo = msh.geometry.dofmap[:ncell]
+    geo = msh.geometry.dofmaps[0][:ncell]
     _, node = cKDTree(solver.plane.xy_m / NM).query(msh.geometry.x[:, :2])
     cn = node[geo]  # (cells, 4) plane nodes
     LI = masks["L"] | masks["I"]
-    chi_L.x.array[:ncell] = (np.all(LI[cn], axis=1) & np.any(masks["L"][cn], axis=1)).astype(float)
+    in_L = np.all(LI[cn], axis=1) & np.any(masks["L"][cn], axis=1)
+    chi_L.x.array[Q.dofmap.list[:ncell, 0]] = in_L.astype(float)
     chi_L.x.scatter_forward()
     if bulk_shape == "uniform":
         sig = chi_L("+")
