@@ -86,10 +86,13 @@ def _refine_boxes(layout: Layout) -> list[tuple[float, float, float, float]]:
     return boxes
 
 
-def plane_mesh(layout: Layout, refine: float = 1.0) -> PlaneMesh:
+def plane_mesh(layout: Layout, refine: float = 1.0, curves=()) -> PlaneMesh:
     """Mesh the surface plane with the gate polygons as embedded boundaries (gmsh, this rank).
 
-    ``refine`` divides both element sizes. gmsh must be initialised by the caller.
+    ``refine`` divides both element sizes. ``curves``: extra closed polylines (each (N, 2), m)
+    whose vertices become mesh nodes and whose segments become mesh edges, not subdivided (the
+    island's strip boundaries, :mod:`qhdesign.layout.response3d`). gmsh must be initialised by
+    the caller.
     """
     import gmsh
 
@@ -105,8 +108,17 @@ def plane_mesh(layout: Layout, refine: float = 1.0) -> PlaneMesh:
         lines = [occ.addLine(pts[i], pts[(i + 1) % len(pts)]) for i in range(len(pts))]
         loop = occ.addCurveLoop(lines)
         gate_surfs.append(occ.addPlaneSurface([loop]))
-    occ.fragment([(2, rect)], [(2, s) for s in gate_surfs])
+    curve_lines = []
+    for c in curves:
+        pts = [occ.addPoint(float(x) / NM, float(y) / NM, 0.0) for x, y in c]
+        curve_lines += [occ.addLine(pts[i], pts[(i + 1) % len(pts)]) for i in range(len(pts))]
+    tools = [(2, s) for s in gate_surfs] + [(1, c) for c in curve_lines]
+    _, outmap = occ.fragment([(2, rect)], tools)
     occ.synchronize()
+    for dim_tags in outmap[1 + len(gate_surfs) :]:
+        for dim, tag in dim_tags:
+            if dim == 1:  # the curve's own nodes only
+                gmsh.model.mesh.setTransfiniteCurve(tag, 2)
     # size: gate_edge at every gate boundary and inside the island boxes, growing to far
     curves = [c[1] for c in gmsh.model.getEntities(1)]
     f_dist = gmsh.model.mesh.field.add("Distance")
@@ -213,6 +225,7 @@ def build_mesh3d(
     charged_levels: np.ndarray,
     comm,
     refine: float = 1.0,
+    curves=(),
 ) -> tuple[Mesh3D, dict]:
     """Build and distribute the 3D mesh.
 
@@ -226,6 +239,8 @@ def build_mesh3d(
         Interior levels that carry frozen line charge (tagged ``levels``).
     comm
         MPI communicator.
+    curves
+        Extra closed polylines embedded in the plane mesh (:func:`plane_mesh`).
 
     Returns
     -------
@@ -251,7 +266,7 @@ def build_mesh3d(
             started = True
         gmsh.option.setNumber("General.Terminal", 0)
         try:
-            plane = plane_mesh(layout, refine)
+            plane = plane_mesh(layout, refine, curves)
         finally:
             if started:
                 gmsh.finalize()

@@ -104,9 +104,13 @@ class LayoutSolver:
         :class:`Layout3DOptions`.
     comm
         MPI communicator (default ``MPI.COMM_WORLD``).
+    curves
+        Extra closed polylines (m) embedded in the plane mesh (the island's strip boundaries).
     """
 
-    def __init__(self, section: CrossSection, layout: Layout, options=None, *, comm=None):
+    def __init__(
+        self, section: CrossSection, layout: Layout, options=None, *, comm=None, curves=()
+    ):
         from qhdesign.fem.backend import load
 
         MPI, _ = load()
@@ -147,7 +151,14 @@ class LayoutSolver:
         charged = np.nonzero(self.calibration["line_charge_C_m2"])[0]
         self.timings["levels"] = time.perf_counter() - t0
         m3, tm = build_mesh3d(
-            layout, grid.z_m, grid.layer_of_interval, grid.sheet_level, charged, self.comm, o.refine
+            layout,
+            grid.z_m,
+            grid.layer_of_interval,
+            grid.sheet_level,
+            charged,
+            self.comm,
+            o.refine,
+            curves,
         )
         self.timings |= {f"mesh_{k}": v for k, v in tm.items()}
         self.m3 = m3
