@@ -54,17 +54,24 @@ class Layout3DOptions:
         Largest level spacing (m).
     refine
         Divides every in-plane and vertical size (2: about 8x the dofs).
+    edge_normal_m, edge_band_m
+        Anisotropic band along the gate edges (:func:`~qhdesign.layout.mesh3d.plane_mesh`):
+        element size across the edges and the band's half width (m). None: the layout's
+        ``mesh.edge_normal`` / ``mesh.edge_band``; with neither, an isotropic mesh; a band
+        without a width is the primary sheet's depth.
     exposed
         ``"frozen"``, ``"pinned"`` or None (the stack's surface.charge).
     rtol
         SNES relative tolerance; linear solves use ``ksp_rtol``.
     """
 
-    h_surface_m: float = 4e-9
+    h_surface_m: float = 1e-9
     h_sheet_m: float = 3e-9
     growth: float = 0.35
     h_max_z_m: float = 80e-9
     refine: float = 1.0
+    edge_normal_m: float | None = None
+    edge_band_m: float | None = None
     exposed: str | None = None
     rtol: float = 1e-11
     atol: float = 1e-13
@@ -140,8 +147,21 @@ class LayoutSolver:
         self.calibration = calibrate(section, grid.z_m, eps_int, exposed=o.exposed)
         charged = np.nonzero(self.calibration["line_charge_C_m2"])[0]
         self.timings["levels"] = time.perf_counter() - t0
+        normal = o.edge_normal_m if o.edge_normal_m is not None else layout.edge_normal_m
+        band = o.edge_band_m if o.edge_band_m is not None else layout.edge_band_m
+        if band is None:
+            roles = [sh.role for sh in section.sheets]
+            band = section.sheets[roles.index("primary") if "primary" in roles else 0].z_m
         m3, tm = build_mesh3d(
-            layout, grid.z_m, grid.layer_of_interval, grid.sheet_level, charged, self.comm, o.refine
+            layout,
+            grid.z_m,
+            grid.layer_of_interval,
+            grid.sheet_level,
+            charged,
+            self.comm,
+            o.refine,
+            edge_normal_m=normal,
+            edge_band_m=band,
         )
         self.timings |= {f"mesh_{k}": v for k, v in tm.items()}
         self.m3 = m3
