@@ -344,21 +344,30 @@ class LayoutSolver:
             kT = max(kT / self.options.kT_factor, self.kT_target_eV)
 
     # ------------------------------------------------------------------ results
-    def gather_levels(self, values: np.ndarray) -> np.ndarray:
-        """A nodal array (owned + ghost dofs) gathered as (levels, plane nodes) on every rank."""
+    def gather_levels(self, values: np.ndarray, levels=None) -> np.ndarray:
+        """A nodal array (owned + ghost dofs) gathered as (levels, plane nodes) on every rank.
+
+        ``levels`` (level indices) gathers only those rows, shape (len(levels), plane nodes):
+        the sheets' rows are a few percent of the field, and gathering the whole 3D field on every
+        rank would undo the distribution (memory and traffic grow with the total dofs).
+        """
         n = self.n_owned
-        parts = self.comm.allgather(
-            (self._dof_level[:n].copy(), self._dof_plane[:n].copy(), values[:n].copy())
-        )
-        out = np.full((self.levels_m.size, self.plane.num_nodes), np.nan)
-        for k, p, val in parts:
-            out[k, p] = val
+        k, p, val = self._dof_level[:n], self._dof_plane[:n], values[:n]
+        if levels is not None:
+            rows = np.full(self.levels_m.size, -1, dtype=np.int64)
+            rows[np.asarray(levels, dtype=np.int64)] = np.arange(len(levels))
+            keep = rows[k] >= 0
+            k, p, val = rows[k[keep]], p[keep], val[keep]
+        parts = self.comm.allgather((k.copy(), p.copy(), val.copy()))
+        n_rows = self.levels_m.size if levels is None else len(levels)
+        out = np.full((n_rows, self.plane.num_nodes), np.nan)
+        for kk, pp, vv in parts:
+            out[kk, pp] = vv
         return out
 
     def sheet_potentials(self) -> np.ndarray:
         """phi on each sheet (V), shape (S, plane nodes), identical on every rank."""
-        full = self.gather_levels(self.phi.x.array)
-        return full[self.sheet_level]
+        return self.gather_levels(self.phi.x.array, self.sheet_level)
 
     def sheet_densities(self) -> np.ndarray:
         """Thomas–Fermi density of each sheet on the plane nodes (m^-2), shape (S, Np)."""
