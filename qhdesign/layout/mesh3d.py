@@ -86,13 +86,39 @@ def _refine_boxes(layout: Layout) -> list[tuple[float, float, float, float]]:
     return boxes
 
 
-def plane_mesh(layout: Layout, refine: float = 1.0, curves=()) -> PlaneMesh:
+def _on_domain_boundary(curve: int, x0: float, x1: float, y0: float, y1: float) -> bool:
+    """True for a curve lying on the domain rectangle's boundary (nm)."""
+    import gmsh
+
+    bx0, by0, _, bx1, by1, _ = gmsh.model.getBoundingBox(1, curve)
+    tol = 1e-6 * max(x1 - x0, y1 - y0)
+    vertical = abs(bx1 - bx0) < tol and min(abs(bx0 - x0), abs(bx0 - x1)) < tol
+    horizontal = abs(by1 - by0) < tol and min(abs(by0 - y0), abs(by0 - y1)) < tol
+    return vertical or horizontal
+
+
+def plane_mesh(
+    layout: Layout,
+    refine: float = 1.0,
+    *,
+    edge_normal_m: float | None = None,
+    edge_band_m: float | None = None,
+    curves=(),
+) -> PlaneMesh:
     """Mesh the surface plane with the gate polygons as embedded boundaries (gmsh, this rank).
 
-    ``refine`` divides both element sizes. ``curves``: extra closed polylines (each (N, 2), m)
+    ``refine`` divides every element size. ``curves``: extra closed polylines (each (N, 2), m)
     whose vertices become mesh nodes and whose segments become mesh edges, not subdivided (the
     island's strip boundaries, :mod:`qhdesign.layout.response3d`). gmsh must be initialised by
     the caller.
+
+    Without ``edge_normal_m`` the mesh is isotropic: ``gate_edge`` at the gate edges, growing to
+    ``far``. With it, a band of width ``edge_band_m`` on both sides of every gate edge is meshed
+    anisotropically: ``edge_normal_m`` across the edge, ``gate_edge`` along it (gmsh's BAMG
+    algorithm with a curve-attractor metric); beyond the band both sizes grow linearly to
+    ``far`` over two ``far`` lengths. The band holds what a P1 solution resolves worst: the
+    square-root singularity of the potential at a gate edge and the kink of the sheet density
+    at the electronic edge, which lies within about one well depth of the gate edge.
     """
     import gmsh
 
@@ -115,24 +141,54 @@ def plane_mesh(layout: Layout, refine: float = 1.0, curves=()) -> PlaneMesh:
     tools = [(2, s) for s in gate_surfs] + [(1, c) for c in curve_lines]
     _, outmap = occ.fragment([(2, rect)], tools)
     occ.synchronize()
+    row_tags = set()
     for dim_tags in outmap[1 + len(gate_surfs) :]:
         for dim, tag in dim_tags:
             if dim == 1:  # the curve's own nodes only
                 gmsh.model.mesh.setTransfiniteCurve(tag, 2)
-    # size: gate_edge at every gate boundary and inside the island boxes, growing to far
-    curves = [c[1] for c in gmsh.model.getEntities(1)]
-    f_dist = gmsh.model.mesh.field.add("Distance")
-    gmsh.model.mesh.field.setNumbers(f_dist, "CurvesList", curves)
-    gmsh.model.mesh.field.setNumber(f_dist, "Sampling", 200)
-    f_thr = gmsh.model.mesh.field.add("Threshold")
-    gmsh.model.mesh.field.setNumber(f_thr, "InField", f_dist)
-    gmsh.model.mesh.field.setNumber(f_thr, "SizeMin", h_edge)
-    gmsh.model.mesh.field.setNumber(f_thr, "SizeMax", h_far)
-    gmsh.model.mesh.field.setNumber(f_thr, "DistMin", h_edge)
-    gmsh.model.mesh.field.setNumber(f_thr, "DistMax", 4.0 * h_far)
-    fields = [f_thr]
+                row_tags.add(tag)
+    field = gmsh.model.mesh.field
+    aniso = edge_normal_m is not None
+    if aniso:
+        h_norm = min(edge_normal_m / refine / NM, h_edge)
+        band = (edge_band_m if edge_band_m is not None else 0.0) / NM
+        # the gate edges only: the domain boundary carries no singularity, and the embedded
+        # curves (strip rows) bring their own nodes
+        curves = [
+            c[1]
+            for c in gmsh.model.getEntities(1)
+            if c[1] not in row_tags and not _on_domain_boundary(c[1], x0, x1, y0, y1)
+        ]
+        f_edge = field.add("AttractorAnisoCurve")
+        field.setNumbers(f_edge, "CurvesList", curves)
+        length = max(sum(gmsh.model.occ.getMass(1, c) for c in curves), 1.0)
+        for k, v in (
+            # distance samples on the curves: closer than the normal size, so the band's
+            # inner edge is straight (a sampled distance is wrong between samples)
+            ("Sampling", int(min(max(length / h_norm / len(curves), 20), 5000))),
+            ("DistMin", max(band, h_edge)),
+            ("DistMax", max(band, h_edge) + 2.0 * h_far),
+            ("SizeMinNormal", h_norm),
+            ("SizeMinTangent", h_edge),
+            ("SizeMaxNormal", h_far),
+            ("SizeMaxTangent", h_far),
+        ):
+            field.setNumber(f_edge, k, v)
+    else:
+        # size: gate_edge at every gate boundary and inside the island boxes, growing to far
+        curves = [c[1] for c in gmsh.model.getEntities(1)]
+        f_dist = field.add("Distance")
+        field.setNumbers(f_dist, "CurvesList", curves)
+        field.setNumber(f_dist, "Sampling", 200)
+        f_edge = field.add("Threshold")
+        field.setNumber(f_edge, "InField", f_dist)
+        field.setNumber(f_edge, "SizeMin", h_edge)
+        field.setNumber(f_edge, "SizeMax", h_far)
+        field.setNumber(f_edge, "DistMin", h_edge)
+        field.setNumber(f_edge, "DistMax", 4.0 * h_far)
+    fields = [f_edge]
     for bx0, bx1, by0, by1 in _refine_boxes(layout):
-        f_box = gmsh.model.mesh.field.add("Box")
+        f_box = field.add("Box")
         for k, v in (
             ("VIn", 1.5 * h_edge),
             ("VOut", h_far),
@@ -142,16 +198,17 @@ def plane_mesh(layout: Layout, refine: float = 1.0, curves=()) -> PlaneMesh:
             ("YMax", by1 / NM),
             ("Thickness", 4 * h_edge),
         ):
-            gmsh.model.mesh.field.setNumber(f_box, k, v)
+            field.setNumber(f_box, k, v)
         fields.append(f_box)
-    f_min = gmsh.model.mesh.field.add("Min")
-    gmsh.model.mesh.field.setNumbers(f_min, "FieldsList", fields)
-    gmsh.model.mesh.field.setAsBackgroundMesh(f_min)
+    f_min = field.add("MinAniso" if aniso else "Min")
+    field.setNumbers(f_min, "FieldsList", fields)
+    field.setAsBackgroundMesh(f_min)
     for opt, val in (
         ("Mesh.MeshSizeExtendFromBoundary", 0),
         ("Mesh.MeshSizeFromPoints", 0),
         ("Mesh.MeshSizeFromCurvature", 0),
-        ("Mesh.Algorithm", 6),
+        # BAMG (7) is gmsh's 2D algorithm that honours an anisotropic metric
+        ("Mesh.Algorithm", 7 if aniso else 6),
         ("General.NumThreads", 1),
         ("Mesh.RandomFactor", 1e-9),
     ):
@@ -226,6 +283,9 @@ def build_mesh3d(
     comm,
     refine: float = 1.0,
     curves=(),
+    *,
+    edge_normal_m: float | None = None,
+    edge_band_m: float | None = None,
 ) -> tuple[Mesh3D, dict]:
     """Build and distribute the 3D mesh.
 
@@ -239,6 +299,8 @@ def build_mesh3d(
         Interior levels that carry frozen line charge (tagged ``levels``).
     comm
         MPI communicator.
+    refine, edge_normal_m, edge_band_m
+        Plane-mesh sizes, see :func:`plane_mesh`.
     curves
         Extra closed polylines embedded in the plane mesh (:func:`plane_mesh`).
 
@@ -266,7 +328,13 @@ def build_mesh3d(
             started = True
         gmsh.option.setNumber("General.Terminal", 0)
         try:
-            plane = plane_mesh(layout, refine, curves)
+            plane = plane_mesh(
+                layout,
+                refine,
+                edge_normal_m=edge_normal_m,
+                edge_band_m=edge_band_m,
+                curves=curves,
+            )
         finally:
             if started:
                 gmsh.finalize()

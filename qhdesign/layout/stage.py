@@ -193,7 +193,7 @@ def analyse(solver: LayoutSolver, lever_arm: bool = True) -> dict:
         D = sec.sheets[ip].dos_J_m2
         for name in lay.plungers:
             dphi, _ = solver.linear_response([(solver.gate_dofs(name), 1.0)])
-            dphi_sheet = solver.gather_levels(dphi.x.array)[solver.sheet_level[ip]]
+            dphi_sheet = solver.gather_levels(dphi.x.array, [solver.sheet_level[ip]])[0]
             fac = solver.sheet_dos_factor()[ip]
             dn = D * sc.e * fac * dphi_sheet  # m^-2 per V
             step = _AREA_STEP * bulk[ip] / max(np.max(np.abs(dn)), 1e-300)
