@@ -280,7 +280,8 @@ def floating_edge_energies(V, forms, ground_dofs, edge_dofs, *, scale, comm, sol
     -------
     dict
         ``K_I_J`` (electrostatic), ``K_L_J``, ``K_IL_J``, ``r_reciprocity``, ``r_direct``,
-        ``C_I_F``, ``G_LL_J``.
+        ``C_I_F``, ``G_LL_J``; and the two solutions, ``u_edge`` (u_1, V) and ``phi_bulk`` (phi_L,
+        V per e), as P1 functions.
     """
     from dolfinx import fem
     from dolfinx.fem import petsc as fpetsc
@@ -376,6 +377,8 @@ def floating_edge_energies(V, forms, ground_dofs, edge_dofs, *, scale, comm, sol
         "r_direct": -q_ind,
         "C_I_F": C_I * sc.e,
         "G_LL_J": G_LL * eV,
+        "u_edge": u1,
+        "phi_bulk": phiL,
     }
 
 

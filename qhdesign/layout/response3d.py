@@ -65,6 +65,11 @@ __all__ = ["StripGeometry", "check_settings", "island_response", "strip_geometry
 #: Node rows of the second mesh: offsets from each strip boundary grow from ROW_FIRST_M by the
 #: factor ROW_GROWTH up to ROW_REACH_M on both sides (a graded radial grid, as the island stage's).
 ROW_FIRST_M, ROW_GROWTH, ROW_REACH_M = 1e-9, 1.3, 60e-9
+#: Meshes with rows at most, and the move of the strip's boundaries (equivalent radii) between
+#: the rows' anchors and the solve on them below which the rows are taken as placed.
+ROW_PASSES, ROW_SETTLE_M = 3, 1e-9
+#: The rows follow the centre line without its wiggles shorter than ROW_SMOOTH row spacings.
+ROW_SMOOTH = 4.0
 
 
 @dataclass(frozen=True, eq=False)
@@ -256,6 +261,20 @@ def _resample_closed(poly: np.ndarray, spacing: float) -> np.ndarray:
     return np.column_stack([np.interp(t, s, p[:, 0]), np.interp(t, s, p[:, 1])])
 
 
+def _smooth_closed(poly: np.ndarray, wavelength: float) -> np.ndarray:
+    """A closed polyline sampled at equal arc length without its Fourier modes shorter than
+    ``wavelength`` (m): the level line of a coarse mesh zig-zags at the cell size, and rows offset
+    from a zig-zag by tens of nm would cross each other."""
+    p = np.vstack([poly, poly[:1]])
+    perimeter = float(np.sum(np.linalg.norm(np.diff(p, axis=0), axis=1)))
+    keep = int(perimeter // wavelength)
+    z = np.fft.fft(poly[:, 0] + 1j * poly[:, 1])
+    k = np.fft.fftfreq(len(poly), 1.0 / len(poly))
+    z[np.abs(k) > keep] = 0.0
+    out = np.fft.ifft(z)
+    return np.column_stack([out.real, out.imag])
+
+
 def _offset_closed(poly: np.ndarray, d: float) -> np.ndarray:
     """Move the vertices of a counter-clockwise closed polyline outward by d along their normals."""
     t = np.roll(poly, -1, axis=0) - np.roll(poly, 1, axis=0)
@@ -416,14 +435,22 @@ def strip_geometry(
     s_in = np.where(f_c >= 0, -dist_c, dist_c) - d_in  # >= 0: beyond the inner boundary
     s_out = np.where(f_edge >= 0, -dist_e, dist_e)  # <= 0: inside the electronic edge
     core = island & (s_in >= 0) & (s_out <= 0)
-    I = core.copy()
+    # the nearest-node rule across each boundary: a node just short of it joins when it is nearer
+    # to the boundary than every core node it shares a mesh edge with (on a radial grid the one
+    # neighbour across, as the island stage snaps its radii; "any neighbour" would let a long
+    # edge running along the boundary pull in nodes several nm short of it)
     ed = _edges(tri)
-    for u, v in ((ed[:, 0], ed[:, 1]), (ed[:, 1], ed[:, 0])):
-        # v joins across the inner boundary if nearer to it than its neighbour u in the core
-        join_in = core[u] & island[v] & (s_in[v] < 0) & (-s_in[v] < s_in[u]) & (s_out[v] <= 0)
-        # v joins across the edge if nearer to it than u
-        join_out = core[u] & island[v] & (s_out[v] > 0) & (s_out[v] < -s_out[u]) & (s_in[v] >= 0)
-        I[v[join_in | join_out]] = True
+    u = np.concatenate([ed[:, 0], ed[:, 1]])
+    v = np.concatenate([ed[:, 1], ed[:, 0]])
+    near_in = np.full(len(xy), np.inf)  # per node: the least depth of a core neighbour
+    near_out = np.full(len(xy), np.inf)
+    c = core[u]
+    np.minimum.at(near_in, v[c], s_in[u[c]])
+    np.minimum.at(near_out, v[c], -s_out[u[c]])
+    has_in, has_out = np.isfinite(near_in), np.isfinite(near_out)  # next to the core
+    join_in = island & has_in & (s_in < 0) & (-s_in < near_in) & (s_out <= 0)
+    join_out = island & has_out & (s_out > 0) & (s_out < near_out) & (s_in >= 0)
+    I = core | join_in | join_out
     L = island & ~I & (s_in < 0)
     LI = L | I
     L_tri = np.all(LI[tri], axis=1) & np.any(L[tri], axis=1)
@@ -449,7 +476,7 @@ def _strip_rows(geom: StripGeometry, spacing: float, gates, min_gap: float) -> l
     """
     from .mesh3d import points_in_polygon
 
-    base = _resample_closed(geom.centre_loops[0], spacing)
+    base = _smooth_closed(_resample_closed(geom.centre_loops[0], spacing), ROW_SMOOTH * spacing)
     d_in = 0.5 * geom.incompressible_width_m
     anchors = (d_in, d_in + geom.width_m)
     floor = -0.5 * math.sqrt(geom.centre_area_m2 / math.pi)
@@ -691,16 +718,29 @@ def island_response(
     work = solver
     if resolve_strip and geom.closed:
         spacing = layout.gate_edge_m / solver.options.refine
-        rows = _strip_rows(geom, spacing, layout.gates, 0.5 * spacing)
-        work = LayoutSolver(sec, layout, solver.options, comm=solver.comm, curves=rows)
-        work.solve()
         first = geom
-        geom, masks, dens, ip = _geometry(work, cfg, layout)
+        passes = []
+        for _ in range(ROW_PASSES):
+            # rows around the strip as the last solve found it; again from the rows' own solve
+            # until the strip's boundaries stay within ROW_SETTLE_M of the rows' anchors
+            rows = _strip_rows(geom, spacing, layout.gates, 0.5 * spacing)
+            work = LayoutSolver(sec, layout, solver.options, comm=solver.comm, curves=rows)
+            work.solve()
+            anchor = geom
+            geom, masks, dens, ip = _geometry(work, cfg, layout)
+            shift = (
+                geom.inner_radius_m - anchor.inner_radius_m,
+                geom.outer_radius_m - anchor.outer_radius_m,
+            )
+            passes.append({"rows": len(rows), "dofs": int(work.num_dofs), "shift_m": shift})
+            if max(abs(shift[0]), abs(shift[1])) <= ROW_SETTLE_M:
+                break
         info = {
-            "strip_mesh": "second mesh with node rows along the strip",
+            "strip_mesh": "mesh with node rows along the strip",
             "rows": len(rows),
             "dofs": int(work.num_dofs),
             "plane_nodes": int(work.plane.num_nodes),
+            "row_passes": passes,
             "inner_radius_shift_m": geom.inner_radius_m - first.inner_radius_m,
             "edge_radius_shift_m": geom.outer_radius_m - first.outer_radius_m,
             "timings_s": dict(work.timings),
