@@ -27,15 +27,17 @@ w = (A_edge - A_L)/((L_in + L_edge)/2), L_I = (L_in + L_edge)/2 and A_I = A_L + 
 
 Conductor nodes: a node belongs to I when its distance beyond the inner boundary (a/2 outside the
 centre line) is >= 0 and it lies inside the electronic edge; a node just short of either boundary
-joins when it is nearer to the boundary than its neighbour across it: the nearest-node rule the
-axisymmetric stage applies to its radii, on a triangle mesh.
+joins when it is nearer to the boundary than every core node it shares a mesh edge with: the
+nearest-node rule the axisymmetric stage applies to its radii, on a triangle mesh.
 
 Resolution: the strip boundaries move by a few nm within a plane cell of the layout mesh
 (40-80 nm), which moves K_IL/K_I by far more than 2 %. So by default a second mesh embeds rows of
 nodes parallel to the strip's boundaries (graded offsets from 1 nm to 60 nm on both sides of
-the inner boundary and of the edge, found on the first solve), the nonlinear problem is solved
-again on it, and the strip and the response are taken from that solve, as the axisymmetric
-stage's second mesh does with its radii.
+the inner boundary and of the edge, found on the first solve, following its centre line without
+the wiggles shorter than four row spacings), the nonlinear problem is solved again on it, and the
+strip and the response are taken from that solve, as the axisymmetric stage's second mesh does
+with its radii. When the boundaries moved by more than 1 nm from the rows' anchors, the rows are
+placed again from that solve (at most three meshes with rows).
 
 References
 ----------
@@ -294,6 +296,31 @@ def _edges(tri: np.ndarray) -> np.ndarray:
     return np.unique(np.sort(e, axis=1), axis=0)
 
 
+def _conductor_nodes(tri, island, s_in, s_out) -> np.ndarray:
+    """The edge conductor's plane nodes (bool mask) by the nearest-node rule.
+
+    ``s_in`` >= 0 beyond the inner boundary, ``s_out`` <= 0 inside the electronic edge (signed
+    distances, m). The core is every island node with both; a node just short of a boundary joins
+    when it is nearer to that boundary than every core node it shares a mesh edge with. On a radial
+    grid this is the island stage's snapping of each radius to its nearest node (the one
+    neighbour across); taking any neighbour instead would let a long edge running obliquely
+    across the boundary pull in nodes several nm short of it.
+    """
+    core = island & (s_in >= 0) & (s_out <= 0)
+    ed = _edges(tri)
+    u = np.concatenate([ed[:, 0], ed[:, 1]])
+    v = np.concatenate([ed[:, 1], ed[:, 0]])
+    near_in = np.full(len(island), np.inf)  # per node: the least depth of a core neighbour
+    near_out = np.full(len(island), np.inf)
+    c = core[u]
+    np.minimum.at(near_in, v[c], s_in[u[c]])
+    np.minimum.at(near_out, v[c], -s_out[u[c]])
+    has_in, has_out = np.isfinite(near_in), np.isfinite(near_out)  # next to the core
+    join_in = island & has_in & (s_in < 0) & (-s_in < near_in) & (s_out <= 0)
+    join_out = island & has_out & (s_out > 0) & (s_out < near_out) & (s_in >= 0)
+    return core | join_in | join_out
+
+
 def strip_geometry(
     xy_m: np.ndarray,
     triangles: np.ndarray,
@@ -434,23 +461,7 @@ def strip_geometry(
     dist_e[idx] = _distance_to_segments(xy[idx], segs_edge)
     s_in = np.where(f_c >= 0, -dist_c, dist_c) - d_in  # >= 0: beyond the inner boundary
     s_out = np.where(f_edge >= 0, -dist_e, dist_e)  # <= 0: inside the electronic edge
-    core = island & (s_in >= 0) & (s_out <= 0)
-    # the nearest-node rule across each boundary: a node just short of it joins when it is nearer
-    # to the boundary than every core node it shares a mesh edge with (on a radial grid the one
-    # neighbour across, as the island stage snaps its radii; "any neighbour" would let a long
-    # edge running along the boundary pull in nodes several nm short of it)
-    ed = _edges(tri)
-    u = np.concatenate([ed[:, 0], ed[:, 1]])
-    v = np.concatenate([ed[:, 1], ed[:, 0]])
-    near_in = np.full(len(xy), np.inf)  # per node: the least depth of a core neighbour
-    near_out = np.full(len(xy), np.inf)
-    c = core[u]
-    np.minimum.at(near_in, v[c], s_in[u[c]])
-    np.minimum.at(near_out, v[c], -s_out[u[c]])
-    has_in, has_out = np.isfinite(near_in), np.isfinite(near_out)  # next to the core
-    join_in = island & has_in & (s_in < 0) & (-s_in < near_in) & (s_out <= 0)
-    join_out = island & has_out & (s_out > 0) & (s_out < near_out) & (s_in >= 0)
-    I = core | join_in | join_out
+    I = _conductor_nodes(tri, island, s_in, s_out)
     L = island & ~I & (s_in < 0)
     LI = L | I
     L_tri = np.all(LI[tri], axis=1) & np.any(L[tri], axis=1)

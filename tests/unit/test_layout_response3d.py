@@ -85,3 +85,33 @@ def test_strip_of_a_radial_profile_is_the_disk_construction():
     expect_I = (rho >= ring_in - 1e-12) & (rho <= ring_e + 1e-12)
     assert np.array_equal(I, expect_I)
     assert np.array_equal(L, rho < ring_in - 1e-12)
+
+
+def test_conductor_node_rule_is_nearest_node_across_the_boundary(record_check):
+    """A node short of the inner boundary joins the conductor only when it is nearer to the
+    boundary than every conductor node it shares an edge with (the nearest-node rule; source:
+    elementary geometry, the radial grid's snapping in qhdesign.island.response).
+
+    Nodes (signed distance beyond the inner boundary, nm): v at -4 with two core neighbours, u at
+    +10 (a long oblique edge) and w at +1. The nearest node across is w (1 nm < 4 nm): v stays
+    out. With w at +6 instead, v (4 nm short) is the nearer and joins.
+    """
+    from qhdesign.layout.response3d import _conductor_nodes
+
+    tri = np.array([[0, 1, 2], [0, 2, 3]])  # v=0, u=1, w=2, x=3 (deep inside L)
+    island = np.ones(4, dtype=bool)
+    s_out = np.full(4, -20e-9)
+    s_in = np.array([-4e-9, 10e-9, 1e-9, -30e-9])
+    got = _conductor_nodes(tri, island, s_in, s_out)
+    assert got.tolist() == [False, True, True, False]
+    s_in[2] = 6e-9
+    got = _conductor_nodes(tri, island, s_in, s_out)
+    record_check(
+        "conductor node rule: a node 4 nm short joins when every neighbour across is farther",
+        "elementary geometry (nearest-node snapping of a boundary)",
+        float(got[0]),
+        1.0,
+        0.0,
+        kind="abs",
+    )
+    assert got.tolist() == [True, True, True, False]
