@@ -97,6 +97,83 @@ def _on_domain_boundary(curve: int, x0: float, x1: float, y0: float, y1: float) 
     return vertical or horizontal
 
 
+def _row_offsets(h_n: float, band: float, h_t: float, inner: bool) -> np.ndarray:
+    """Distances (nm) of the node rows from a gate edge: uniform ``h_n`` out to ``band`` on the
+    exposed side (none under the gate), then spacings growing by 25 % per row until they reach
+    half the tangential size, where the isotropic mesh takes over."""
+    out, d, step = [], 0.0, h_n
+    if not inner:
+        while d + h_n <= band + 1e-9:
+            d += h_n
+            out.append(d)
+    while step < 0.5 * h_t:
+        d += step
+        out.append(d)
+        step *= 1.25
+    return np.array(out)
+
+
+def _segment_distance(p: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Distance of points p (N, 2) to the segment a-b."""
+    d = b - a
+    t = np.clip(((p - a) @ d) / max(float(d @ d), 1e-300), 0.0, 1.0)
+    return np.linalg.norm(p - (a + t[:, None] * d), axis=1)
+
+
+def band_nodes(layout: Layout, h_n: float, h_t: float, band: float) -> np.ndarray:
+    """Nodes (nm, shape (N, 2)) of the anisotropic band along the gate edges.
+
+    Rows parallel to every gate edge, ``h_n`` apart across it and ``h_t`` along it (the edge
+    is split into equal parts of at most ``h_t``, as its mesh curve is): out to ``band`` on the
+    exposed side, a few graded rows under the gate. A node is kept only where its own edge is
+    the nearest gate edge (no clashes at corners or between neighbouring gates), at least 0.7
+    ``h_n`` from every other edge and node, and inside the domain. Pure numpy and
+    deterministic: the Delaunay mesher then joins these rows into h_n x h_t triangles.
+    """
+    from scipy.spatial import cKDTree
+
+    segs = []
+    for g in layout.gates:
+        v = np.asarray(g.vertices_m, dtype=float) / NM  # counter-clockwise (validated)
+        for k in range(len(v)):
+            segs.append((v[k], v[(k + 1) % len(v)]))
+    (x0, x1), (y0, y1) = ((a / NM, b / NM) for a, b in layout.domain_m)
+    outer = _row_offsets(h_n, band, h_t, inner=False)
+    inner = _row_offsets(h_n, band, h_t, inner=True)
+    cand, owner = [], []
+    for i, (a, b) in enumerate(segs):
+        d = b - a
+        length = float(np.hypot(*d))
+        n_t = max(int(np.ceil(length / h_t - 1e-9)), 1)
+        t = np.arange(1, n_t) / n_t if n_t > 1 else np.array([0.5])
+        base = a + t[:, None] * d
+        normal = np.array([d[1], -d[0]]) / length  # outward for a counter-clockwise polygon
+        for off in np.concatenate((outer, -inner)):
+            cand.append(base + off * normal)
+            owner.append(np.full(t.size, i))
+    if not cand:
+        return np.zeros((0, 2))
+    pts, own = np.concatenate(cand), np.concatenate(owner)
+    dist = np.stack([_segment_distance(pts, a, b) for a, b in segs], axis=1)
+    mine = dist[np.arange(pts.shape[0]), own]
+    others = dist.copy()
+    others[np.arange(pts.shape[0]), own] = np.inf
+    nearest_other = others.min(axis=1)
+    m = 0.7 * h_n
+    keep = (mine <= nearest_other - 1e-9) & (nearest_other >= m)
+    keep &= (
+        (pts[:, 0] > x0 + m) & (pts[:, 0] < x1 - m) & (pts[:, 1] > y0 + m) & (pts[:, 1] < y1 - m)
+    )
+    pts = pts[keep]
+    # drop near-duplicates, first come first kept (deterministic order)
+    tree = cKDTree(pts)
+    drop = np.zeros(pts.shape[0], dtype=bool)
+    for i, j in sorted(tree.query_pairs(m)):
+        if not drop[i]:
+            drop[j] = True
+    return pts[~drop]
+
+
 def plane_mesh(
     layout: Layout,
     refine: float = 1.0,
@@ -113,12 +190,13 @@ def plane_mesh(
     the caller.
 
     Without ``edge_normal_m`` the mesh is isotropic: ``gate_edge`` at the gate edges, growing to
-    ``far``. With it, a band of width ``edge_band_m`` on both sides of every gate edge is meshed
-    anisotropically: ``edge_normal_m`` across the edge, ``gate_edge`` along it (gmsh's BAMG
-    algorithm with a curve-attractor metric); beyond the band both sizes grow linearly to
-    ``far`` over two ``far`` lengths. The band holds what a P1 solution resolves worst: the
-    square-root singularity of the potential at a gate edge and the kink of the sheet density
-    at the electronic edge, which lies within about one well depth of the gate edge.
+    ``far``. With it, a band along every gate edge is meshed anisotropically: rows of nodes
+    ``edge_normal_m`` apart across the edge and ``gate_edge`` apart along it, out to
+    ``edge_band_m`` on the exposed side and graded under the gate (:func:`band_nodes`, embedded
+    in gmsh's Frontal-Delaunay mesh; deterministic, unlike gmsh's anisotropic BAMG algorithm,
+    which gave a different mesh on every call). The band holds what a P1 solution resolves
+    worst: the square-root singularity of the potential at a gate edge and the kink of the sheet
+    density at the electronic edge, which lies within about one well depth of the gate edge.
     """
     import gmsh
 
@@ -148,44 +226,49 @@ def plane_mesh(
                 gmsh.model.mesh.setTransfiniteCurve(tag, 2)
                 row_tags.add(tag)
     field = gmsh.model.mesh.field
-    aniso = edge_normal_m is not None
-    if aniso:
+    band_nm = 0.0
+    if edge_normal_m is not None:
         h_norm = min(edge_normal_m / refine / NM, h_edge)
-        band = (edge_band_m if edge_band_m is not None else 0.0) / NM
+        band_nm = (edge_band_m if edge_band_m is not None else 0.0) / NM
+        nodes = band_nodes(layout, h_norm, h_edge, band_nm)
         # the gate edges only: the domain boundary carries no singularity, and the embedded
         # curves (strip rows) bring their own nodes
-        curves = [
+        gate_curves = [
             c[1]
             for c in gmsh.model.getEntities(1)
             if c[1] not in row_tags and not _on_domain_boundary(c[1], x0, x1, y0, y1)
         ]
-        f_edge = field.add("AttractorAnisoCurve")
-        field.setNumbers(f_edge, "CurvesList", curves)
-        length = max(sum(gmsh.model.occ.getMass(1, c) for c in curves), 1.0)
-        for k, v in (
-            # distance samples on the curves: closer than the normal size, so the band's
-            # inner edge is straight (a sampled distance is wrong between samples)
-            ("Sampling", int(min(max(length / h_norm / len(curves), 20), 5000))),
-            ("DistMin", max(band, h_edge)),
-            ("DistMax", max(band, h_edge) + 2.0 * h_far),
-            ("SizeMinNormal", h_norm),
-            ("SizeMinTangent", h_edge),
-            ("SizeMaxNormal", h_far),
-            ("SizeMaxTangent", h_far),
-        ):
-            field.setNumber(f_edge, k, v)
-    else:
-        # size: gate_edge at every gate boundary and inside the island boxes, growing to far
-        curves = [c[1] for c in gmsh.model.getEntities(1)]
-        f_dist = field.add("Distance")
-        field.setNumbers(f_dist, "CurvesList", curves)
-        field.setNumber(f_dist, "Sampling", 200)
-        f_edge = field.add("Threshold")
-        field.setNumber(f_edge, "InField", f_dist)
-        field.setNumber(f_edge, "SizeMin", h_edge)
-        field.setNumber(f_edge, "SizeMax", h_far)
-        field.setNumber(f_edge, "DistMin", h_edge)
-        field.setNumber(f_edge, "DistMax", 4.0 * h_far)
+        # the gate edges split into equal parts of at most gate_edge, as the rows are
+        for c in gate_curves:
+            length = gmsh.model.occ.getMass(1, c)
+            gmsh.model.mesh.setTransfiniteCurve(c, max(int(np.ceil(length / h_edge - 1e-9)), 1) + 1)
+        # each node into the surface that holds it (the exposed part, or a gate for the
+        # graded rows under it)
+        placed = np.zeros(nodes.shape[0], dtype=bool)
+        for _, s_tag in gmsh.model.getEntities(2):
+            bx0, by0, _, bx1, by1, _ = gmsh.model.getBoundingBox(2, s_tag)
+            inbox = (nodes[:, 0] >= bx0) & (nodes[:, 0] <= bx1)
+            inbox &= (nodes[:, 1] >= by0) & (nodes[:, 1] <= by1)
+            tags = []
+            for k in np.nonzero(inbox & ~placed)[0]:
+                if gmsh.model.isInside(2, s_tag, [nodes[k, 0], nodes[k, 1], 0.0]):
+                    tags.append(occ.addPoint(nodes[k, 0], nodes[k, 1], 0.0))
+                    placed[k] = True
+            if tags:
+                occ.synchronize()
+                gmsh.model.mesh.embed(0, tags, 2, s_tag)
+    # size: gate_edge at every gate boundary (and across the band) and inside the island boxes,
+    # growing to far
+    curves = [c[1] for c in gmsh.model.getEntities(1)]
+    f_dist = field.add("Distance")
+    field.setNumbers(f_dist, "CurvesList", curves)
+    field.setNumber(f_dist, "Sampling", 200)
+    f_edge = field.add("Threshold")
+    field.setNumber(f_edge, "InField", f_dist)
+    field.setNumber(f_edge, "SizeMin", h_edge)
+    field.setNumber(f_edge, "SizeMax", h_far)
+    field.setNumber(f_edge, "DistMin", max(h_edge, band_nm))
+    field.setNumber(f_edge, "DistMax", max(h_edge, band_nm) + 4.0 * h_far)
     fields = [f_edge]
     for bx0, bx1, by0, by1 in _refine_boxes(layout):
         f_box = field.add("Box")
@@ -200,15 +283,14 @@ def plane_mesh(
         ):
             field.setNumber(f_box, k, v)
         fields.append(f_box)
-    f_min = field.add("MinAniso" if aniso else "Min")
+    f_min = field.add("Min")
     field.setNumbers(f_min, "FieldsList", fields)
     field.setAsBackgroundMesh(f_min)
     for opt, val in (
         ("Mesh.MeshSizeExtendFromBoundary", 0),
         ("Mesh.MeshSizeFromPoints", 0),
         ("Mesh.MeshSizeFromCurvature", 0),
-        # BAMG (7) is gmsh's 2D algorithm that honours an anisotropic metric
-        ("Mesh.Algorithm", 7 if aniso else 6),
+        ("Mesh.Algorithm", 6),
         ("General.NumThreads", 1),
         ("Mesh.RandomFactor", 1e-9),
     ):

@@ -6,7 +6,7 @@ few well depths (with screening planes, as exp(-pi y/d): common practice). Toler
 issue's). The depletion width is read the same way in both: the distance from the gate edge to
 where the primary well's density reaches 1 % of its bulk value, located on the potential.
 
-The 3D mesh uses the layout's anisotropic gate-edge band (``mesh.edge_normal``): 6 nm across the
+The 3D mesh uses the layout's anisotropic gate-edge band (``mesh.edge_normal``): 5 nm across the
 edge, 60 nm along it. An isotropic mesh needs about the same size in both directions, which a
 CI run cannot afford (docs/layout3d.md, "A long straight gate edge against the 2D edge stage").
 The middle of the edge lies 470 nm from the gate's ends, where the end effect is below the mesh
@@ -25,7 +25,7 @@ from qhdesign.stack import load_stack
 GATE_V = -1.0
 
 
-def edge_layout(gate_edge_nm=60, far_nm=250, half_nm=500, normal_nm=6) -> str:
+def edge_layout(gate_edge_nm=60, far_nm=250, half_nm=500, normal_nm=5) -> str:
     m = half_nm - 1.5 * gate_edge_nm
     return f"""
 [layout]

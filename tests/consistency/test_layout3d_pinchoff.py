@@ -10,8 +10,10 @@ pinned surface the bare potential under a gate patch is V times its solid angle 
 than the infinite split gate and gate the saddle less; the Thomas–Fermi problem is monotone, so
 the same holds with screening (comparison principle; docs/layout3d.md, "Pinch-off in 3D and in
 2D"). Hence V_3D(L) < V_2D. A coarse mesh biases V_3D the other way (a P1 gate edge acts wider
-than drawn): the check runs on the anisotropic gate-edge band, where the bias is ~25 mV against
-a measured separation of ~100 mV at L = 300 nm.
+than drawn), so finer meshes move V_3D down, away from the 2D value (measured: -0.839, -0.834,
+-0.884 V at 16/80, 8/80, 8/40 nm across/along the edges, the middle step within the 10 mV
+bisection tolerance, vs 2D -0.804 V): the check runs on the coarsest of these (the anisotropic
+gate-edge band at refine 0.5), and a pass there holds converged.
 """
 
 from __future__ import annotations

@@ -79,3 +79,10 @@ def test_without_the_band_the_mesh_is_isotropic():
     dx, dy = _extents_near_edge(pm, -100e-9, 100e-9)
     assert np.median(dx) > 20e-9
     assert np.median(dy) == pytest.approx(np.median(dx), rel=0.6)
+
+
+def test_band_mesh_is_deterministic():
+    # the determinism rule (serial == mpiexec needs the same plane mesh in every run)
+    a = _plane('edge_normal = "8 nm"')
+    b = _plane('edge_normal = "8 nm"')
+    assert np.array_equal(a.xy_m, b.xy_m) and np.array_equal(a.triangles, b.triangles)
