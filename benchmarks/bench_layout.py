@@ -7,7 +7,9 @@ extrusion, distribution, tags), Newton solve time, lever-arm solve, wall time of
 the speedup of the solve from 1 to 2 ranks. The load average is printed: on a shared machine the
 figures are only comparable within one run.
 
-Run: ``.venv/bin/python benchmarks/bench_layout.py [refine ...]``.
+Run: ``.venv/bin/python benchmarks/bench_layout.py [--edge-normal NM] [refine ...]``.
+``--edge-normal 8`` meshes the anisotropic gate-edge band (``mesh.edge_normal`` = 8 nm, the
+setting docs/layout3d.md recommends for edge positions and pinch-off voltages).
 """
 
 from __future__ import annotations
@@ -28,7 +30,7 @@ STACK = ROOT / "stacks" / "ql2417_screened.toml"
 LAYOUT = ROOT / "stacks" / "layouts" / "ql2417_fp_circle.toml"
 
 
-def one(refine: float) -> None:
+def one(refine: float, edge_normal_nm: float | None = None) -> None:
     """One stage run in this process (under mpiexec: this rank); rank 0 prints JSON."""
     from mpi4py import MPI
 
@@ -40,7 +42,8 @@ def one(refine: float) -> None:
     stack = load_stack(STACK)
     lay = load_layout(LAYOUT, stack)
     t0 = time.perf_counter()
-    res = solve_layout(stack, lay, Layout3DOptions(refine=refine))
+    normal = None if edge_normal_nm is None else edge_normal_nm * 1e-9
+    res = solve_layout(stack, lay, Layout3DOptions(refine=refine, edge_normal_m=normal))
     wall = time.perf_counter() - t0
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     rss_all = MPI.COMM_WORLD.gather(rss, root=0)
@@ -51,6 +54,7 @@ def one(refine: float) -> None:
             json.dumps(
                 {
                     "refine": refine,
+                    "edge_normal_nm": edge_normal_nm,
                     "ranks": MPI.COMM_WORLD.size,
                     "dofs": res.info["dofs"],
                     "mesh_s": mesh,
@@ -68,16 +72,24 @@ def one(refine: float) -> None:
 
 
 def main() -> None:
-    if len(sys.argv) > 2 and sys.argv[1] == "--one":
-        one(float(sys.argv[2]))
+    args = sys.argv[1:]
+    normal = None
+    if "--edge-normal" in args:
+        i = args.index("--edge-normal")
+        normal = float(args[i + 1])
+        del args[i : i + 2]
+    if len(args) > 1 and args[0] == "--one":
+        one(float(args[1]), normal)
         return
-    refines = [float(a) for a in sys.argv[1:]] or [0.5, 1.0]
+    refines = [float(a) for a in args] or [0.5, 1.0]
     bindir = Path(sys.executable).parent
     env = dict(os.environ, OMP_NUM_THREADS="1")
     rows = []
     for refine in refines:
         for n in (1, 2):
             cmd = [sys.executable, __file__, "--one", str(refine)]
+            if normal is not None:
+                cmd += ["--edge-normal", str(normal)]
             if n > 1:
                 cmd = [str(bindir / "mpiexec"), "-n", str(n), *cmd]
             load0 = os.getloadavg()[0]
@@ -86,6 +98,8 @@ def main() -> None:
             row["load_before"] = load0
             rows.append(row)
     print(f"machine: {machine_line()}")
+    if normal is not None:
+        print(f"gate-edge band: mesh.edge_normal = {normal:g} nm")
     print()
     print(
         "| refine | ranks | dofs | mesh (s) | of which plane / distribute (s) | Newton solve (s) | "

@@ -193,6 +193,7 @@ FEM_MODULES = (
     "test_layout3d_pinchoff.py",
     "test_island_gate_dielectric.py",
     "test_layout3d_gate_dielectric.py",
+    "test_layout3d_island.py",
 )
 
 
@@ -227,6 +228,7 @@ SLOW_MODULES = (
     "test_layout3d_pinchoff.py",
     "test_island_gate_dielectric.py",
     "test_layout3d_gate_dielectric.py",
+    "test_layout3d_island.py",
 )
 #: Single slow tests in otherwise quick modules (node id without the parameter part): 10-80 s
 #: each in a `make test-fast` run on the shared machine (``--durations``, 2026-12-02).

@@ -50,6 +50,20 @@ def _print(res) -> None:
         if "plunger_period_V" in p:
             line += f" = {p['plunger_period_V'] * 1e3:.4g} mV at {res.field_T:g} T"
         console.print(line)
+    if res.response is not None:
+        ueV = 1e-6 * 1.602176634e-19
+        st = d["strip"]
+        console.print(
+            f"island at {d['response_field_T']:.4g} T (centre filling "
+            f"{d['primary_filling']:.4g}): interfering edge A_I = {st['A_I_m2'] * 1e12:.4g} um^2, "
+            f"A_L = {d['A_L_m2'] * 1e12:.4g} um^2, compressible strip "
+            f"{d['compressible_strip_width_m'] * 1e9:.1f} nm"
+        )
+        console.print(
+            f"K_I = {d['K_I_J'] / ueV:.4g} ueV (edge term {d['K_I_edge_term_J'] / ueV:.3g}), "
+            f"K_L = {d['K_L_J'] / ueV:.4g} ueV, K_IL = {d['K_IL_J'] / ueV:.4g} ueV, "
+            f"K_IL/K_I = {d['K_IL_over_K_I']:.4g}, E_C = {d['charging_energy_J'] / ueV:.4g} ueV"
+        )
 
 
 def _parse_gates(items: list[str]) -> dict[str, float]:
@@ -67,9 +81,20 @@ def _parse_gates(items: list[str]) -> dict[str, float]:
     return out
 
 
+#: Error keys of the physics (argument names) -> this command's options.
+LAYOUT_OPTIONS = {
+    "filling": "--filling",
+    "gap_J": "--gap",
+    "gap_kind": "--gap-kind",
+    "bulk_shape": "--bulk-charge",
+    "quantum_lifetime_s": "--quantum-lifetime",
+    "field_T": "--field",
+}
+
+
 def register(app: typer.Typer) -> None:
     @app.command("layout")
-    @guarded
+    @guarded(options=LAYOUT_OPTIONS)
     def layout(
         stack_file: Path = typer.Argument(..., help="Layer-stack TOML file."),
         layout_file: Path = typer.Argument(..., help="Gate-layout TOML file."),
@@ -77,7 +102,33 @@ def register(app: typer.Typer) -> None:
             [], "--gate", help="Override a gate voltage: NAME=VOLTAGE (repeatable)."
         ),
         field: str | None = typer.Option(
-            None, "--field", help="Magnetic field for the plunger period in volts, e.g. '5 T'."
+            None,
+            "--field",
+            help="Magnetic field, e.g. '5 T': the plunger period in volts and, with --gap, the "
+            "field of the island figures (default there: the primary's 1D density at --filling).",
+        ),
+        gap: str | None = typer.Option(
+            None,
+            "--gap",
+            help="Gap of the filling, e.g. '120 ueV': also compute the island's K_I, K_L, K_IL "
+            "and charging energy (linear response on the 3D mesh).",
+        ),
+        filling: str = typer.Option("1/3", "--filling", help="Laughlin filling 1/m (with --gap)."),
+        gap_kind: str = typer.Option(
+            "quasiparticle", "--gap-kind", help="Which gap --gap is: quasiparticle or activation."
+        ),
+        quantum_lifetime: str | None = typer.Option(
+            None,
+            "--quantum-lifetime",
+            help="One quantum lifetime for every well's Landau width (default: 1D estimate).",
+        ),
+        bulk_charge: str = typer.Option(
+            "uniform", "--bulk-charge", help="Shape of the bulk's charge: uniform or parabolic."
+        ),
+        strip_mesh: bool = typer.Option(
+            True,
+            "--strip-mesh/--no-strip-mesh",
+            help="With --gap: solve again on a mesh with node rows along the strip (default).",
         ),
         refine: float = typer.Option(1.0, "--refine", help="Mesh refinement factor (1 = default)."),
         lever_arm: bool = typer.Option(
@@ -117,6 +168,23 @@ def register(app: typer.Typer) -> None:
             lay.gate(name)
             check_voltage(v, name, "option --gate", barrier, stack.source)
         lay = lay.with_voltages(volts)
+        settings = None
+        if gap is not None:
+            from qhdesign.island.stage import OperatingSettings
+            from qhdesign.island_options import parse_filling
+
+            kw = {
+                "filling": parse_filling(filling, key="filling"),
+                "gap_J": option_quantity(gap, "energy", "--gap"),
+                "gap_kind": gap_kind,
+                "field_T": field_T,
+                "bulk_shape": bulk_charge,
+            }
+            if quantum_lifetime is not None:
+                kw["quantum_lifetime_s"] = option_quantity(
+                    quantum_lifetime, "time", "--quantum-lifetime"
+                )
+            settings = OperatingSettings(**kw)
         res = solve_layout(
             stack,
             lay,
@@ -124,6 +192,8 @@ def register(app: typer.Typer) -> None:
             field_T=field_T,
             lever_arm=lever_arm,
             fields_path=fields,
+            response=settings,
+            resolve_strip=strip_mesh,
         )
         MPI, _ = load()
         if MPI.COMM_WORLD.rank != 0:

@@ -342,14 +342,45 @@ def _sheet_mass_ratio(dos_J_m2: float) -> float:
     return dos_J_m2 * math.pi * sc.hbar**2 / sc.m_e
 
 
-def _landau(op: OperatingPoint, i: int, B: float, st: OperatingSettings, T: float, tau: dict):
-    s = op.section.sheets[i]
+def landau_sheets(section, i: int, B: float, st: OperatingSettings, T: float, tau: dict):
+    """Sheet i's Landau-level model at field B: (with exchange as the settings say, bare)."""
+    s = section.sheets[i]
     m = _sheet_mass_ratio(s.dos_J_m2)
     width = st.level_width_J or level_width_from_lifetime(B, m, tau[s.name])
     from qhdesign.section.edge import _permittivity_at
 
-    eps = _permittivity_at(op.section, s.z_m) if st.exchange else None
+    eps = _permittivity_at(section, s.z_m) if st.exchange else None
     return LandauSheet(B, m, width, T, st.g_factor, eps), LandauSheet(B, m, width, T, st.g_factor)
+
+
+def _landau(op: OperatingPoint, i: int, B: float, st: OperatingSettings, T: float, tau: dict):
+    return landau_sheets(op.section, i, B, st, T, tau)
+
+
+def edge_term_J(edge_velocity_m_per_s: float, filling: float, perimeter_m: float) -> float:
+    """The edge's own term in K_I: a chiral edge of filling nu, velocity v, length L stores
+    E = (h v / (2 nu L)) dN^2, so K_I,edge = h v/(nu L) (docs/island.md)."""
+    return sc.h * edge_velocity_m_per_s / (filling * perimeter_m)
+
+
+def screening_well_report(ll, ll_bare, centre_density_m2: float, cut: bool, cut_radius_m) -> dict:
+    """Filling and state of a screening well at the island centre's density (see docs/island.md)."""
+    ratio = float(ll_bare.thermodynamic_dos(centre_density_m2)) / zero_field_dos(ll.mass_ratio)
+    if ratio < NEAR_INCOMPRESSIBLE_RATIO:
+        kind = "near-incompressible"
+    elif cut:
+        kind = "emptied under the gate"
+    else:
+        kind = "compressible"
+    return {
+        "filling": float(ll.filling(centre_density_m2)),
+        "state": kind,
+        "dos_over_zero_field": ratio,
+        "screening_dos_over_zero_field": float(ll.screening_dos(centre_density_m2))
+        / zero_field_dos(ll.mass_ratio),
+        "cut_under_gate": cut,
+        "cut_radius_m": cut_radius_m,
+    }
 
 
 def _field_point(op, problem, B, st: OperatingSettings, T: float, tau: dict):
@@ -360,9 +391,7 @@ def _field_point(op, problem, B, st: OperatingSettings, T: float, tau: dict):
     problem.set_sheet_dos(sheet_dos_profiles(op, strip, lambda i, n: sheets[i][0].screening_dos(n)))
     res = problem.solve(strip)
     nu = st.filling
-    # the edge's own term: a chiral edge of filling nu, velocity v, length L stores
-    # E = (h v / (2 nu L)) dN^2 (docs/island.md)
-    K_edge = sc.h * strip.edge_velocity_m_per_s / (nu * strip.perimeter_m)
+    K_edge = edge_term_J(strip.edge_velocity_m_per_s, nu, strip.perimeter_m)
     K_I = res.K_I_electrostatic_J + K_edge
     r = res.K_IL_J / K_I
     forms = _closed_forms(
@@ -382,23 +411,9 @@ def _field_point(op, problem, B, st: OperatingSettings, T: float, tau: dict):
             continue
         state = op.sheets[i]
         ll, ll_bare = sheets[i]
-        n_c = state.centre_density_m2
-        ratio = float(ll_bare.thermodynamic_dos(n_c)) / zero_field_dos(ll.mass_ratio)
-        if ratio < NEAR_INCOMPRESSIBLE_RATIO:
-            kind = "near-incompressible"
-        elif state.cut_under_gate:
-            kind = "emptied under the gate"
-        else:
-            kind = "compressible"
-        wells[s.name] = {
-            "filling": float(ll.filling(n_c)),
-            "state": kind,
-            "dos_over_zero_field": ratio,
-            "screening_dos_over_zero_field": float(ll.screening_dos(n_c))
-            / zero_field_dos(ll.mass_ratio),
-            "cut_under_gate": state.cut_under_gate,
-            "cut_radius_m": state.cut_radius_m,
-        }
+        wells[s.name] = screening_well_report(
+            ll, ll_bare, state.centre_density_m2, state.cut_under_gate, state.cut_radius_m
+        )
     point = FieldPoint(
         field_T=B,
         strip=strip,

@@ -44,7 +44,7 @@ MAX_VERTICES = 2000
 
 _TOP = ("layout", "mesh", "gates", "island", "constrictions")
 _LAYOUT_KEYS = ("name", "notes", "stack", "domain_x", "domain_y")
-_MESH_KEYS = ("gate_edge", "far")
+_MESH_KEYS = ("gate_edge", "far", "edge_normal", "edge_band")
 _GATE_KEYS = ("name", "vertices", "voltage", "dielectric_thickness", "dielectric_permittivity")
 #: Allowed gate dielectric (as the stack file's surface.dielectric_*): thickness in m, relative
 #: permittivity.
@@ -129,6 +129,9 @@ class Layout:
         ((x_min, x_max), (y_min, y_max)) of the modelled surface (m).
     gate_edge_m, far_m
         Mesh element size at gate edges and in constrictions, and far from them (m).
+    edge_normal_m, edge_band_m
+        Optional anisotropic band along the gate edges: element size across the edges and the
+        band's half width (m); None: an isotropic mesh (band: the primary well's depth).
     gates
         All gates (drawn and generated).
     constrictions
@@ -150,6 +153,8 @@ class Layout:
     constrictions: tuple[Constriction, ...] = ()
     seed_m: tuple[float, float] | None = None
     island: IslandSpec | None = None
+    edge_normal_m: float | None = None
+    edge_band_m: float | None = None
 
     def gate(self, name: str) -> Gate:
         for g in self.gates:
@@ -183,6 +188,8 @@ class Layout:
             "domain_m": [list(self.domain_m[0]), list(self.domain_m[1])],
             "gate_edge_m": self.gate_edge_m,
             "far_m": self.far_m,
+            "edge_normal_m": self.edge_normal_m,
+            "edge_band_m": self.edge_band_m,
             "gates": [
                 {
                     "name": g.name,
@@ -407,6 +414,24 @@ def _build(raw: dict, src: str, base: Path, stack) -> Layout:
         raise _err(f"{gate_edge * 1e9:g} nm; allowed 1 nm to 500 nm", src, "mesh.gate_edge")
     if far < gate_edge:
         raise _err("must be at least mesh.gate_edge", src, "mesh.far")
+    edge_normal = edge_band = None
+    if "edge_normal" in mesh:
+        edge_normal = _qty(mesh, "edge_normal", "length", "mesh", src)
+        if not 1e-9 <= edge_normal <= gate_edge:
+            raise _err(
+                f"{edge_normal * 1e9:g} nm; allowed 1 nm to mesh.gate_edge "
+                f"({gate_edge * 1e9:g} nm)",
+                src,
+                "mesh.edge_normal",
+            )
+    if "edge_band" in mesh:
+        if edge_normal is None:
+            raise _err("needs mesh.edge_normal (the size across the band)", src, "mesh.edge_band")
+        edge_band = _qty(mesh, "edge_band", "length", "mesh", src)
+        if not edge_normal <= edge_band <= 2e-6:
+            raise _err(
+                f"{edge_band * 1e9:g} nm; allowed mesh.edge_normal to 2 um", src, "mesh.edge_band"
+            )
     if size / gate_edge > 20_000:
         raise _err(
             f"{size / gate_edge:.0f} gate-edge elements across the domain; allowed up to 20000",
@@ -496,6 +521,8 @@ def _build(raw: dict, src: str, base: Path, stack) -> Layout:
         domain_m=domain,
         gate_edge_m=gate_edge,
         far_m=far,
+        edge_normal_m=edge_normal,
+        edge_band_m=edge_band,
         gates=tuple(gates),
         constrictions=tuple(constrictions),
         seed_m=seed,

@@ -86,10 +86,117 @@ def _refine_boxes(layout: Layout) -> list[tuple[float, float, float, float]]:
     return boxes
 
 
-def plane_mesh(layout: Layout, refine: float = 1.0) -> PlaneMesh:
+def _on_domain_boundary(curve: int, x0: float, x1: float, y0: float, y1: float) -> bool:
+    """True for a curve lying on the domain rectangle's boundary (nm)."""
+    import gmsh
+
+    bx0, by0, _, bx1, by1, _ = gmsh.model.getBoundingBox(1, curve)
+    tol = 1e-6 * max(x1 - x0, y1 - y0)
+    vertical = abs(bx1 - bx0) < tol and min(abs(bx0 - x0), abs(bx0 - x1)) < tol
+    horizontal = abs(by1 - by0) < tol and min(abs(by0 - y0), abs(by0 - y1)) < tol
+    return vertical or horizontal
+
+
+def _row_offsets(h_n: float, band: float, h_t: float, inner: bool) -> np.ndarray:
+    """Distances (nm) of the node rows from a gate edge: uniform ``h_n`` out to ``band`` on the
+    exposed side (none under the gate), then spacings growing by 25 % per row until they reach
+    half the tangential size, where the isotropic mesh takes over."""
+    out, d, step = [], 0.0, h_n
+    if not inner:
+        while d + h_n <= band + 1e-9:
+            d += h_n
+            out.append(d)
+    while step < 0.5 * h_t:
+        d += step
+        out.append(d)
+        step *= 1.25
+    return np.array(out)
+
+
+def _segment_distance(p: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Distance of points p (N, 2) to the segment a-b."""
+    d = b - a
+    t = np.clip(((p - a) @ d) / max(float(d @ d), 1e-300), 0.0, 1.0)
+    return np.linalg.norm(p - (a + t[:, None] * d), axis=1)
+
+
+def band_nodes(layout: Layout, h_n: float, h_t: float, band: float) -> np.ndarray:
+    """Nodes (nm, shape (N, 2)) of the anisotropic band along the gate edges.
+
+    Rows parallel to every gate edge, ``h_n`` apart across it and ``h_t`` along it (the edge
+    is split into equal parts of at most ``h_t``, as its mesh curve is): out to ``band`` on the
+    exposed side, a few graded rows under the gate. A node is kept only where its own edge is
+    the nearest gate edge (no clashes at corners or between neighbouring gates), at least 0.7
+    ``h_n`` from every other edge and node, and inside the domain. Pure numpy and
+    deterministic: the Delaunay mesher then joins these rows into h_n x h_t triangles.
+    """
+    from scipy.spatial import cKDTree
+
+    segs = []
+    for g in layout.gates:
+        v = np.asarray(g.vertices_m, dtype=float) / NM  # counter-clockwise (validated)
+        for k in range(len(v)):
+            segs.append((v[k], v[(k + 1) % len(v)]))
+    (x0, x1), (y0, y1) = ((a / NM, b / NM) for a, b in layout.domain_m)
+    outer = _row_offsets(h_n, band, h_t, inner=False)
+    inner = _row_offsets(h_n, band, h_t, inner=True)
+    cand, owner = [], []
+    for i, (a, b) in enumerate(segs):
+        d = b - a
+        length = float(np.hypot(*d))
+        n_t = max(int(np.ceil(length / h_t - 1e-9)), 1)
+        t = np.arange(1, n_t) / n_t if n_t > 1 else np.array([0.5])
+        base = a + t[:, None] * d
+        normal = np.array([d[1], -d[0]]) / length  # outward for a counter-clockwise polygon
+        for off in np.concatenate((outer, -inner)):
+            cand.append(base + off * normal)
+            owner.append(np.full(t.size, i))
+    if not cand:
+        return np.zeros((0, 2))
+    pts, own = np.concatenate(cand), np.concatenate(owner)
+    dist = np.stack([_segment_distance(pts, a, b) for a, b in segs], axis=1)
+    mine = dist[np.arange(pts.shape[0]), own]
+    others = dist.copy()
+    others[np.arange(pts.shape[0]), own] = np.inf
+    nearest_other = others.min(axis=1)
+    m = 0.7 * h_n
+    keep = (mine <= nearest_other - 1e-9) & (nearest_other >= m)
+    keep &= (
+        (pts[:, 0] > x0 + m) & (pts[:, 0] < x1 - m) & (pts[:, 1] > y0 + m) & (pts[:, 1] < y1 - m)
+    )
+    pts = pts[keep]
+    # drop near-duplicates, first come first kept (deterministic order)
+    tree = cKDTree(pts)
+    drop = np.zeros(pts.shape[0], dtype=bool)
+    for i, j in sorted(tree.query_pairs(m)):
+        if not drop[i]:
+            drop[j] = True
+    return pts[~drop]
+
+
+def plane_mesh(
+    layout: Layout,
+    refine: float = 1.0,
+    *,
+    edge_normal_m: float | None = None,
+    edge_band_m: float | None = None,
+    curves=(),
+) -> PlaneMesh:
     """Mesh the surface plane with the gate polygons as embedded boundaries (gmsh, this rank).
 
-    ``refine`` divides both element sizes. gmsh must be initialised by the caller.
+    ``refine`` divides every element size. ``curves``: extra closed polylines (each (N, 2), m)
+    whose vertices become mesh nodes and whose segments become mesh edges, not subdivided (the
+    island's strip boundaries, :mod:`qhdesign.layout.response3d`). gmsh must be initialised by
+    the caller.
+
+    Without ``edge_normal_m`` the mesh is isotropic: ``gate_edge`` at the gate edges, growing to
+    ``far``. With it, a band along every gate edge is meshed anisotropically: rows of nodes
+    ``edge_normal_m`` apart across the edge and ``gate_edge`` apart along it, out to
+    ``edge_band_m`` on the exposed side and graded under the gate (:func:`band_nodes`, embedded
+    in gmsh's Frontal-Delaunay mesh; deterministic, unlike gmsh's anisotropic BAMG algorithm,
+    which gave a different mesh on every call). The band holds what a P1 solution resolves
+    worst: the square-root singularity of the potential at a gate edge and the kink of the sheet
+    density at the electronic edge, which lies within about one well depth of the gate edge.
     """
     import gmsh
 
@@ -105,22 +212,66 @@ def plane_mesh(layout: Layout, refine: float = 1.0) -> PlaneMesh:
         lines = [occ.addLine(pts[i], pts[(i + 1) % len(pts)]) for i in range(len(pts))]
         loop = occ.addCurveLoop(lines)
         gate_surfs.append(occ.addPlaneSurface([loop]))
-    occ.fragment([(2, rect)], [(2, s) for s in gate_surfs])
+    curve_lines = []
+    for c in curves:
+        pts = [occ.addPoint(float(x) / NM, float(y) / NM, 0.0) for x, y in c]
+        curve_lines += [occ.addLine(pts[i], pts[(i + 1) % len(pts)]) for i in range(len(pts))]
+    tools = [(2, s) for s in gate_surfs] + [(1, c) for c in curve_lines]
+    _, outmap = occ.fragment([(2, rect)], tools)
     occ.synchronize()
-    # size: gate_edge at every gate boundary and inside the island boxes, growing to far
+    row_tags = set()
+    for dim_tags in outmap[1 + len(gate_surfs) :]:
+        for dim, tag in dim_tags:
+            if dim == 1:  # the curve's own nodes only
+                gmsh.model.mesh.setTransfiniteCurve(tag, 2)
+                row_tags.add(tag)
+    field = gmsh.model.mesh.field
+    band_nm = 0.0
+    if edge_normal_m is not None:
+        h_norm = min(edge_normal_m / refine / NM, h_edge)
+        band_nm = (edge_band_m if edge_band_m is not None else 0.0) / NM
+        nodes = band_nodes(layout, h_norm, h_edge, band_nm)
+        # the gate edges only: the domain boundary carries no singularity, and the embedded
+        # curves (strip rows) bring their own nodes
+        gate_curves = [
+            c[1]
+            for c in gmsh.model.getEntities(1)
+            if c[1] not in row_tags and not _on_domain_boundary(c[1], x0, x1, y0, y1)
+        ]
+        # the gate edges split into equal parts of at most gate_edge, as the rows are
+        for c in gate_curves:
+            length = gmsh.model.occ.getMass(1, c)
+            gmsh.model.mesh.setTransfiniteCurve(c, max(int(np.ceil(length / h_edge - 1e-9)), 1) + 1)
+        # each node into the surface that holds it (the exposed part, or a gate for the
+        # graded rows under it)
+        placed = np.zeros(nodes.shape[0], dtype=bool)
+        for _, s_tag in gmsh.model.getEntities(2):
+            bx0, by0, _, bx1, by1, _ = gmsh.model.getBoundingBox(2, s_tag)
+            inbox = (nodes[:, 0] >= bx0) & (nodes[:, 0] <= bx1)
+            inbox &= (nodes[:, 1] >= by0) & (nodes[:, 1] <= by1)
+            tags = []
+            for k in np.nonzero(inbox & ~placed)[0]:
+                if gmsh.model.isInside(2, s_tag, [nodes[k, 0], nodes[k, 1], 0.0]):
+                    tags.append(occ.addPoint(nodes[k, 0], nodes[k, 1], 0.0))
+                    placed[k] = True
+            if tags:
+                occ.synchronize()
+                gmsh.model.mesh.embed(0, tags, 2, s_tag)
+    # size: gate_edge at every gate boundary (and across the band) and inside the island boxes,
+    # growing to far
     curves = [c[1] for c in gmsh.model.getEntities(1)]
-    f_dist = gmsh.model.mesh.field.add("Distance")
-    gmsh.model.mesh.field.setNumbers(f_dist, "CurvesList", curves)
-    gmsh.model.mesh.field.setNumber(f_dist, "Sampling", 200)
-    f_thr = gmsh.model.mesh.field.add("Threshold")
-    gmsh.model.mesh.field.setNumber(f_thr, "InField", f_dist)
-    gmsh.model.mesh.field.setNumber(f_thr, "SizeMin", h_edge)
-    gmsh.model.mesh.field.setNumber(f_thr, "SizeMax", h_far)
-    gmsh.model.mesh.field.setNumber(f_thr, "DistMin", h_edge)
-    gmsh.model.mesh.field.setNumber(f_thr, "DistMax", 4.0 * h_far)
-    fields = [f_thr]
+    f_dist = field.add("Distance")
+    field.setNumbers(f_dist, "CurvesList", curves)
+    field.setNumber(f_dist, "Sampling", 200)
+    f_edge = field.add("Threshold")
+    field.setNumber(f_edge, "InField", f_dist)
+    field.setNumber(f_edge, "SizeMin", h_edge)
+    field.setNumber(f_edge, "SizeMax", h_far)
+    field.setNumber(f_edge, "DistMin", max(h_edge, band_nm))
+    field.setNumber(f_edge, "DistMax", max(h_edge, band_nm) + 4.0 * h_far)
+    fields = [f_edge]
     for bx0, bx1, by0, by1 in _refine_boxes(layout):
-        f_box = gmsh.model.mesh.field.add("Box")
+        f_box = field.add("Box")
         for k, v in (
             ("VIn", 1.5 * h_edge),
             ("VOut", h_far),
@@ -130,11 +281,11 @@ def plane_mesh(layout: Layout, refine: float = 1.0) -> PlaneMesh:
             ("YMax", by1 / NM),
             ("Thickness", 4 * h_edge),
         ):
-            gmsh.model.mesh.field.setNumber(f_box, k, v)
+            field.setNumber(f_box, k, v)
         fields.append(f_box)
-    f_min = gmsh.model.mesh.field.add("Min")
-    gmsh.model.mesh.field.setNumbers(f_min, "FieldsList", fields)
-    gmsh.model.mesh.field.setAsBackgroundMesh(f_min)
+    f_min = field.add("Min")
+    field.setNumbers(f_min, "FieldsList", fields)
+    field.setAsBackgroundMesh(f_min)
     for opt, val in (
         ("Mesh.MeshSizeExtendFromBoundary", 0),
         ("Mesh.MeshSizeFromPoints", 0),
@@ -213,6 +364,10 @@ def build_mesh3d(
     charged_levels: np.ndarray,
     comm,
     refine: float = 1.0,
+    curves=(),
+    *,
+    edge_normal_m: float | None = None,
+    edge_band_m: float | None = None,
 ) -> tuple[Mesh3D, dict]:
     """Build and distribute the 3D mesh.
 
@@ -226,6 +381,10 @@ def build_mesh3d(
         Interior levels that carry frozen line charge (tagged ``levels``).
     comm
         MPI communicator.
+    refine, edge_normal_m, edge_band_m
+        Plane-mesh sizes, see :func:`plane_mesh`.
+    curves
+        Extra closed polylines embedded in the plane mesh (:func:`plane_mesh`).
 
     Returns
     -------
@@ -251,7 +410,13 @@ def build_mesh3d(
             started = True
         gmsh.option.setNumber("General.Terminal", 0)
         try:
-            plane = plane_mesh(layout, refine)
+            plane = plane_mesh(
+                layout,
+                refine,
+                edge_normal_m=edge_normal_m,
+                edge_band_m=edge_band_m,
+                curves=curves,
+            )
         finally:
             if started:
                 gmsh.finalize()

@@ -54,17 +54,24 @@ class Layout3DOptions:
         Largest level spacing (m).
     refine
         Divides every in-plane and vertical size (2: about 8x the dofs).
+    edge_normal_m, edge_band_m
+        Anisotropic band along the gate edges (:func:`~qhdesign.layout.mesh3d.plane_mesh`):
+        element size across the edges and the band's half width (m). None: the layout's
+        ``mesh.edge_normal`` / ``mesh.edge_band``; with neither, an isotropic mesh; a band
+        without a width is the primary sheet's depth.
     exposed
         ``"frozen"``, ``"pinned"`` or None (the stack's surface.charge).
     rtol
         SNES relative tolerance; linear solves use ``ksp_rtol``.
     """
 
-    h_surface_m: float = 4e-9
+    h_surface_m: float = 1e-9
     h_sheet_m: float = 3e-9
     growth: float = 0.35
     h_max_z_m: float = 80e-9
     refine: float = 1.0
+    edge_normal_m: float | None = None
+    edge_band_m: float | None = None
     exposed: str | None = None
     rtol: float = 1e-11
     atol: float = 1e-13
@@ -104,9 +111,13 @@ class LayoutSolver:
         :class:`Layout3DOptions`.
     comm
         MPI communicator (default ``MPI.COMM_WORLD``).
+    curves
+        Extra closed polylines (m) embedded in the plane mesh (the island's strip boundaries).
     """
 
-    def __init__(self, section: CrossSection, layout: Layout, options=None, *, comm=None):
+    def __init__(
+        self, section: CrossSection, layout: Layout, options=None, *, comm=None, curves=()
+    ):
         from qhdesign.fem.backend import load
 
         MPI, _ = load()
@@ -146,8 +157,22 @@ class LayoutSolver:
         self.calibration = calibrate(section, grid.z_m, eps_int, exposed=o.exposed)
         charged = np.nonzero(self.calibration["line_charge_C_m2"])[0]
         self.timings["levels"] = time.perf_counter() - t0
+        normal = o.edge_normal_m if o.edge_normal_m is not None else layout.edge_normal_m
+        band = o.edge_band_m if o.edge_band_m is not None else layout.edge_band_m
+        if band is None:
+            roles = [sh.role for sh in section.sheets]
+            band = section.sheets[roles.index("primary") if "primary" in roles else 0].z_m
         m3, tm = build_mesh3d(
-            layout, grid.z_m, grid.layer_of_interval, grid.sheet_level, charged, self.comm, o.refine
+            layout,
+            grid.z_m,
+            grid.layer_of_interval,
+            grid.sheet_level,
+            charged,
+            self.comm,
+            o.refine,
+            curves,
+            edge_normal_m=normal,
+            edge_band_m=band,
         )
         self.timings |= {f"mesh_{k}": v for k, v in tm.items()}
         self.m3 = m3
@@ -341,21 +366,30 @@ class LayoutSolver:
             kT = max(kT / self.options.kT_factor, self.kT_target_eV)
 
     # ------------------------------------------------------------------ results
-    def gather_levels(self, values: np.ndarray) -> np.ndarray:
-        """A nodal array (owned + ghost dofs) gathered as (levels, plane nodes) on every rank."""
+    def gather_levels(self, values: np.ndarray, levels=None) -> np.ndarray:
+        """A nodal array (owned + ghost dofs) gathered as (levels, plane nodes) on every rank.
+
+        ``levels`` (level indices) gathers only those rows, shape (len(levels), plane nodes):
+        the sheets' rows are a few percent of the field, and gathering the whole 3D field on every
+        rank would undo the distribution (memory and traffic grow with the total dofs).
+        """
         n = self.n_owned
-        parts = self.comm.allgather(
-            (self._dof_level[:n].copy(), self._dof_plane[:n].copy(), values[:n].copy())
-        )
-        out = np.full((self.levels_m.size, self.plane.num_nodes), np.nan)
-        for k, p, val in parts:
-            out[k, p] = val
+        k, p, val = self._dof_level[:n], self._dof_plane[:n], values[:n]
+        if levels is not None:
+            rows = np.full(self.levels_m.size, -1, dtype=np.int64)
+            rows[np.asarray(levels, dtype=np.int64)] = np.arange(len(levels))
+            keep = rows[k] >= 0
+            k, p, val = rows[k[keep]], p[keep], val[keep]
+        parts = self.comm.allgather((k.copy(), p.copy(), val.copy()))
+        n_rows = self.levels_m.size if levels is None else len(levels)
+        out = np.full((n_rows, self.plane.num_nodes), np.nan)
+        for kk, pp, vv in parts:
+            out[kk, pp] = vv
         return out
 
     def sheet_potentials(self) -> np.ndarray:
         """phi on each sheet (V), shape (S, plane nodes), identical on every rank."""
-        full = self.gather_levels(self.phi.x.array)
-        return full[self.sheet_level]
+        return self.gather_levels(self.phi.x.array, self.sheet_level)
 
     def sheet_densities(self) -> np.ndarray:
         """Thomas–Fermi density of each sheet on the plane nodes (m^-2), shape (S, Np)."""

@@ -91,6 +91,7 @@ class LayoutResult:
     lever_arm_m2_per_V: dict[str, float]
     field_T: float | None = None
     info: dict = field(default_factory=dict)
+    response: object | None = None  # response3d.IslandResponse3D when requested
 
     @property
     def primary(self) -> int:
@@ -133,6 +134,12 @@ class LayoutResult:
         if len(self.lever_arm_m2_per_V) >= 1:
             first = next(iter(self.lever_arm_m2_per_V))
             out["dA_I_dV_m2_per_V"] = self.lever_arm_m2_per_V[first]
+        if self.response is not None:
+            # the island stage's keys for the island figures; the interfering edge's own area
+            # and radius are under "strip" (A_I_m2 above is the half-density island)
+            out |= {k: v for k, v in self.response.to_dict().items() if k != "field_T"}
+            out["response_field_T"] = self.response.point.field_T
+            out["info"] = dict(self.info) | {"response": self.response.info}
         return out
 
     def summary(self) -> dict[str, float]:
@@ -186,7 +193,7 @@ def analyse(solver: LayoutSolver, lever_arm: bool = True) -> dict:
         D = sec.sheets[ip].dos_J_m2
         for name in lay.plungers:
             dphi, _ = solver.linear_response([(solver.gate_dofs(name), 1.0)])
-            dphi_sheet = solver.gather_levels(dphi.x.array)[solver.sheet_level[ip]]
+            dphi_sheet = solver.gather_levels(dphi.x.array, [solver.sheet_level[ip]])[0]
             fac = solver.sheet_dos_factor()[ip]
             dn = D * sc.e * fac * dphi_sheet  # m^-2 per V
             step = _AREA_STEP * bulk[ip] / max(np.max(np.abs(dn)), 1e-300)
@@ -216,6 +223,8 @@ def solve_layout(
     field_T: float | None = None,
     lever_arm: bool = True,
     fields_path=None,
+    response=None,
+    resolve_strip: bool = True,
 ) -> LayoutResult:
     """Solve a gate layout in 3D and read off island, constrictions and lever arms.
 
@@ -236,6 +245,12 @@ def solve_layout(
         Compute dA/dV_p for every plunger (one linear solve each).
     fields_path
         Write phi and the permittivity to this XDMF file (collective).
+    response
+        :class:`qhdesign.island.stage.OperatingSettings`: also compute the island's K_I, K_L,
+        K_IL and charging energy at its field (:mod:`qhdesign.layout.response3d`). For a stack,
+        the Landau widths come from the 1D disorder estimate unless the settings give them.
+    resolve_strip
+        For the response: solve again on a mesh with node rows along the strip (default).
 
     Raises
     ------
@@ -246,9 +261,29 @@ def solve_layout(
 
     if field_T is not None and not (0 < field_T <= 50):
         raise InputError(f"field {field_T:g} T out of range; allowed (0, 50] T", key="field")
+    if response is not None:
+        from .response3d import check_settings
+
+        check_settings(response)
     t0 = time.perf_counter()
+    lifetimes = None
     if isinstance(source, CrossSection):
         section = source
+    elif (
+        response is not None
+        and response.level_width_J is None
+        and (response.quantum_lifetime_s is None)
+    ):
+        # as qhdesign.pipeline.solve_island_operating: the 1D bands give the sheets and the
+        # disorder estimate the quantum lifetimes
+        from qhdesign.section.model import cross_section_from_sheet_model
+        from qhdesign.sp1d import solve_bands
+        from qhdesign.sp1d.scattering import scattering
+        from qhdesign.sp1d.sheets import sheet_model
+
+        bands = solve_bands(source)
+        section = cross_section_from_sheet_model(sheet_model(source, bands))
+        lifetimes = {w.name: w.quantum_lifetime_s for w in scattering(bands).wells}
     else:
         from qhdesign.pipeline import section_from_stack
 
@@ -259,6 +294,11 @@ def solve_layout(
     t0 = time.perf_counter()
     res = analyse(solver, lever_arm=lever_arm)
     t_an = time.perf_counter() - t0
+    resp = None
+    if response is not None:
+        from .response3d import island_response
+
+        resp = island_response(solver, response, lifetimes_s=lifetimes, resolve_strip=resolve_strip)
     if fields_path is not None:
         solver.write_fields(fields_path)
     info = {
@@ -285,6 +325,7 @@ def solve_layout(
         lever_arm_m2_per_V=res["levers"],
         field_T=field_T,
         info=info,
+        response=resp,
     )
 
 

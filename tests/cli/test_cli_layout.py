@@ -13,7 +13,7 @@ CIRCLE = ROOT / "stacks" / "layouts" / "ql2417_fp_circle.toml"
 def test_layout_in_help(cli_runner, app):
     res = cli_runner.invoke(app, ["layout", "--help"])
     assert res.exit_code == 0
-    assert "--fields" in res.output and "--gate" in res.output
+    assert "--fields" in res.output and "--gate" in res.output and "--gap" in res.output
 
 
 @pytest.mark.parametrize(
@@ -25,6 +25,9 @@ def test_layout_in_help(cli_runner, app):
         (["--refine", "9"], ["option --refine"]),
         (["--fields", "out.vtk"], ["option --fields", "XDMF"]),
         (["--field", "5 nm"], ["option --field"]),  # a length is not a field
+        (["--gap", "120 ueV", "--filling", "2/5"], ["--filling", "Laughlin"]),
+        (["--gap", "5 nm"], ["option --gap"]),
+        (["--gap", "120 ueV", "--bulk-charge", "ring"], ["--bulk-charge", "uniform"]),
     ],
 )
 def test_bad_options_one_line(cli_runner, app, screened_path, args, fragments):

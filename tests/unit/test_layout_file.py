@@ -201,6 +201,21 @@ SQUARE = [(-100, -100), (100, -100), (100, 100), (-100, 100)]
         ),
         (HEAD, "gates", "no gates"),
         (
+            HEAD + 'edge_normal = "30 nm"\n' + _gate("a", SQUARE),
+            "mesh.edge_normal",
+            "allowed 1 nm to mesh.gate_edge",
+        ),
+        (
+            HEAD + 'edge_band = "150 nm"\n' + _gate("a", SQUARE),
+            "mesh.edge_band",
+            "needs mesh.edge_normal",
+        ),
+        (
+            HEAD + 'edge_normal = "6 nm"\nedge_band = "3 um"\n' + _gate("a", SQUARE),
+            "mesh.edge_band",
+            "allowed mesh.edge_normal to 2 um",
+        ),
+        (
             HEAD.replace('["-2 um", "2 um"]\ndomain_y', '["2 um", "-2 um"]\ndomain_y'),
             "layout.domain_x",
             "maximum",
@@ -215,6 +230,14 @@ def test_bad_layout_one_line(text, key, fragment):
     assert msg.startswith("lay.toml: "), msg
     assert f"key '{key}'" in msg, msg
     assert fragment in msg, msg
+
+
+def test_edge_band_keys():
+    lay = _load(HEAD + 'edge_normal = "6 nm"\nedge_band = "120 nm"\n' + _gate("a", SQUARE))
+    assert lay.edge_normal_m == pytest.approx(6e-9)
+    assert lay.edge_band_m == pytest.approx(120e-9)
+    plain = _load(HEAD + _gate("a", SQUARE))
+    assert plain.edge_normal_m is None and plain.edge_band_m is None
 
 
 def test_load_layout_missing_file(tmp_path):
