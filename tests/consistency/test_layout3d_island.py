@@ -168,8 +168,8 @@ def test_axisymmetric_on_the_3d_nodes_matches_3d(both, record_check, monkeypatch
     radial cells renders the gate edge differently from 40 nm triangles (radii 243.8/298.2 nm
     here, 248.3/302.3 nm in 3D, which alone raises the axisymmetric ratio by about 2 %); with an
     8 nm gate-edge band on both sides and the default levels (docs/layout3d.md, not run in CI)
-    the radii agree within 1.2 nm and the ratios within 0.6 %. With the earlier any-neighbour conductor rule the 3D gave
-    0.1948 here (+4.8 %)."""
+    the radii agree within 1.2 nm and the ratios within 0.6 %. With the earlier any-neighbour
+    conductor rule the 3D gave 0.1948 here (+4.8 %)."""
     import qhdesign.section.solver as section_solver
     from qhdesign.island.stage import solve_island_operating
     from qhdesign.layout.model3d import Layout3DOptions
