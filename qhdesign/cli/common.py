@@ -334,6 +334,22 @@ Sheets = Annotated[
         "gated 1D solves; default) or constant-dos (closed-form sheets, tails frozen).",
     ),
 ]
+SheetXC = Annotated[
+    str,
+    typer.Option(
+        "--sheet-xc",
+        help="With --sheets constant-dos: the sheets' own in-plane exchange-correlation: none, "
+        "exchange (2D Hartree-Fock), exchange+correlation (plus the Attaccalite et al. 2002 fit).",
+    ),
+]
+CompressibilityFloor = Annotated[
+    float | None,
+    typer.Option(
+        "--compressibility-floor",
+        help="With --sheet-xc: floor on each sheet's dmu/dn as a fraction of pi hbar^2/m* "
+        "(0 < f <= 1, default 0.1), where exchange makes it negative.",
+    ),
+]
 GateBarrier = Annotated[
     str | None,
     typer.Option(

@@ -15,10 +15,12 @@ import typer
 from qhdesign.limits import check_refine
 
 from .common import (
+    CompressibilityFloor,
     GateBarrier,
     JsonOut,
     Refine,
     Sheets,
+    SheetXC,
     StackFile,
     Surface,
     guarded,
@@ -83,17 +85,6 @@ def _echo_sheet_xc(xc: dict) -> None:
             if ratio is not None
             else f"  {name}: {s['law']}"
         )
-
-
-#: The sheets' own exchange-correlation options, shared by ``edge`` and ``pinchoff``.
-SHEET_XC_HELP = (
-    "With --sheets constant-dos: the sheets' own in-plane exchange-correlation: none, exchange "
-    "(2D Hartree-Fock), exchange+correlation (plus the Attaccalite et al. 2002 fit)."
-)
-FLOOR_HELP = (
-    "With --sheet-xc: floor on each sheet's dmu/dn as a fraction of pi hbar^2/m* "
-    "(0 < f <= 1, default 0.1), where exchange makes it negative."
-)
 
 
 def _sheet_info(section) -> dict:
@@ -308,10 +299,8 @@ def register(app: typer.Typer) -> None:
         ),
         surface: Surface = None,
         sheets: Sheets = "1d-tables",
-        sheet_xc: str = typer.Option("none", "--sheet-xc", help=SHEET_XC_HELP),
-        compressibility_floor: float | None = typer.Option(
-            None, "--compressibility-floor", help=FLOOR_HELP
-        ),
+        sheet_xc: SheetXC = "none",
+        compressibility_floor: CompressibilityFloor = None,
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
         json_out: JsonOut = None,
@@ -405,10 +394,8 @@ def register(app: typer.Typer) -> None:
         v_step: str = typer.Option("0.1", "--step", help="Sweep step size (V, > 0)."),
         surface: Surface = None,
         sheets: Sheets = "1d-tables",
-        sheet_xc: str = typer.Option("none", "--sheet-xc", help=SHEET_XC_HELP),
-        compressibility_floor: float | None = typer.Option(
-            None, "--compressibility-floor", help=FLOOR_HELP
-        ),
+        sheet_xc: SheetXC = "none",
+        compressibility_floor: CompressibilityFloor = None,
         gate_barrier: GateBarrier = None,
         refine: Refine = 1.0,
         json_out: JsonOut = None,

@@ -14,7 +14,15 @@ from pathlib import Path
 
 import typer
 
-from .common import JsonOut, Refine, guarded, option_quantity
+from .common import (
+    CompressibilityFloor,
+    JsonOut,
+    Refine,
+    Sheets,
+    SheetXC,
+    guarded,
+    option_quantity,
+)
 
 
 def _print(res) -> None:
@@ -155,23 +163,9 @@ def register(app: typer.Typer) -> None:
             "--exchange/--no-exchange",
             help="Hartree-Fock exchange in the sheets' dmu/dn of the linear response (at B).",
         ),
-        sheet_xc: str = typer.Option(
-            "none",
-            "--sheet-xc",
-            help="The sheets' own exchange-correlation in the operating-point solve: none, "
-            "exchange (2D Hartree-Fock), exchange+correlation (plus Attaccalite et al. 2002).",
-        ),
-        compressibility_floor: float | None = typer.Option(
-            None,
-            "--compressibility-floor",
-            help="With --sheet-xc: floor on dmu/dn as a fraction of pi hbar^2/m* (default 0.1).",
-        ),
-        sheets: str = typer.Option(
-            "1d-tables",
-            "--sheets",
-            help="Sheet model of the operating point: 1d-tables (density and tails follow the "
-            "gate; default) or constant-dos.",
-        ),
+        sheet_xc: SheetXC = "none",
+        compressibility_floor: CompressibilityFloor = None,
+        sheets: Sheets = "1d-tables",
         bulk_charge: str = typer.Option(
             "uniform", "--bulk-charge", help="Shape of the bulk's added charge: uniform, parabolic."
         ),
