@@ -97,20 +97,34 @@ def _on_domain_boundary(curve: int, x0: float, x1: float, y0: float, y1: float) 
     return vertical or horizontal
 
 
-def _row_offsets(h_n: float, band: float, h_t: float, inner: bool) -> np.ndarray:
-    """Distances (nm) of the node rows from a gate edge: uniform ``h_n`` out to ``band`` on the
-    exposed side (none under the gate), then spacings growing by 25 % per row until they reach
-    half the tangential size, where the isotropic mesh takes over."""
-    out, d, step = [], 0.0, h_n
+def _row_offsets(
+    h_n: float, band: float, h_t: float, inner: bool, h_first: float | None = None
+) -> tuple[np.ndarray, np.ndarray]:
+    """Distances (nm) of the node rows from a gate edge and the spacing of each row.
+
+    The first row lies ``h_first`` from the edge (default ``h_n``); spacings grow by 30 % per row
+    up to ``h_n``, stay ``h_n`` out to ``band`` on the exposed side (none under the gate), then
+    grow by 25 % per row until they reach half the tangential size, where the isotropic mesh
+    takes over."""
+    out, gaps, d = [], [], 0.0
+    step = min(h_first if h_first is not None else h_n, h_n)
+    while step < h_n - 1e-9:
+        d += step
+        out.append(d)
+        gaps.append(step)
+        step *= 1.3
+    step = h_n
     if not inner:
         while d + h_n <= band + 1e-9:
             d += h_n
             out.append(d)
+            gaps.append(h_n)
     while step < 0.5 * h_t:
         d += step
         out.append(d)
+        gaps.append(step)
         step *= 1.25
-    return np.array(out)
+    return np.array(out), np.array(gaps)
 
 
 def _segment_distance(p: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -120,27 +134,35 @@ def _segment_distance(p: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray
     return np.linalg.norm(p - (a + t[:, None] * d), axis=1)
 
 
-def band_nodes(layout: Layout, h_n: float, h_t: float, band: float) -> np.ndarray:
+def band_nodes(
+    layout: Layout, h_n: float, h_t: float, band: float, h_first: float | None = None
+) -> np.ndarray:
     """Nodes (nm, shape (N, 2)) of the anisotropic band along the gate edges.
 
     Rows parallel to every gate edge, ``h_n`` apart across it and ``h_t`` along it (the edge
-    is split into equal parts of at most ``h_t``, as its mesh curve is): out to ``band`` on the
-    exposed side, a few graded rows under the gate. A node is kept only where its own edge is
-    the nearest gate edge (no clashes at corners or between neighbouring gates), at least 0.7
-    ``h_n`` from every other edge and node, and inside the domain. Pure numpy and
-    deterministic: the Delaunay mesher then joins these rows into h_n x h_t triangles.
+    is split into equal parts of at most ``h_t``, as its mesh curve is): from ``h_first`` at the
+    edge graded up to ``h_n`` (:func:`_row_offsets`), out to ``band`` on the exposed side, a few
+    graded rows under the gate. A node is kept only where its own edge is the nearest gate edge
+    (no clashes at corners or between neighbouring gates), at least 0.7 row spacings from every
+    other edge and node, and inside the domain. Pure numpy and deterministic: the Delaunay
+    mesher then joins these rows into thin triangles along the edge.
     """
     from scipy.spatial import cKDTree
 
     segs = []
     for g in layout.gates:
-        v = np.asarray(g.vertices_m, dtype=float) / NM  # counter-clockwise (validated)
+        v = np.asarray(g.vertices_m, dtype=float) / NM
+        # counter-clockwise, so the normals below point out of the gate (a layout file's gates
+        # are turned so when loaded; a layout built in Python may not be)
+        if np.dot(v[:, 0], np.roll(v[:, 1], -1)) - np.dot(v[:, 1], np.roll(v[:, 0], -1)) < 0:
+            v = v[::-1]
         for k in range(len(v)):
             segs.append((v[k], v[(k + 1) % len(v)]))
     (x0, x1), (y0, y1) = ((a / NM, b / NM) for a, b in layout.domain_m)
-    outer = _row_offsets(h_n, band, h_t, inner=False)
-    inner = _row_offsets(h_n, band, h_t, inner=True)
-    cand, owner = [], []
+    outer, gap_out = _row_offsets(h_n, band, h_t, False, h_first)
+    inner, gap_in = _row_offsets(h_n, band, h_t, True, h_first)
+    offsets, gaps = np.concatenate((outer, -inner)), np.concatenate((gap_out, gap_in))
+    cand, owner, spacing = [], [], []
     for i, (a, b) in enumerate(segs):
         d = b - a
         length = float(np.hypot(*d))
@@ -148,28 +170,30 @@ def band_nodes(layout: Layout, h_n: float, h_t: float, band: float) -> np.ndarra
         t = np.arange(1, n_t) / n_t if n_t > 1 else np.array([0.5])
         base = a + t[:, None] * d
         normal = np.array([d[1], -d[0]]) / length  # outward for a counter-clockwise polygon
-        for off in np.concatenate((outer, -inner)):
+        for off, gap in zip(offsets, gaps, strict=True):
             cand.append(base + off * normal)
             owner.append(np.full(t.size, i))
+            spacing.append(np.full(t.size, gap))
     if not cand:
         return np.zeros((0, 2))
-    pts, own = np.concatenate(cand), np.concatenate(owner)
+    pts, own, gap = np.concatenate(cand), np.concatenate(owner), np.concatenate(spacing)
     dist = np.stack([_segment_distance(pts, a, b) for a, b in segs], axis=1)
     mine = dist[np.arange(pts.shape[0]), own]
     others = dist.copy()
     others[np.arange(pts.shape[0]), own] = np.inf
     nearest_other = others.min(axis=1)
-    m = 0.7 * h_n
+    m = 0.7 * gap  # per node: 0.7 of its row's spacing
     keep = (mine <= nearest_other - 1e-9) & (nearest_other >= m)
     keep &= (
         (pts[:, 0] > x0 + m) & (pts[:, 0] < x1 - m) & (pts[:, 1] > y0 + m) & (pts[:, 1] < y1 - m)
     )
-    pts = pts[keep]
-    # drop near-duplicates, first come first kept (deterministic order)
+    pts, m = pts[keep], m[keep]
+    # drop near-duplicates (nearer than 0.7 of the finer row's spacing), first come first kept
+    # (deterministic order)
     tree = cKDTree(pts)
     drop = np.zeros(pts.shape[0], dtype=bool)
-    for i, j in sorted(tree.query_pairs(m)):
-        if not drop[i]:
+    for i, j in sorted(tree.query_pairs(float(m.max()) if m.size else 0.0)):
+        if not drop[i] and np.hypot(*(pts[i] - pts[j])) < min(m[i], m[j]):
             drop[j] = True
     return pts[~drop]
 
@@ -180,6 +204,7 @@ def plane_mesh(
     *,
     edge_normal_m: float | None = None,
     edge_band_m: float | None = None,
+    edge_first_m: float | None = None,
     curves=(),
 ) -> PlaneMesh:
     """Mesh the surface plane with the gate polygons as embedded boundaries (gmsh, this rank).
@@ -192,7 +217,8 @@ def plane_mesh(
     Without ``edge_normal_m`` the mesh is isotropic: ``gate_edge`` at the gate edges, growing to
     ``far``. With it, a band along every gate edge is meshed anisotropically: rows of nodes
     ``edge_normal_m`` apart across the edge and ``gate_edge`` apart along it, out to
-    ``edge_band_m`` on the exposed side and graded under the gate (:func:`band_nodes`, embedded
+    ``edge_band_m`` on the exposed side and graded under the gate, the first row
+    ``edge_first_m`` from the edge (default ``edge_normal_m``) (:func:`band_nodes`, embedded
     in gmsh's Frontal-Delaunay mesh; deterministic, unlike gmsh's anisotropic BAMG algorithm,
     which gave a different mesh on every call). The band holds what a P1 solution resolves
     worst: the square-root singularity of the potential at a gate edge and the kink of the sheet
@@ -230,7 +256,8 @@ def plane_mesh(
     if edge_normal_m is not None:
         h_norm = min(edge_normal_m / refine / NM, h_edge)
         band_nm = (edge_band_m if edge_band_m is not None else 0.0) / NM
-        nodes = band_nodes(layout, h_norm, h_edge, band_nm)
+        h_first = None if edge_first_m is None else edge_first_m / refine / NM
+        nodes = band_nodes(layout, h_norm, h_edge, band_nm, h_first)
         # the gate edges only: the domain boundary carries no singularity, and the embedded
         # curves (strip rows) bring their own nodes
         gate_curves = [
@@ -368,6 +395,7 @@ def build_mesh3d(
     *,
     edge_normal_m: float | None = None,
     edge_band_m: float | None = None,
+    edge_first_m: float | None = None,
 ) -> tuple[Mesh3D, dict]:
     """Build and distribute the 3D mesh.
 
@@ -381,7 +409,7 @@ def build_mesh3d(
         Interior levels that carry frozen line charge (tagged ``levels``).
     comm
         MPI communicator.
-    refine, edge_normal_m, edge_band_m
+    refine, edge_normal_m, edge_band_m, edge_first_m
         Plane-mesh sizes, see :func:`plane_mesh`.
     curves
         Extra closed polylines embedded in the plane mesh (:func:`plane_mesh`).
@@ -415,6 +443,7 @@ def build_mesh3d(
                 refine,
                 edge_normal_m=edge_normal_m,
                 edge_band_m=edge_band_m,
+                edge_first_m=edge_first_m,
                 curves=curves,
             )
         finally:

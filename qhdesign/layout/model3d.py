@@ -173,6 +173,9 @@ class LayoutSolver:
             curves,
             edge_normal_m=normal,
             edge_band_m=band,
+            # the band's first row as far from the gate edge as the first level below the
+            # surface: cells isotropic across the edge's singular line
+            edge_first_m=o.h_surface_m,
         )
         self.timings |= {f"mesh_{k}": v for k, v in tm.items()}
         self.m3 = m3

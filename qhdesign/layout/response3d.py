@@ -72,6 +72,12 @@ ROW_FIRST_M, ROW_GROWTH, ROW_REACH_M = 1e-9, 1.3, 60e-9
 ROW_PASSES, ROW_SETTLE_M = 3, 1e-9
 #: The rows follow the centre line without its wiggles shorter than ROW_SMOOTH row spacings.
 ROW_SMOOTH = 4.0
+#: Optional curvature-adapted sampling of the rows (None: off, rows ``mesh.gate_edge`` apart).
+#: Chords of length h on a curve of curvature kappa move the area-equivalent boundary of the
+#: polygon through them inward by about h^2 kappa/12; with a value (m) the rows are sampled at
+#: most sqrt(12 ROW_CHORD_SHIFT_M / kappa) apart where that is below the row spacing. Measured
+#: on the ring of docs/layout3d.md and not the default: see "Curvature-adapted rows" there.
+ROW_CHORD_SHIFT_M: float | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -275,6 +281,48 @@ def _smooth_closed(poly: np.ndarray, wavelength: float) -> np.ndarray:
     z[np.abs(k) > keep] = 0.0
     out = np.fft.ifft(z)
     return np.column_stack([out.real, out.imag])
+
+
+def _fourier_closed(poly: np.ndarray, wavelength: float):
+    """The closed polyline ``poly`` (anticlockwise, at equal arc length) without its Fourier
+    modes shorter than ``wavelength`` (m), as a function of the parameter t in [0, 1) with its
+    first and second derivatives: (p(t), p'(t), p''(t)), each (len(t), 2)."""
+    p = np.vstack([poly, poly[:1]])
+    perimeter = float(np.sum(np.linalg.norm(np.diff(p, axis=0), axis=1)))
+    n = len(poly)
+    keep = min(int(perimeter // wavelength), (n - 1) // 2)
+    c = np.fft.fft(poly[:, 0] + 1j * poly[:, 1]) / n
+    k = np.arange(-keep, keep + 1)
+    ck = c[k % n]
+
+    def evaluate(t: np.ndarray):
+        e = np.exp(2j * np.pi * np.outer(t, k))
+        w = 2j * np.pi * k
+        out = []
+        for f in (ck, ck * w, ck * w * w):
+            z = e @ f
+            out.append(np.column_stack([z.real, z.imag]))
+        return out
+
+    return evaluate
+
+
+def _sample_closed(poly: np.ndarray, spacing: float, wavelength: float, chord_shift: float):
+    """Nodes along the smoothed closed curve of ``poly`` (:func:`_fourier_closed`): at most
+    ``spacing`` apart, and at most sqrt(12 chord_shift / kappa) apart where its curvature kappa
+    is larger, so the polygon through them encloses the curve's area to within chord_shift per
+    unit length (anticlockwise, shape (N, 2), m)."""
+    curve = _fourier_closed(_resample_closed(poly, 0.25 * spacing), wavelength)
+    t = np.linspace(0.0, 1.0, 4096, endpoint=False)
+    _, d1, d2 = curve(t)
+    speed = np.linalg.norm(d1, axis=1)
+    kappa = np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) / np.maximum(speed, 1e-300) ** 3
+    h = np.minimum(spacing, np.sqrt(12.0 * chord_shift / np.maximum(kappa, 1e-300)))
+    dens = speed / h  # nodes per unit parameter
+    cum = np.concatenate([[0.0], np.cumsum(0.5 * (dens + np.roll(dens, -1)) / t.size)])
+    n = max(16, math.ceil(cum[-1]))
+    tn = np.interp(np.arange(n) * cum[-1] / n, cum, np.append(t, 1.0))
+    return curve(tn)[0]
 
 
 def _offset_closed(poly: np.ndarray, d: float) -> np.ndarray:
@@ -487,7 +535,12 @@ def _strip_rows(geom: StripGeometry, spacing: float, gates, min_gap: float) -> l
     """
     from .mesh3d import points_in_polygon
 
-    base = _smooth_closed(_resample_closed(geom.centre_loops[0], spacing), ROW_SMOOTH * spacing)
+    if ROW_CHORD_SHIFT_M is None:
+        base = _smooth_closed(_resample_closed(geom.centre_loops[0], spacing), ROW_SMOOTH * spacing)
+    else:
+        base = _sample_closed(
+            geom.centre_loops[0], spacing, ROW_SMOOTH * spacing, ROW_CHORD_SHIFT_M
+        )
     d_in = 0.5 * geom.incompressible_width_m
     anchors = (d_in, d_in + geom.width_m)
     floor = -0.5 * math.sqrt(geom.centre_area_m2 / math.pi)

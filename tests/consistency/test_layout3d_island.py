@@ -46,8 +46,8 @@ def ring_layout(gate_edge=GATE_EDGE, far=FAR, n=128):
         inner = np.column_stack([R_GATE * np.cos(th), sign * R_GATE * np.sin(th)])
         r_out = R_GATE + WIDTH
         outer = np.column_stack([r_out * np.cos(th[::-1]), sign * r_out * np.sin(th[::-1])])
-        poly = np.vstack([inner, outer])
-        return poly if sign > 0 else poly[::-1]  # counter-clockwise
+        poly = np.vstack([inner, outer])  # inner arc anticlockwise, outer back: clockwise
+        return poly[::-1] if sign > 0 else poly  # counter-clockwise, as a layout file's
 
     h = R_GATE + WIDTH + MARGIN
     return Layout(

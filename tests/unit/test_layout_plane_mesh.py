@@ -86,3 +86,50 @@ def test_band_mesh_is_deterministic():
     a = _plane('edge_normal = "8 nm"')
     b = _plane('edge_normal = "8 nm"')
     assert np.array_equal(a.xy_m, b.xy_m) and np.array_equal(a.triangles, b.triangles)
+
+
+def _band(vertices_nm, first_nm):
+    from qhdesign.layout.layoutfile import Gate, Layout
+    from qhdesign.layout.mesh3d import band_nodes
+
+    lay = Layout(
+        name="one gate",
+        notes="",
+        source="test",
+        stack_path=ROOT,
+        domain_m=((-600e-9, 600e-9), (-600e-9, 600e-9)),
+        gate_edge_m=60e-9,
+        far_m=200e-9,
+        gates=(Gate("g", np.asarray(vertices_nm, dtype=float) * 1e-9, -1.0),),
+        seed_m=(300e-9, 0.0),
+    )
+    return band_nodes(lay, 8.0, 60.0, 40.0, first_nm)
+
+
+SQUARE_NM = [[-540, -540], [0, -540], [0, 540], [-540, 540]]
+
+
+def test_band_rows_lie_on_the_exposed_side_whatever_the_polygon_orientation():
+    # a layout built in Python may give a gate clockwise; the band must not move under the gate
+    ccw = _band(SQUARE_NM, None)
+    cw = _band(SQUARE_NM[::-1], None)
+    near = lambda p: p[(np.abs(p[:, 1]) < 300) & (np.abs(p[:, 0]) < 100)]  # noqa: E731
+    for p in (near(ccw), near(cw)):
+        exposed = np.sort(np.unique(np.round(p[p[:, 0] > 0, 0], 6)))
+        # 8 nm rows out to the 40 nm band on the exposed side (x > 0), graded ones under the gate
+        assert exposed[:5] == pytest.approx([8.0, 16.0, 24.0, 32.0, 40.0])
+        assert np.count_nonzero(p[:, 0] > 0) > np.count_nonzero(p[:, 0] < 0)
+
+
+def test_band_first_row_grades_from_the_first_size():
+    p = _band(SQUARE_NM, 1.0)
+    p = p[(np.abs(p[:, 1]) < 300) & (np.abs(p[:, 0]) < 100)]
+    rows = np.sort(np.unique(np.round(p[p[:, 0] > 0, 0], 6)))
+    # 1 nm, then spacings growing by 30 % until they reach 8 nm, then 8 nm
+    assert rows[:4] == pytest.approx([1.0, 2.3, 3.99, 6.187])
+    gaps = np.diff(rows)
+    inside = gaps[rows[1:] <= 40.0 + 1e-9]  # out to the 40 nm band: at most 8 nm, ending at 8
+    assert np.all(inside <= 8.0 + 1e-9) and inside[-1] == pytest.approx(8.0)
+    assert np.all(np.diff(gaps[rows[1:] > 40.0 + 1e-9]) > 0)  # then growing towards the far mesh
+    under = np.sort(-np.unique(np.round(p[p[:, 0] < 0, 0], 6)))
+    assert under[:2] == pytest.approx([1.0, 2.3])

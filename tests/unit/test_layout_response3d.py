@@ -115,3 +115,33 @@ def test_conductor_node_rule_is_nearest_node_across_the_boundary(record_check):
         kind="abs",
     )
     assert got.tolist() == [True, True, True, False]
+
+
+def test_curvature_adapted_rows_keep_the_area_of_a_circle():
+    """Analytic (elementary geometry): the polygon through N equally spaced points of a circle of
+    radius R encloses (N/2) R^2 sin(2 pi/N); with the chord rule h^2/(12 R) <= delta, its
+    area-equivalent radius is within delta of R, and a uniform 40 nm sampling is not."""
+    from qhdesign.layout.response3d import _resample_closed, _sample_closed
+
+    R, delta = 250e-9, 0.1e-9
+    th = np.linspace(0.0, 2 * np.pi, 4000, endpoint=False)
+    circle = np.column_stack([R * np.cos(th), R * np.sin(th)])
+
+    def eq_radius(p):
+        x, y = p[:, 0], p[:, 1]
+        return math.sqrt(0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1))) / math.pi)
+
+    fine = _sample_closed(circle, 40e-9, 160e-9, delta)
+    n = len(fine)
+    assert n >= 2 * math.pi * R / math.sqrt(12 * delta * R)
+    assert R - eq_radius(fine) <= delta
+    assert eq_radius(fine) == pytest.approx(
+        R * math.sqrt(n * math.sin(2 * math.pi / n) / (2 * math.pi)), rel=1e-6
+    )
+    coarse = _resample_closed(circle, 40e-9)
+    assert R - eq_radius(coarse) > 4 * delta  # the 0.5 nm shift the rule removes
+    # a straight stretch keeps the row spacing: an elongated ellipse gets both spacings
+    ell = np.column_stack([600e-9 * np.cos(th), 150e-9 * np.sin(th)])
+    s = _sample_closed(ell, 40e-9, 160e-9, delta)
+    d = np.linalg.norm(np.diff(np.vstack([s, s[:1]]), axis=0), axis=1)
+    assert d.max() <= 40e-9 * 1.01 and d.min() < 10e-9
