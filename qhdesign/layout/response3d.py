@@ -76,7 +76,7 @@ ROW_SMOOTH = 4.0
 #: Chords of length h on a curve of curvature kappa move the area-equivalent boundary of the
 #: polygon through them inward by about h^2 kappa/12; with a value (m) the rows are sampled at
 #: most sqrt(12 ROW_CHORD_SHIFT_M / kappa) apart where that is below the row spacing. Measured
-#: on the ring of docs/layout3d.md and not the default: see "Curvature-adapted rows" there.
+#: on the ring of docs/layout3d.md and not the default: see "Resolution study", item 3, there.
 ROW_CHORD_SHIFT_M: float | None = None
 
 
