@@ -12,7 +12,7 @@ BASE_PY := $(shell for p in $(PYTHON_CANDIDATES); do \
     if $$p -c 'import sys; sys.exit(0 if sys.version_info >= (3, 12) else 1)' >/dev/null 2>&1; then \
       command -v $$p 2>/dev/null || echo $$p; break; fi; done)
 
-.PHONY: demo test test-fast bench lint venv clean validation browser
+.PHONY: demo test test-fast test-heavy bench lint venv clean validation browser
 
 $(VENV)/.installed: pyproject.toml
 	@if [ -z "$(BASE_PY)" ]; then \
@@ -56,6 +56,11 @@ test: $(VENV)/.installed
 # The quick tier while iterating: everything but the slow (> ~20 s) and the mpiexec tests.
 test-fast: $(VENV)/.installed
 	$(PY) -m pytest -q -m "not slow and not mpi"
+
+# The heavy tier: resolution studies that take tens of minutes on 2 cores (not run in CI; each
+# test says what it checks and how long it took when measured).
+test-heavy: $(VENV)/.installed
+	$(PY) -m pytest -q --heavy -m heavy
 
 # Regenerate the checked table of docs/validation.md from a run of the reference tests (each
 # records its check, source, tolerance and deviation; scripts/render_validation.py renders them).

@@ -95,6 +95,11 @@ class StackError(InputError):
     """A layer-stack file (or a parameter set on a stack) is invalid."""
 
 
+class MeshError(QHDesignError, RuntimeError):
+    """A generated mesh failed its own check (it does not cover the domain or a gate): the
+    geometry or the mesh settings are to blame, and nothing is solved on it."""
+
+
 class ConvergenceError(QHDesignError, RuntimeError):
     """An iterative solver did not converge.
 

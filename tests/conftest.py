@@ -69,6 +69,12 @@ def pytest_addoption(parser):
         default=None,
         help="write the checks recorded through record_check to this JSON file",
     )
+    parser.addoption(
+        "--heavy",
+        action="store_true",
+        default=False,
+        help="run the heavy tier too (resolution studies of tens of minutes; make test-heavy)",
+    )
 
 
 def _deviation(value, reference, kind: str) -> float:
@@ -165,7 +171,9 @@ def pytest_sessionfinish(session, exitstatus):
 # ---------------------------------------------------------------------------- test tiers
 # ``mpi`` (mpiexec subprocess) is set on the tests themselves; ``slow`` and ``fem`` (needs
 # DOLFINx) are set here for whole modules and listed tests, or by a decorator on single tests.
-# ``make test-fast`` runs ``-m "not slow and not mpi"``; ``make test`` (and CI) runs everything.
+# ``make test-fast`` runs ``-m "not slow and not mpi"``; ``make test`` (and CI) runs everything
+# but the ``heavy`` tier (resolution studies of tens of minutes, set on the tests themselves),
+# which is skipped with its reason unless ``--heavy`` is given (``make test-heavy``).
 # Where DOLFINx is not installed the FEM tests are skipped, with the reason shown.
 FEM_MODULES = (
     "test_sheet_laws_far_field.py",
@@ -266,7 +274,11 @@ def pytest_collection_modifyitems(config, items):
         # CI runs every tier: a missing DOLFINx there is an install failure, never a skip
         raise pytest.UsageError("DOLFINx is not importable, but CI must run the FEM tests")
     skip = pytest.mark.skip(reason="needs DOLFINx, which is not installed (FEM test)")
+    heavy = pytest.mark.skip(reason="heavy tier (tens of minutes): make test-heavy runs it")
+    run_heavy = config.getoption("--heavy")
     for item in items:
+        if item.get_closest_marker("heavy") is not None and not run_heavy:
+            item.add_marker(heavy)
         if item.path.name in FEM_MODULES:
             item.add_marker(pytest.mark.fem)
         if item.path.name in SLOW_MODULES or _node(item) in SLOW_TESTS:

@@ -44,7 +44,7 @@ MAX_VERTICES = 2000
 
 _TOP = ("layout", "mesh", "gates", "island", "constrictions")
 _LAYOUT_KEYS = ("name", "notes", "stack", "domain_x", "domain_y")
-_MESH_KEYS = ("gate_edge", "far", "edge_normal", "edge_band")
+_MESH_KEYS = ("gate_edge", "far", "edge_normal", "edge_band", "sheet_level", "strip_chord")
 _GATE_KEYS = ("name", "vertices", "voltage", "dielectric_thickness", "dielectric_permittivity")
 #: Allowed gate dielectric (as the stack file's surface.dielectric_*): thickness in m, relative
 #: permittivity.
@@ -132,6 +132,12 @@ class Layout:
     edge_normal_m, edge_band_m
         Optional anisotropic band along the gate edges: element size across the edges and the
         band's half width (m); None: an isotropic mesh (band: the primary well's depth).
+    sheet_level_m
+        Level spacing at every well sheet (m); None: the 3D stage's default (3 nm).
+    strip_chord_m
+        Curvature-adapted node rows along the island's strip: the largest inward shift (m) of the
+        area-equivalent boundary that the chords between row nodes may cause; None: rows
+        ``gate_edge`` apart (docs/layout3d.md).
     gates
         All gates (drawn and generated).
     constrictions
@@ -155,6 +161,8 @@ class Layout:
     island: IslandSpec | None = None
     edge_normal_m: float | None = None
     edge_band_m: float | None = None
+    sheet_level_m: float | None = None
+    strip_chord_m: float | None = None
 
     def gate(self, name: str) -> Gate:
         for g in self.gates:
@@ -190,6 +198,8 @@ class Layout:
             "far_m": self.far_m,
             "edge_normal_m": self.edge_normal_m,
             "edge_band_m": self.edge_band_m,
+            "sheet_level_m": self.sheet_level_m,
+            "strip_chord_m": self.strip_chord_m,
             "gates": [
                 {
                     "name": g.name,
@@ -432,6 +442,15 @@ def _build(raw: dict, src: str, base: Path, stack) -> Layout:
             raise _err(
                 f"{edge_band * 1e9:g} nm; allowed mesh.edge_normal to 2 um", src, "mesh.edge_band"
             )
+    sheet_level = strip_chord = None
+    if "sheet_level" in mesh:
+        sheet_level = _qty(mesh, "sheet_level", "length", "mesh", src)
+        if not 0.5e-9 <= sheet_level <= 10e-9:
+            raise _err(f"{sheet_level * 1e9:g} nm; allowed 0.5 nm to 10 nm", src, "mesh.sheet_level")
+    if "strip_chord" in mesh:
+        strip_chord = _qty(mesh, "strip_chord", "length", "mesh", src)
+        if not 0.01e-9 <= strip_chord <= 5e-9:
+            raise _err(f"{strip_chord * 1e9:g} nm; allowed 0.01 nm to 5 nm", src, "mesh.strip_chord")
     if size / gate_edge > 20_000:
         raise _err(
             f"{size / gate_edge:.0f} gate-edge elements across the domain; allowed up to 20000",
@@ -523,6 +542,8 @@ def _build(raw: dict, src: str, base: Path, stack) -> Layout:
         far_m=far,
         edge_normal_m=edge_normal,
         edge_band_m=edge_band,
+        sheet_level_m=sheet_level,
+        strip_chord_m=strip_chord,
         gates=tuple(gates),
         constrictions=tuple(constrictions),
         seed_m=seed,

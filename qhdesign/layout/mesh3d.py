@@ -33,6 +33,15 @@ from .layoutfile import Layout
 __all__ = ["TAGS3", "PlaneMesh", "build_mesh3d", "plane_mesh", "points_in_polygon"]
 
 NM = 1e-9
+#: A polygon vertex turning by at most this much (rad) is a point of a drawn curve: the band's
+#: rows run through it along the bisector; a sharper corner interrupts them.
+MILD_TURN_RAD = np.deg2rad(20.0)
+
+
+def edge_parts(length: float, h: float) -> int:
+    """Equal parts of a gate edge of this length at spacing at most h (same units): its mesh
+    curve's nodes and the band rows' nodes across from them (:func:`band_nodes`)."""
+    return max(int(np.ceil(length / h - 1e-9)), 1)
 
 #: Facet tags: gate i is ``gate0 + i``, sheet i is ``sheet0 + i``.
 TAGS3 = {"exposed": 2, "bottom": 3, "sides": 4, "levels": 5, "sheet0": 100, "gate0": 1000}
@@ -134,6 +143,47 @@ def _segment_distance(p: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray
     return np.linalg.norm(p - (a + t[:, None] * d), axis=1)
 
 
+def _metal_edges(layout: Layout) -> tuple[list, list[int], list[float], list]:
+    """The edges of the gate metal (nm): the sides of the counter-clockwise gate polygons less
+    the joints where two gates touch (a side whose reverse is another gate's side lies inside
+    the metal). For each side, the side before it along the metal's outline (-1 where that is not
+    unique: gates touching at a point) and the turn (rad, left positive) from it; and the joints
+    (each once)."""
+    from collections import defaultdict
+
+    segs = []
+    for g in layout.gates:
+        v = np.asarray(g.vertices_m, dtype=float) / NM
+        # counter-clockwise, so the normals point out of the gate (a layout file's gates are
+        # turned so when loaded; a layout built in Python may not be)
+        if np.dot(v[:, 0], np.roll(v[:, 1], -1)) - np.dot(v[:, 1], np.roll(v[:, 0], -1)) < 0:
+            v = v[::-1]
+        segs += [(v[k], v[(k + 1) % len(v)]) for k in range(len(v))]
+
+    def key(p):  # a vertex to 1e-6 nm (-0.0 and 0.0 are one key)
+        return tuple(np.round(p, 6) + 0.0)
+
+    sides = {(key(a), key(b)) for a, b in segs}
+    joints = [(a, b) for a, b in segs if (key(b), key(a)) in sides and key(a) < key(b)]
+    segs = [(a, b) for a, b in segs if (key(b), key(a)) not in sides]
+    ending, starting = defaultdict(list), defaultdict(list)
+    for i, (a, b) in enumerate(segs):
+        ending[key(b)].append(i)
+        starting[key(a)].append(i)
+    prev_of, turn_at = [], []
+    for i, (a, b) in enumerate(segs):
+        before = ending[key(a)]
+        if len(before) != 1 or len(starting[key(a)]) != 1:
+            prev_of.append(-1)
+            turn_at.append(np.pi)
+            continue
+        pa, pb = segs[before[0]]
+        d0, d1 = pb - pa, b - a
+        prev_of.append(before[0])
+        turn_at.append(float(np.arctan2(d0[0] * d1[1] - d0[1] * d1[0], float(d0 @ d1))))
+    return segs, prev_of, turn_at, joints
+
+
 def band_nodes(
     layout: Layout, h_n: float, h_t: float, band: float, h_first: float | None = None
 ) -> np.ndarray:
@@ -142,46 +192,74 @@ def band_nodes(
     Rows parallel to every gate edge, ``h_n`` apart across it and ``h_t`` along it (the edge
     is split into equal parts of at most ``h_t``, as its mesh curve is): from ``h_first`` at the
     edge graded up to ``h_n`` (:func:`_row_offsets`), out to ``band`` on the exposed side, a few
-    graded rows under the gate. A node is kept only where its own edge is the nearest gate edge
-    (no clashes at corners or between neighbouring gates), at least 0.7 row spacings from every
-    other edge and node, and inside the domain. Pure numpy and deterministic: the Delaunay
-    mesher then joins these rows into thin triangles along the edge.
+    graded rows under the gate. The edges are those of the metal (:func:`_metal_edges`: where two
+    gates touch, the joint is no edge). Each row node lies straight across from a node of the
+    edge's mesh curve, and where the outline turns mildly (at most ``MILD_TURN_RAD``: a drawn
+    curve), the vertex has its row nodes too, on the bisector at the miter distance: the rows
+    are offset copies of the curve and the cells between the edge and the first row are right
+    triangles. (Rows from the side midpoints alone, as before 2026-12-03, were staggered against
+    the vertices of a curve drawn with sides shorter than ``h_t``: the cells at the edge had
+    angles near 170 degrees, and on the ring of tests/consistency/test_layout3d_island.py the
+    island's density edge sat 2 nm inside the axisymmetric one; docs/layout3d.md.) A node is kept
+    only where its own edge is the nearest gate edge (no clashes at corners or between
+    neighbouring gates), at least 0.7 row spacings from every other edge and node, and inside the
+    domain. Pure numpy and deterministic: the Delaunay mesher then joins these rows into thin
+    triangles along the edge.
     """
     from scipy.spatial import cKDTree
 
-    segs = []
-    for g in layout.gates:
-        v = np.asarray(g.vertices_m, dtype=float) / NM
-        # counter-clockwise, so the normals below point out of the gate (a layout file's gates
-        # are turned so when loaded; a layout built in Python may not be)
-        if np.dot(v[:, 0], np.roll(v[:, 1], -1)) - np.dot(v[:, 1], np.roll(v[:, 0], -1)) < 0:
-            v = v[::-1]
-        for k in range(len(v)):
-            segs.append((v[k], v[(k + 1) % len(v)]))
+    segs, prev_of, turn_at, joints = _metal_edges(layout)
+    next_of = {p: i for i, p in enumerate(prev_of) if p >= 0}
     (x0, x1), (y0, y1) = ((a / NM, b / NM) for a, b in layout.domain_m)
     outer, gap_out = _row_offsets(h_n, band, h_t, False, h_first)
     inner, gap_in = _row_offsets(h_n, band, h_t, True, h_first)
     offsets, gaps = np.concatenate((outer, -inner)), np.concatenate((gap_out, gap_in))
-    cand, owner, spacing = [], [], []
+    cand, owner, owner2, spacing = [], [], [], []
     for i, (a, b) in enumerate(segs):
         d = b - a
         length = float(np.hypot(*d))
-        n_t = max(int(np.ceil(length / h_t - 1e-9)), 1)
-        t = np.arange(1, n_t) / n_t if n_t > 1 else np.array([0.5])
-        base = a + t[:, None] * d
         normal = np.array([d[1], -d[0]]) / length  # outward for a counter-clockwise polygon
+        n_t = edge_parts(length, h_t)
+        prev, turn = prev_of[i], turn_at[i]
+        turn_end = turn_at[next_of[i]] if i in next_of else np.pi
+        mild = abs(turn) <= MILD_TURN_RAD
+        # the row nodes lie across the edge from the edge's own mesh nodes (its n_t equal parts):
+        # the interior division points and, where the polygon turns mildly (a drawn curve), its
+        # first vertex, offset along the bisector so that the rows stay parallel to the curve.
+        # A sharp corner's vertex gets none (the rows of its two sides would clash); a side of
+        # one part between two sharp corners gets its midpoint.
+        t = np.arange(1, n_t) / n_t
+        if n_t == 1 and not mild and abs(turn_end) > MILD_TURN_RAD:
+            t = np.array([0.5])
+        base = a + t[:, None] * d
         for off, gap in zip(offsets, gaps, strict=True):
             cand.append(base + off * normal)
             owner.append(np.full(t.size, i))
+            owner2.append(np.full(t.size, i))
             spacing.append(np.full(t.size, gap))
+        if mild:
+            pa, pb = segs[prev]
+            dp = pb - pa
+            n_prev = np.array([dp[1], -dp[0]]) / float(np.hypot(*dp))
+            bis = (n_prev + normal) / np.cos(0.5 * turn) / float(np.hypot(*(n_prev + normal)))
+            for off, gap in zip(offsets, gaps, strict=True):
+                cand.append((a + off * bis)[None, :])
+                owner.append(np.array([i]))
+                owner2.append(np.array([prev]))
+                spacing.append(np.array([gap]))
     if not cand:
         return np.zeros((0, 2))
     pts, own, gap = np.concatenate(cand), np.concatenate(owner), np.concatenate(spacing)
+    own2 = np.concatenate(owner2)
     dist = np.stack([_segment_distance(pts, a, b) for a, b in segs], axis=1)
-    mine = dist[np.arange(pts.shape[0]), own]
+    rows = np.arange(pts.shape[0])
+    mine = np.minimum(dist[rows, own], dist[rows, own2])
     others = dist.copy()
-    others[np.arange(pts.shape[0]), own] = np.inf
+    others[rows, own] = np.inf
+    others[rows, own2] = np.inf
     nearest_other = others.min(axis=1)
+    for a, b in joints:  # no node on or beside a joint (a mesh edge between two gates)
+        nearest_other = np.minimum(nearest_other, _segment_distance(pts, a, b))
     m = 0.7 * gap  # per node: 0.7 of its row's spacing
     keep = (mine <= nearest_other - 1e-9) & (nearest_other >= m)
     keep &= (
@@ -268,7 +346,7 @@ def plane_mesh(
         # the gate edges split into equal parts of at most gate_edge, as the rows are
         for c in gate_curves:
             length = gmsh.model.occ.getMass(1, c)
-            gmsh.model.mesh.setTransfiniteCurve(c, max(int(np.ceil(length / h_edge - 1e-9)), 1) + 1)
+            gmsh.model.mesh.setTransfiniteCurve(c, edge_parts(length, h_edge) + 1)
         # each node into the surface that holds it (the exposed part, or a gate for the
         # graded rows under it)
         placed = np.zeros(nodes.shape[0], dtype=bool)
@@ -352,7 +430,29 @@ def plane_mesh(
     gate = np.full(tri.shape[0], -1, dtype=np.int64)
     for i, g in enumerate(layout.gates):
         gate[points_in_polygon(cen, g.vertices_m)] = i
+    _check_cover(layout, np.abs(area2) * 0.5, gate)
     return PlaneMesh(xy_m=xy, triangles=tri, gate_of_triangle=gate)
+
+
+def _check_cover(layout: Layout, area_m2: np.ndarray, gate: np.ndarray) -> None:
+    """The triangles tile the domain and every gate (relative 1e-9 in area), or MeshError.
+
+    gmsh can drop a surface silently (a node embedded on another surface's boundary did, in a
+    band under development): a solve on such a mesh would look like a result and be wrong."""
+    from qhdesign.errors import MeshError
+
+    (x0, x1), (y0, y1) = layout.domain_m
+    want = [("the domain", (x1 - x0) * (y1 - y0), float(area_m2.sum()))]
+    for i, g in enumerate(layout.gates):
+        v = np.asarray(g.vertices_m, dtype=float)
+        poly = 0.5 * abs(np.dot(v[:, 0], np.roll(v[:, 1], -1)) - np.dot(v[:, 1], np.roll(v[:, 0], -1)))
+        want.append((f"gate '{g.name}'", poly, float(area_m2[gate == i].sum())))
+    for what, exact, got in want:
+        if abs(got - exact) > 1e-9 * exact:
+            raise MeshError(
+                f"the plane mesh covers {got / exact:.6f} of {what}'s area (gmsh lost part of "
+                "the geometry; try another mesh.gate_edge or mesh.edge_normal)"
+            )
 
 
 def _prism_tets(tri: np.ndarray, k: int, n_plane: int) -> np.ndarray:

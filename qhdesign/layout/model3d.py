@@ -40,6 +40,10 @@ from .mesh3d import NM, TAGS3, build_mesh3d
 __all__ = ["Layout3DOptions", "LayoutSolver"]
 
 
+#: Level spacing at the sheets without a setting (m).
+DEFAULT_SHEET_LEVEL_M = 3e-9
+
+
 @dataclass(frozen=True)
 class Layout3DOptions:
     """Resolution and solver settings of the 3D model (SI lengths).
@@ -47,7 +51,8 @@ class Layout3DOptions:
     Attributes
     ----------
     h_surface_m, h_sheet_m
-        Level spacing at the surface and at every sheet (m).
+        Level spacing at the surface and at every sheet (m); ``h_sheet_m`` None: the layout's
+        ``mesh.sheet_level``, else 3 nm.
     growth
         Linear growth of the level spacing away from them.
     h_max_z_m
@@ -61,18 +66,23 @@ class Layout3DOptions:
         without a width is the primary sheet's depth.
     exposed
         ``"frozen"``, ``"pinned"`` or None (the stack's surface.charge).
+    strip_chord_m
+        Curvature-adapted strip rows of the island response (m,
+        :func:`qhdesign.layout.response3d.island_response`); None: the layout's
+        ``mesh.strip_chord``, else rows ``mesh.gate_edge`` apart.
     rtol
         SNES relative tolerance; linear solves use ``ksp_rtol``.
     """
 
     h_surface_m: float = 1e-9
-    h_sheet_m: float = 3e-9
+    h_sheet_m: float | None = None
     growth: float = 0.35
     h_max_z_m: float = 80e-9
     refine: float = 1.0
     edge_normal_m: float | None = None
     edge_band_m: float | None = None
     exposed: str | None = None
+    strip_chord_m: float | None = None
     rtol: float = 1e-11
     atol: float = 1e-13
     ksp_rtol: float = 1e-12
@@ -132,6 +142,11 @@ class LayoutSolver:
         self.options = options or Layout3DOptions()
         if self.options.exposed is None:
             self.options = replace(self.options, exposed=section.surface_mode)
+        if self.options.h_sheet_m is None:
+            h = layout.sheet_level_m if layout.sheet_level_m is not None else DEFAULT_SHEET_LEVEL_M
+            self.options = replace(self.options, h_sheet_m=h)
+        if self.options.strip_chord_m is None and layout.strip_chord_m is not None:
+            self.options = replace(self.options, strip_chord_m=layout.strip_chord_m)
         if self.options.exposed not in ("frozen", "pinned"):
             raise InputError("exposed surface must be 'frozen' or 'pinned'", key="exposed")
         self.comm = comm if comm is not None else MPI.COMM_WORLD

@@ -72,12 +72,12 @@ ROW_FIRST_M, ROW_GROWTH, ROW_REACH_M = 1e-9, 1.3, 60e-9
 ROW_PASSES, ROW_SETTLE_M = 3, 1e-9
 #: The rows follow the centre line without its wiggles shorter than ROW_SMOOTH row spacings.
 ROW_SMOOTH = 4.0
-#: Optional curvature-adapted sampling of the rows (None: off, rows ``mesh.gate_edge`` apart).
-#: Chords of length h on a curve of curvature kappa move the area-equivalent boundary of the
-#: polygon through them inward by about h^2 kappa/12; with a value (m) the rows are sampled at
-#: most sqrt(12 ROW_CHORD_SHIFT_M / kappa) apart where that is below the row spacing. Measured
-#: on the ring of docs/layout3d.md and not the default: see "Resolution study", item 3, there.
-ROW_CHORD_SHIFT_M: float | None = None
+#: Curvature-adapted sampling of the rows is optional (``Layout3DOptions.strip_chord_m``, the
+#: layout's ``mesh.strip_chord``; None: rows ``mesh.gate_edge`` apart). Chords of length h on a
+#: curve of curvature kappa move the area-equivalent boundary of the polygon through them inward
+#: by about h^2 kappa/12; with a value (m) the rows are sampled at most
+#: sqrt(12 strip_chord / kappa) apart where that is below the row spacing. Measured on the ring of
+#: docs/layout3d.md ("Resolution study"), not the default.
 
 
 @dataclass(frozen=True, eq=False)
@@ -525,7 +525,9 @@ def _row_offsets() -> list[float]:
     return out
 
 
-def _strip_rows(geom: StripGeometry, spacing: float, gates, min_gap: float) -> list[np.ndarray]:
+def _strip_rows(
+    geom: StripGeometry, spacing: float, gates, min_gap: float, chord_shift: float | None = None
+) -> list[np.ndarray]:
     """Closed node rows parallel to the strip's inner boundary and electronic edge (m).
 
     Rows are offsets of the centre line (resampled ``spacing`` apart): graded offsets around the
@@ -535,12 +537,10 @@ def _strip_rows(geom: StripGeometry, spacing: float, gates, min_gap: float) -> l
     """
     from .mesh3d import points_in_polygon
 
-    if ROW_CHORD_SHIFT_M is None:
+    if chord_shift is None:
         base = _smooth_closed(_resample_closed(geom.centre_loops[0], spacing), ROW_SMOOTH * spacing)
     else:
-        base = _sample_closed(
-            geom.centre_loops[0], spacing, ROW_SMOOTH * spacing, ROW_CHORD_SHIFT_M
-        )
+        base = _sample_closed(geom.centre_loops[0], spacing, ROW_SMOOTH * spacing, chord_shift)
     d_in = 0.5 * geom.incompressible_width_m
     anchors = (d_in, d_in + geom.width_m)
     floor = -0.5 * math.sqrt(geom.centre_area_m2 / math.pi)
@@ -787,7 +787,9 @@ def island_response(
         for _ in range(ROW_PASSES):
             # rows around the strip as the last solve found it; again from the rows' own solve
             # until the strip's boundaries stay within ROW_SETTLE_M of the rows' anchors
-            rows = _strip_rows(geom, spacing, layout.gates, 0.5 * spacing)
+            rows = _strip_rows(
+                geom, spacing, layout.gates, 0.5 * spacing, solver.options.strip_chord_m
+            )
             work = LayoutSolver(sec, layout, solver.options, comm=solver.comm, curves=rows)
             work.solve()
             anchor = geom

@@ -216,6 +216,16 @@ SQUARE = [(-100, -100), (100, -100), (100, 100), (-100, 100)]
             "allowed mesh.edge_normal to 2 um",
         ),
         (
+            HEAD + 'sheet_level = "20 nm"\n' + _gate("a", SQUARE),
+            "mesh.sheet_level",
+            "allowed 0.5 nm to 10 nm",
+        ),
+        (
+            HEAD + 'strip_chord = "0 nm"\n' + _gate("a", SQUARE),
+            "mesh.strip_chord",
+            "allowed 0.01 nm to 5 nm",
+        ),
+        (
             HEAD.replace('["-2 um", "2 um"]\ndomain_y', '["2 um", "-2 um"]\ndomain_y'),
             "layout.domain_x",
             "maximum",
@@ -238,6 +248,14 @@ def test_edge_band_keys():
     assert lay.edge_band_m == pytest.approx(120e-9)
     plain = _load(HEAD + _gate("a", SQUARE))
     assert plain.edge_normal_m is None and plain.edge_band_m is None
+    assert plain.sheet_level_m is None and plain.strip_chord_m is None
+
+
+def test_sheet_level_and_strip_chord_keys():
+    lay = _load(HEAD + 'sheet_level = "1.5 nm"\nstrip_chord = "0.1 nm"\n' + _gate("a", SQUARE))
+    assert lay.sheet_level_m == pytest.approx(1.5e-9)
+    assert lay.strip_chord_m == pytest.approx(0.1e-9)
+    assert lay.to_dict()["sheet_level_m"] == pytest.approx(1.5e-9)
 
 
 def test_load_layout_missing_file(tmp_path):

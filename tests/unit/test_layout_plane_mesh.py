@@ -133,3 +133,74 @@ def test_band_first_row_grades_from_the_first_size():
     assert np.all(np.diff(gaps[rows[1:] > 40.0 + 1e-9]) > 0)  # then growing towards the far mesh
     under = np.sort(-np.unique(np.round(p[p[:, 0] < 0, 0], 6)))
     assert under[:2] == pytest.approx([1.0, 2.3])
+
+
+def _ring(n=128, r_in=400e-9, r_out=700e-9):
+    """A ring gate as two half-annuli that touch along the x axis (as in the island test)."""
+    from pathlib import Path
+
+    from qhdesign.layout.layoutfile import Gate, Layout
+
+    def half(sign):
+        th = np.linspace(0.0, np.pi, n // 2 + 1)
+        inner = np.column_stack([r_in * np.cos(th), sign * r_in * np.sin(th)])
+        outer = np.column_stack([r_out * np.cos(th[::-1]), sign * r_out * np.sin(th[::-1])])
+        poly = np.vstack([inner, outer])
+        return poly[::-1] if sign > 0 else poly
+
+    return Layout(
+        name="ring",
+        notes="",
+        source="test",
+        stack_path=Path("."),
+        domain_m=((-1e-6, 1e-6), (-1e-6, 1e-6)),
+        gate_edge_m=20e-9,
+        far_m=200e-9,
+        gates=(Gate("up", half(1.0), -1.0), Gate("down", half(-1.0), -1.0)),
+        seed_m=(0.0, 0.0),
+    )
+
+
+def test_touching_gates_have_no_edge_at_their_joint_and_the_ring_outline_is_smooth():
+    from qhdesign.layout.mesh3d import MILD_TURN_RAD, _metal_edges
+
+    segs, prev_of, turn, joints = _metal_edges(_ring(n=128))
+    assert len(joints) == 2
+    # 2 x 64 arc sides inside and outside; the two 300 nm joints on the x axis are gone
+    assert len(segs) == 256
+    sides = sorted(float(np.hypot(*(b - a))) for a, b in segs)
+    assert sides[0] == pytest.approx(19.63, abs=0.01) and sides[127] == pytest.approx(19.63, abs=0.01)
+    assert sides[128] == pytest.approx(34.36, abs=0.01)  # 2 pi 400 nm / 128, 2 pi 700 nm / 128
+    # every vertex continues a circle: a turn of 2 pi / 128 (left on the outer circle, right on
+    # the island's, seen with the metal on the left)
+    assert min(prev_of) >= 0
+    assert np.allclose(np.abs(turn), 2 * np.pi / 128, rtol=1e-9)
+    assert max(np.abs(turn)) < MILD_TURN_RAD
+
+
+def test_band_cells_at_a_curved_edge_are_not_obtuse():
+    # analytic: the P1 gradient error of a triangle grows without bound as its largest angle
+    # nears 180 degrees (the maximum angle condition: I. Babuska and A. K. Aziz, SIAM J. Numer.
+    # Anal. 13, 214 (1976)). Rows from the side midpoints alone, across from the vertices of a
+    # polygon whose sides (19.6 nm) are within one gate_edge (20 nm), gave 168 degrees at the edge.
+    import gmsh
+
+    from qhdesign.layout.mesh3d import plane_mesh
+
+    gmsh.initialize(interruptible=False)
+    gmsh.option.setNumber("General.Terminal", 0)
+    try:
+        pm = plane_mesh(_ring(), edge_normal_m=6e-9, edge_band_m=140e-9, edge_first_m=1e-9)
+    finally:
+        gmsh.finalize()
+    p = pm.xy_m[pm.triangles] * 1e9
+    r = np.hypot(*p.mean(axis=1).T)
+    angles = []
+    for k in range(3):
+        u, v = p[:, (k + 1) % 3] - p[:, k], p[:, (k + 2) % 3] - p[:, k]
+        cos = np.einsum("ij,ij->i", u, v) / np.linalg.norm(u, axis=1) / np.linalg.norm(v, axis=1)
+        angles.append(np.degrees(np.arccos(np.clip(cos, -1.0, 1.0))))
+    largest = np.max(angles, axis=0)
+    island_side = (r > 260.0) & (r < 400.0)  # the band on the island side (measured: at most 91.4)
+    assert island_side.sum() > 5000
+    assert largest[island_side].max() < 100.0
