@@ -446,11 +446,15 @@ def _build(raw: dict, src: str, base: Path, stack) -> Layout:
     if "sheet_level" in mesh:
         sheet_level = _qty(mesh, "sheet_level", "length", "mesh", src)
         if not 0.5e-9 <= sheet_level <= 10e-9:
-            raise _err(f"{sheet_level * 1e9:g} nm; allowed 0.5 nm to 10 nm", src, "mesh.sheet_level")
+            raise _err(
+                f"{sheet_level * 1e9:g} nm; allowed 0.5 nm to 10 nm", src, "mesh.sheet_level"
+            )
     if "strip_chord" in mesh:
         strip_chord = _qty(mesh, "strip_chord", "length", "mesh", src)
         if not 0.01e-9 <= strip_chord <= 5e-9:
-            raise _err(f"{strip_chord * 1e9:g} nm; allowed 0.01 nm to 5 nm", src, "mesh.strip_chord")
+            raise _err(
+                f"{strip_chord * 1e9:g} nm; allowed 0.01 nm to 5 nm", src, "mesh.strip_chord"
+            )
     if size / gate_edge > 20_000:
         raise _err(
             f"{size / gate_edge:.0f} gate-edge elements across the domain; allowed up to 20000",

@@ -43,6 +43,7 @@ def edge_parts(length: float, h: float) -> int:
     curve's nodes and the band rows' nodes across from them (:func:`band_nodes`)."""
     return max(int(np.ceil(length / h - 1e-9)), 1)
 
+
 #: Facet tags: gate i is ``gate0 + i``, sheet i is ``sheet0 + i``.
 TAGS3 = {"exposed": 2, "bottom": 3, "sides": 4, "levels": 5, "sheet0": 100, "gate0": 1000}
 
@@ -171,7 +172,7 @@ def _metal_edges(layout: Layout) -> tuple[list, list[int], list[float], list]:
         ending[key(b)].append(i)
         starting[key(a)].append(i)
     prev_of, turn_at = [], []
-    for i, (a, b) in enumerate(segs):
+    for a, b in segs:
         before = ending[key(a)]
         if len(before) != 1 or len(starting[key(a)]) != 1:
             prev_of.append(-1)
@@ -445,7 +446,9 @@ def _check_cover(layout: Layout, area_m2: np.ndarray, gate: np.ndarray) -> None:
     want = [("the domain", (x1 - x0) * (y1 - y0), float(area_m2.sum()))]
     for i, g in enumerate(layout.gates):
         v = np.asarray(g.vertices_m, dtype=float)
-        poly = 0.5 * abs(np.dot(v[:, 0], np.roll(v[:, 1], -1)) - np.dot(v[:, 1], np.roll(v[:, 0], -1)))
+        poly = 0.5 * abs(
+            np.dot(v[:, 0], np.roll(v[:, 1], -1)) - np.dot(v[:, 1], np.roll(v[:, 0], -1))
+        )
         want.append((f"gate '{g.name}'", poly, float(area_m2[gate == i].sum())))
     for what, exact, got in want:
         if abs(got - exact) > 1e-9 * exact:

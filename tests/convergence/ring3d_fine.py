@@ -28,6 +28,7 @@ FINE = {
 
 def main(out: Path) -> None:
     from mpi4py import MPI
+    from test_layout3d_island import ring_layout
 
     from qhdesign.io import atomic_write_text
     from qhdesign.island.stage import OperatingSettings
@@ -35,7 +36,6 @@ def main(out: Path) -> None:
     from qhdesign.layout.response3d import island_response
     from qhdesign.pipeline import section_from_stack
     from qhdesign.stack import load_stack
-    from test_layout3d_island import ring_layout
 
     t0 = time.perf_counter()
     root = HERE.parent.parent

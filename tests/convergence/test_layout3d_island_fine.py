@@ -50,7 +50,14 @@ def both(tmp_path_factory):
     out = tmp_path_factory.mktemp("ring3d") / "ring3d.json"
     bindir = Path(sys.executable).parent
     subprocess.run(
-        [str(bindir / "mpiexec"), "-n", "2", sys.executable, str(HERE / "ring3d_fine.py"), str(out)],
+        [
+            str(bindir / "mpiexec"),
+            "-n",
+            "2",
+            sys.executable,
+            str(HERE / "ring3d_fine.py"),
+            str(out),
+        ],
         check=True,
         cwd=ROOT,
     )

@@ -169,7 +169,9 @@ def test_touching_gates_have_no_edge_at_their_joint_and_the_ring_outline_is_smoo
     # 2 x 64 arc sides inside and outside; the two 300 nm joints on the x axis are gone
     assert len(segs) == 256
     sides = sorted(float(np.hypot(*(b - a))) for a, b in segs)
-    assert sides[0] == pytest.approx(19.63, abs=0.01) and sides[127] == pytest.approx(19.63, abs=0.01)
+    assert sides[0] == pytest.approx(19.63, abs=0.01) and sides[127] == pytest.approx(
+        19.63, abs=0.01
+    )
     assert sides[128] == pytest.approx(34.36, abs=0.01)  # 2 pi 400 nm / 128, 2 pi 700 nm / 128
     # every vertex continues a circle: a turn of 2 pi / 128 (left on the outer circle, right on
     # the island's, seen with the metal on the left)
