@@ -29,6 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .layoutfile import Layout
+from .polygons import polygon_area
 
 __all__ = ["TAGS3", "PlaneMesh", "build_mesh3d", "plane_mesh", "points_in_polygon"]
 
@@ -157,7 +158,7 @@ def _metal_edges(layout: Layout) -> tuple[list, list[int], list[float], list]:
         v = np.asarray(g.vertices_m, dtype=float) / NM
         # counter-clockwise, so the normals point out of the gate (a layout file's gates are
         # turned so when loaded; a layout built in Python may not be)
-        if np.dot(v[:, 0], np.roll(v[:, 1], -1)) - np.dot(v[:, 1], np.roll(v[:, 0], -1)) < 0:
+        if polygon_area(v) < 0:
             v = v[::-1]
         segs += [(v[k], v[(k + 1) % len(v)]) for k in range(len(v))]
 
@@ -445,10 +446,7 @@ def _check_cover(layout: Layout, area_m2: np.ndarray, gate: np.ndarray) -> None:
     (x0, x1), (y0, y1) = layout.domain_m
     want = [("the domain", (x1 - x0) * (y1 - y0), float(area_m2.sum()))]
     for i, g in enumerate(layout.gates):
-        v = np.asarray(g.vertices_m, dtype=float)
-        poly = 0.5 * abs(
-            np.dot(v[:, 0], np.roll(v[:, 1], -1)) - np.dot(v[:, 1], np.roll(v[:, 0], -1))
-        )
+        poly = abs(polygon_area(np.asarray(g.vertices_m, dtype=float)))
         want.append((f"gate '{g.name}'", poly, float(area_m2[gate == i].sum())))
     for what, exact, got in want:
         if abs(got - exact) > 1e-9 * exact:
