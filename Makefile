@@ -57,7 +57,7 @@ test: $(VENV)/.installed
 test-fast: $(VENV)/.installed
 	$(PY) -m pytest -q -m "not slow and not mpi"
 
-# The heavy tier: resolution studies that take tens of minutes on 2 cores (not run in CI; each
+# The heavy tier: resolution studies that take minutes to tens of minutes on 2 cores (not run in CI; each
 # test says what it checks and how long it took when measured).
 test-heavy: $(VENV)/.installed
 	$(PY) -m pytest -q --heavy -m heavy

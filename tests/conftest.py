@@ -73,7 +73,7 @@ def pytest_addoption(parser):
         "--heavy",
         action="store_true",
         default=False,
-        help="run the heavy tier too (resolution studies of tens of minutes; make test-heavy)",
+        help="run the heavy tier too (resolution studies of minutes to tens of minutes)",
     )
 
 
@@ -274,7 +274,9 @@ def pytest_collection_modifyitems(config, items):
         # CI runs every tier: a missing DOLFINx there is an install failure, never a skip
         raise pytest.UsageError("DOLFINx is not importable, but CI must run the FEM tests")
     skip = pytest.mark.skip(reason="needs DOLFINx, which is not installed (FEM test)")
-    heavy = pytest.mark.skip(reason="heavy tier (tens of minutes): make test-heavy runs it")
+    heavy = pytest.mark.skip(
+        reason="heavy tier (a resolution study, about 10 min on 2 cores): make test-heavy runs it"
+    )
     run_heavy = config.getoption("--heavy")
     for item in items:
         if item.get_closest_marker("heavy") is not None and not run_heavy:
